@@ -1,0 +1,260 @@
+"""Bipolar transistor: large-signal DC model and its temperature laws.
+
+The model is the Ebers–Moll transport form with a forward Early factor on
+the transport current only (Ebers & Moll, Proc. IRE 42, 1954; Early,
+Proc. IRE 40, 1952).  Written for an NPN with voltages normalised so that
+forward bias is positive (``v_be = V_B - V_E`` for NPN, ``V_E - V_B`` for
+PNP)::
+
+    i_cc = I_S (exp(v_be/V_T) - exp(v_bc/V_T)) (1 + v_ce/V_A)
+    i_c  = i_cc - (I_S/beta_R) (exp(v_bc/V_T) - 1)
+    i_b  = (I_S/beta_F) (exp(v_be/V_T) - 1) + (I_S/beta_R) (exp(v_bc/V_T) - 1)
+
+The base current carries no Early factor, so the measured gain
+``I_C/I_B = beta_F (1 + V_CE/V_A)`` in forward active differs from the
+model parameter ``beta_F``; the kit reports both.
+
+Temperature laws (Getreu, *Modeling the Bipolar Transistor*, 1976;
+Gummel–Poon temperature scaling, from memory)::
+
+    V_T(T)    = k T / q
+    I_S(T)    = I_S(T0) (T/T0)^XTI exp[(q E_g / k)(1/T0 - 1/T)]
+    beta_F(T) = beta_F(T0) (T/T0)^XTB (1 + TC_beta (T - T0))
+
+The beta law is a power law times a linear factor: set ``xtb = 0`` for the
+purely linear %/K form or ``beta_tc = 0`` (the default) for the power law.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, fields, replace
+
+from scipy import constants
+
+from kit.errors import ParameterError
+
+BOLTZMANN_OVER_CHARGE = constants.k / constants.e  # V/K, exact in the 2019 SI
+
+# Below this many thermal voltages of forward bias a junction is called off:
+# I_C is then below ~3e3 I_S, tens of pA for a small-signal part.
+CUTOFF_THERMAL_VOLTAGES = 8.0
+
+
+def thermal_voltage(temp):
+    """Thermal voltage ``k T / q`` in volts.
+
+    Examples
+    --------
+    >>> round(thermal_voltage(300.15) * 1e3, 4)
+    25.8649
+    """
+    return BOLTZMANN_OVER_CHARGE * temp
+
+
+@dataclass(frozen=True)
+class BJTModel:
+    """Parameters of one transistor, given at the design's reference temperature.
+
+    Parameters
+    ----------
+    polarity : {"npn", "pnp"}
+    i_s : float
+        Transport saturation current in A.
+    beta_f : float
+        Forward current gain *model parameter* (not the measured I_C/I_B).
+    beta_r : float
+        Reverse current gain; matters only near saturation.
+    v_a : float
+        Forward Early voltage in V (``math.inf`` for none).
+    e_g : float
+        Activation energy of I_S in eV (fitted together with ``xti``).
+    xti : float
+        Temperature exponent of I_S.
+    xtb : float
+        Temperature exponent of beta_F (power law).
+    beta_tc : float
+        Linear temperature coefficient of beta_F in 1/K.
+    v_ce_sat : float
+        Collector–emitter voltage, in V, below which the part counts as
+        saturated for compliance (a datasheet-style value that includes
+        collector resistance, not the Ebers–Moll knee).
+    bv_ceo : float
+        Collector–emitter breakdown voltage in V (upper compliance limit).
+    theta_ja : float
+        Junction-to-ambient thermal resistance in K/W.
+    t_j_max : float
+        Maximum junction temperature in K.
+    label : str
+        Where the numbers come from, shown in every report.
+
+    Examples
+    --------
+    >>> TYPICAL_NPN.beta_f
+    200.0
+    >>> TYPICAL_NPN.with_values(beta_f=120).beta_f
+    120.0
+    """
+
+    polarity: str = "npn"
+    i_s: float = 1e-14
+    beta_f: float = 200.0
+    beta_r: float = 2.0
+    v_a: float = 100.0
+    e_g: float = 1.11
+    xti: float = 3.0
+    xtb: float = 1.5
+    beta_tc: float = 0.0
+    v_ce_sat: float = 0.2
+    bv_ceo: float = 40.0
+    theta_ja: float = 250.0
+    t_j_max: float = 423.15
+    label: str = "typical small-signal NPN (generic values from memory, not a part's data)"
+
+    def __post_init__(self):
+        if self.polarity not in ("npn", "pnp"):
+            raise ParameterError("unknown transistor polarity", parameter="polarity",
+                                 value=self.polarity, valid="npn or pnp")
+        for name, (low, high, unit) in MODEL_LIMITS.items():
+            value = getattr(self, name)
+            check_range(name, value, low, high, unit, allow_inf=(name == "v_a"))
+
+    def with_values(self, **changes):
+        """A copy with some parameters changed (validated like the original)."""
+        unknown = set(changes) - {f.name for f in fields(self)}
+        if unknown:
+            raise ParameterError("unknown transistor parameter", parameter=sorted(unknown)[0],
+                                 valid=", ".join(MODEL_LIMITS))
+        return replace(self, **changes)
+
+    def numbers(self):
+        """The numeric parameters as a dict (for parameter vectors and JSON)."""
+        return {name: float(getattr(self, name)) for name in MODEL_LIMITS}
+
+
+# name: (lowest, highest, unit) -- wide enough for any real part, narrow
+# enough to catch a unit slip (a beta of 2e5, an I_S of 1 A).
+MODEL_LIMITS = {
+    "i_s": (1e-22, 1e-6, "A"),
+    "beta_f": (1.0, 1e5, ""),
+    "beta_r": (0.01, 1e3, ""),
+    "v_a": (1.0, 1e4, "V"),
+    "e_g": (0.5, 2.0, "eV"),
+    "xti": (-10.0, 10.0, ""),
+    "xtb": (-5.0, 5.0, ""),
+    "beta_tc": (-0.05, 0.05, "1/K"),
+    "v_ce_sat": (0.0, 2.0, "V"),
+    "bv_ceo": (1.0, 2000.0, "V"),
+    "theta_ja": (0.1, 2000.0, "K/W"),
+    "t_j_max": (300.0, 600.0, "K"),
+}
+
+
+def check_range(name, value, low, high, unit="", *, allow_inf=False):
+    """Raise :class:`ParameterError` unless ``low <= value <= high``.
+
+    Examples
+    --------
+    >>> check_range("beta_f", 150.0, 1.0, 1e5)
+    >>> check_range("beta_f", -3.0, 1.0, 1e5)
+    Traceback (most recent call last):
+    ...
+    kit.errors.ParameterError: beta_f = -3.0: out of range (valid: 1 … 100000)
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ParameterError("must be a number", parameter=name, value=value,
+                             valid=f"{low:g} … {high:g} {unit}".rstrip())
+    if allow_inf and value == math.inf:
+        return
+    if not (low <= value <= high):  # also false for NaN
+        raise ParameterError("out of range", parameter=name, value=value,
+                             valid=f"{low:g} … {high:g} {unit}".rstrip())
+
+
+TYPICAL_NPN = BJTModel()
+TYPICAL_PNP = BJTModel(
+    polarity="pnp", beta_f=150.0, v_a=50.0, v_ce_sat=0.25,
+    label="typical small-signal PNP (generic values from memory, not a part's data)",
+)
+
+
+def typical(polarity):
+    """The generic typical model of a polarity."""
+    return TYPICAL_NPN if polarity == "npn" else TYPICAL_PNP
+
+
+# --- symbolic laws (SymPy imported lazily: the numeric path does not need it)
+
+def operating_symbols(name):
+    """SymPy symbols of a transistor's parameters at the operating temperature."""
+    import sympy as sp
+
+    return {
+        "I_S": sp.Symbol(f"I_S_{name}", positive=True),
+        "beta": sp.Symbol(f"beta_{name}", positive=True),
+        "beta_R": sp.Symbol(f"betaR_{name}", positive=True),
+        "V_A": sp.Symbol(f"V_A_{name}", positive=True),
+    }
+
+
+def temperature_map(name, temp, t_ref, v_t, area=1):
+    """Operating-temperature parameters of transistor ``name`` from its reference values.
+
+    Returns ``(map, reference_symbols)`` where ``map`` sends each operating
+    symbol (see :func:`operating_symbols`) to an expression in the reference
+    symbols ``{name}.i_s`` etc., the temperature ``temp`` and ``t_ref``.
+    """
+    import sympy as sp
+
+    ref = {key: sp.Symbol(f"{name}.{key}", real=True) for key in
+           ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "beta_tc")}
+    op = operating_symbols(name)
+    ratio = temp / t_ref
+    mapping = {
+        op["I_S"]: area * ref["i_s"] * ratio ** ref["xti"]
+        * sp.exp(ref["e_g"] / v_t * (ratio - 1)),
+        op["beta"]: ref["beta_f"] * ratio ** ref["xtb"] * (1 + ref["beta_tc"] * (temp - t_ref)),
+        op["beta_R"]: ref["beta_r"],
+        op["V_A"]: ref["v_a"],
+    }
+    return mapping, ref
+
+
+def junction_laws(polarity, v_b, v_c, v_e, symbols, v_t):
+    """Ebers–Moll currents into the terminals of one transistor.
+
+    Parameters
+    ----------
+    polarity : {"npn", "pnp"}
+    v_b, v_c, v_e : sympy expressions
+        Node voltages of base, collector and emitter.
+    symbols : dict
+        Output of :func:`operating_symbols`.
+    v_t : sympy expression
+        Thermal voltage.
+
+    Returns
+    -------
+    dict
+        ``into_c``, ``into_b``, ``into_e`` (signed currents into the terminals)
+        and the normalised ``v_be``, ``v_bc``, ``v_ce``, ``i_c``, ``i_b``
+        (forward-active positive for either polarity).
+    """
+    import sympy as sp
+
+    sign = 1 if polarity == "npn" else -1
+    v_be = sign * (v_b - v_e)
+    v_bc = sign * (v_b - v_c)
+    v_ce = v_be - v_bc
+    i_s, beta, beta_r, v_a = (symbols[k] for k in ("I_S", "beta", "beta_R", "V_A"))
+    forward = sp.exp(v_be / v_t)
+    reverse = sp.exp(v_bc / v_t)
+    transport = i_s * (forward - reverse) * (1 + v_ce / v_a)
+    i_c = transport - i_s / beta_r * (reverse - 1)
+    i_b = i_s / beta * (forward - 1) + i_s / beta_r * (reverse - 1)
+    return {
+        "into_c": sign * i_c,
+        "into_b": sign * i_b,
+        "into_e": -sign * (i_c + i_b),
+        "v_be": v_be, "v_bc": v_bc, "v_ce": v_ce, "i_c": i_c, "i_b": i_b,
+    }

@@ -1,0 +1,228 @@
+"""Exact numeric operating points: vectorised damped Newton on the exact equations.
+
+Thousands of points (a Monte Carlo run, a sweep) solve at once as arrays.
+Each Newton step is limited so that no forward-biased junction moves by more
+than :data:`JUNCTION_STEP` volts, the classic guard against the exponential
+overshooting.  Every point reports whether it converged; a point that did
+not is never returned as a valid current (:meth:`OperatingPoints.require`).
+
+Operating regions use normalised junction voltages (forward bias positive):
+
+``cutoff``     v_BE and v_BC below :data:`kit.devices.bjt.CUTOFF_THERMAL_VOLTAGES` V_T
+``reverse``    v_BE below that, v_BC above it
+``saturated``  conducting with V_CE < V_CE(sat) (edge ``"vce_sat"``) or V_CB < 0 (edge ``"vcb_zero"``)
+``active``     otherwise (forward active)
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from kit.devices.bjt import CUTOFF_THERMAL_VOLTAGES
+from kit.errors import ConvergenceError, ParameterError
+
+JUNCTION_STEP = 0.1  # V per Newton step for a junction that is forward biased
+NODE_STEP = 2.0  # V per Newton step for any node
+STEP_TOLERANCE = 1e-12  # relative; plus an absolute 1e-14 V
+MAX_ITERATIONS = 200
+EDGES = ("vce_sat", "vcb_zero")
+
+
+@dataclass
+class OperatingPoints:
+    """Solved operating points of one compiled model (arrays over N points).
+
+    Attributes
+    ----------
+    model : kit.derive.CompiledModel
+    p, q, x : ndarray
+        Parameters (P, N), operating values (M, N) and node voltages (n, N).
+    converged : ndarray of bool, shape (N,)
+    iterations : ndarray of int, shape (N,)
+    """
+
+    model: object
+    p: np.ndarray
+    q: np.ndarray
+    x: np.ndarray
+    converged: np.ndarray
+    iterations: np.ndarray
+
+    @property
+    def size(self):
+        return self.x.shape[1]
+
+    @cached_property
+    def i_out(self):
+        """Output current in A, positive in the topology's sense."""
+        return self.model.output(self.x, self.q)
+
+    @cached_property
+    def junctions(self):
+        """Transistor name -> dict of normalised ``v_be, v_bc, v_ce, i_c, i_b``."""
+        return self.model.junctions(self.x, self.q)
+
+    @cached_property
+    def dissipation(self):
+        """Transistor name -> power in W, ``V_CE I_C + V_BE I_B``."""
+        return {name: j["v_ce"] * j["i_c"] + j["v_be"] * j["i_b"] for name, j in self.junctions.items()}
+
+    def regions(self, edge="vce_sat", v_ce_sat=None):
+        """Transistor name -> array of region names (see the module docstring).
+
+        ``v_ce_sat`` maps transistor name -> V_CE(sat) in V (used by ``"vce_sat"``).
+        """
+        if edge not in EDGES:
+            raise ParameterError("unknown saturation edge", parameter="edge", value=edge,
+                                 valid=" or ".join(EDGES))
+        v_t = self.q[self.model.operating_index["V_T"]]
+        off = CUTOFF_THERMAL_VOLTAGES * v_t
+        out = {}
+        for name, j in self.junctions.items():
+            if edge == "vce_sat":
+                saturated = j["v_ce"] < (v_ce_sat or {}).get(name, 0.2)
+            else:
+                saturated = j["v_bc"] > 0.0
+            region = np.where(saturated, "saturated", "active").astype(object)
+            region[(j["v_be"] < off) & (j["v_bc"] >= off)] = "reverse"
+            region[(j["v_be"] < off) & (j["v_bc"] < off)] = "cutoff"
+            out[name] = region
+        return out
+
+    @cached_property
+    def _gradients(self):
+        m = self.model
+        jx = np.moveaxis(m.jacobian_x(self.x, self.q), -1, 0)  # (N, n, n)
+        jq = np.moveaxis(m.jacobian_q(self.x, self.q), -1, 0)  # (N, n, M)
+        dx_dq = -_batched_solve(jx, jq)
+        d_x, d_q = m.output_gradients(self.x, self.q)
+        di_dq = d_q.T + np.einsum("ni,nim->nm", d_x.T, dx_dq)  # (N, M)
+        dq_dp = m.dq_dp(self.p)  # (M, P, N)
+        di_dp = np.einsum("nm,mpn->np", di_dq, dq_dp)
+        return di_dq.T, di_dp.T, dq_dp
+
+    @property
+    def di_dq(self):
+        """Exact dI_out/dq (M, N) over the operating values (implicit function theorem)."""
+        return self._gradients[0]
+
+    @property
+    def di_dp(self):
+        """Exact dI_out/dp (P, N) over the designer's parameters."""
+        return self._gradients[1]
+
+    @property
+    def dq_dp(self):
+        return self._gradients[2]
+
+    @property
+    def r_out(self):
+        """Exact small-signal output resistance in Ω, from dI_out/dV_load."""
+        slope = self.di_dq[self.model.load_index]
+        with np.errstate(divide="ignore"):
+            return np.where(slope != 0, self.model.output_sign / slope, np.inf)
+
+    def require(self, what="operating point"):
+        """Raise :class:`ConvergenceError` if any point did not converge."""
+        bad = np.flatnonzero(~self.converged)
+        if bad.size:
+            raise ConvergenceError(
+                f"the exact solve did not converge at {bad.size} of {self.size} points "
+                f"(first: point {bad[0]})", parameter=what)
+        return self
+
+
+def _batched_solve(a, b):
+    """Solve ``a @ x = b`` for stacks of matrices; fall back to least squares if singular."""
+    try:
+        return np.linalg.solve(a, b)
+    except np.linalg.LinAlgError:
+        out = np.empty(a.shape[:1] + a.shape[2:3] + b.shape[2:])
+        for k in range(a.shape[0]):
+            out[k] = np.linalg.lstsq(a[k], b[k], rcond=None)[0]
+        return out
+
+
+def parameter_array(model, values, size=None):
+    """Stack a name -> scalar-or-array mapping into the (P, N) parameter array.
+
+    Every parameter of the model must be present; arrays broadcast together.
+    """
+    missing = [n for n in model.parameter_names if n not in values]
+    if missing:
+        raise ParameterError("missing parameter", parameter=missing[0],
+                             valid="all of " + ", ".join(model.parameter_names))
+    arrays = [np.asarray(values[n], dtype=float) for n in model.parameter_names]
+    shape = np.broadcast_shapes(*(a.shape for a in arrays), () if size is None else (size,))
+    if len(shape) > 1:
+        raise ParameterError("parameter arrays must be one-dimensional", parameter="values")
+    shape = shape or (1,)
+    p = np.stack([np.broadcast_to(a, shape) for a in arrays])
+    for name, row in zip(model.parameter_names, p):
+        if not np.all(np.isfinite(row) | (np.isposinf(row) & name.endswith(".v_a"))):
+            raise ParameterError("must be finite", parameter=name, value=float(row[~np.isfinite(row)][0]))
+    return p
+
+
+def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
+    """Exact operating points for parameter values (arrays broadcast together).
+
+    Parameters
+    ----------
+    model : kit.derive.CompiledModel
+    values : dict
+        Every parameter name -> scalar or 1-D array.
+    x0 : ndarray, optional
+        Starting node voltages (n, N); default the topology's closed-form guess.
+
+    Returns
+    -------
+    OperatingPoints
+    """
+    p = parameter_array(model, values)
+    q = model.operating(p)
+    x = model.topology.initial_guess(model, q) if x0 is None else np.array(x0, dtype=float)
+    x = np.broadcast_to(x, (len(model.unknowns), p.shape[1])).copy()
+    converged = np.zeros(p.shape[1], dtype=bool)
+    iterations = np.zeros(p.shape[1], dtype=int)
+    pending = np.arange(p.shape[1])
+    for iteration in range(1, max_iterations + 1):
+        xs, qs = x[:, pending], q[:, pending]
+        step = _newton_step(model, xs, qs)
+        done = np.all(np.abs(step) <= STEP_TOLERANCE * np.abs(xs) + 1e-14, axis=0)
+        x[:, pending] = xs + step
+        finite = np.all(np.isfinite(x[:, pending]), axis=0)
+        iterations[pending] = iteration
+        converged[pending[done & finite]] = True
+        pending = pending[~done & finite]
+        if pending.size == 0:
+            break
+    # A converged step may still sit on a large residual if the Jacobian was
+    # singular there; confirm against the currents flowing at each node.
+    f = np.abs(model.residuals(x, q))
+    scale = model.scales(x, q)
+    converged &= np.all(f <= 1e-9 * scale + 1e-18, axis=0)
+    return OperatingPoints(model, p, q, x, converged, iterations)
+
+
+def _newton_step(model, x, q):
+    f = model.residuals(x, q)
+    jac = np.moveaxis(model.jacobian_x(x, q), -1, 0)
+    step = -_batched_solve(jac, np.moveaxis(f, -1, 0)[..., None])[..., 0].T
+    step = np.where(np.isfinite(step), step, 0.0)
+    # Limit the move of junctions that end up forward biased.
+    before = model.junctions(x, q)
+    after = model.junctions(x + step, q)
+    fraction = np.ones(x.shape[1])
+    for name in before:
+        for key in ("v_be", "v_bc"):
+            rise = after[name][key] - before[name][key]
+            limited = (after[name][key] > 0.3) & (rise > JUNCTION_STEP)
+            fraction = np.where(limited, np.minimum(fraction, JUNCTION_STEP / np.where(limited, rise, 1.0)),
+                                fraction)
+    largest = np.max(np.abs(step), axis=0)
+    fraction = np.minimum(fraction, NODE_STEP / np.maximum(largest, NODE_STEP))
+    return step * fraction
