@@ -45,7 +45,10 @@ class Equations:
     output_sign : int
         +1 for a sink (current rises with load voltage), -1 for a source.
     transistors : dict
-        Name -> dict of normalised ``v_be, v_bc, v_ce, i_c, i_b`` expressions.
+        Name -> dict of the device's exported quantities (for a BJT the
+        normalised ``v_be, v_bc, v_ce, i_c, i_b``).
+    kinds : dict
+        Name -> kind of device (a key of :data:`kit.devices.KINDS`).
     extras : dict
         Further named expressions in ``x`` and ``q`` (small-signal forms).
     closed_forms : dict
@@ -61,6 +64,7 @@ class Equations:
     load: sp.Symbol
     output_sign: int
     transistors: dict
+    kinds: dict
     extras: dict = field(default_factory=dict)
     closed_forms: dict = field(default_factory=dict)
 
@@ -96,6 +100,7 @@ class Circuit:
         self.operating = {}
         self.parameters = {}
         self.transistors = {}
+        self.kinds = {}
         self.temp = self.parameter("temp")
         self.t_ref = self.parameter("t_ref")
         self.v_t = sp.Symbol("V_T", positive=True)
@@ -189,8 +194,15 @@ class Circuit:
         self._leaving(collector, law["into_c"])
         self._leaving(base, law["into_b"])
         self._leaving(emitter, law["into_e"])
-        self.transistors[name] = {k: law[k] for k in ("v_be", "v_bc", "v_ce", "i_c", "i_b")}
+        self.add_device(name, bjt.KIND, {k: law[k] for k in bjt.QUANTITIES})
         return symbols
+
+    def add_device(self, name, kind, quantities):
+        """Register a device's exported quantities (for device kinds added elsewhere)."""
+        if name in self.transistors:
+            raise ValueError(f"device {name} added twice")
+        self.transistors[name] = quantities
+        self.kinds[name] = kind
 
     # -- result -----------------------------------------------------------
     def equations(self, *, extras=None, closed_forms=None, hand_parameters=()):
@@ -213,6 +225,7 @@ class Circuit:
             load=self._load,
             output_sign=self._output_sign,
             transistors=dict(self.transistors),
+            kinds=dict(self.kinds),
             extras=dict(extras or {}),
             closed_forms=dict(closed_forms or {}),
         )

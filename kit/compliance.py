@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq
 
+from kit.devices import KINDS
 from kit.errors import OperatingPointError
 from kit.solve import solve_points
 
@@ -43,7 +44,7 @@ class Edge:
     def describe(self):
         if self.transistor is None:
             return "end of the searched range"
-        return f"{self.transistor} {CAUSES[self.cause]}"
+        return f"{self.transistor} {CAUSES.get(self.cause, self.cause.replace('_', ' '))}"
 
     def to_dict(self):
         return {"voltage": self.voltage, "transistor": self.transistor, "cause": self.cause,
@@ -74,19 +75,14 @@ def margins(points, devices, edge="vce_sat"):
     temp = points.p[points.model.parameter_index["temp"]]
     v_t = points.q[points.model.operating_index["V_T"]]
     out = {}
-    from kit.devices.bjt import CUTOFF_THERMAL_VOLTAGES
-
     for name, j in points.junctions.items():
-        device = devices[name]
-        if edge == "vce_sat":
-            out[name, "saturation"] = j["v_ce"] - device.v_ce_sat
-        else:
-            out[name, "saturation"] = -j["v_bc"]
-        out[name, "cutoff"] = j["v_be"] - CUTOFF_THERMAL_VOLTAGES * v_t
-        out[name, "breakdown"] = device.bv_ceo - j["v_ce"]
-        allowed = (device.t_j_max - temp) / device.theta_ja
-        # Margins mix volts and watts: only their signs and continuity matter here.
-        out[name, "power"] = allowed - points.dissipation[name]
+        kind = KINDS[points.model.transistor_kinds[name]]
+        for cause, margin in kind.margins(j, v_t, temp, devices[name], edge).items():
+            out[name, cause] = margin
+    # Limits of other parts (an op-amp's output swing, say) come from the topology.
+    limits = getattr(points.model.topology, "limits", None)
+    if limits is not None:
+        out.update(limits(points))
     out[None, "solve"] = np.where(points.converged, np.inf, -np.inf)
     return out
 

@@ -225,9 +225,7 @@ def generate(equations, key):
     operating = [equations.operating[s].xreplace(to_p) for s in q]
     dq_dp = [(j, k, sp.diff(operating[j], ps[k])) for j in range(len(q)) for k in range(len(p))]
     dq_dp = [(j, k, e) for j, k, e in dq_dp if e != 0]
-    quantities = ("v_be", "v_bc", "v_ce", "i_c", "i_b")
-    junctions = [e for name in equations.transistors for e in
-                 xq([equations.transistors[name][k] for k in quantities])]
+    junctions = [e for name in equations.transistors for e in xq(list(equations.transistors[name].values()))]
     extras = xq(list(equations.extras.values()))
     closed = xq(list(equations.closed_forms.values()))
     closed_grad = [(c, j, sp.diff(e, qs[j])) for c, e in enumerate(closed) for j in range(len(qs))]
@@ -256,7 +254,8 @@ def generate(equations, key):
         "unknowns": [s.name for s in x],
         "operating": [s.name for s in q],
         "parameters": [s.name for s in p],
-        "transistors": list(equations.transistors),
+        "transistors": [[name, equations.kinds[name], list(quantities)]
+                        for name, quantities in equations.transistors.items()],
         "extras": list(equations.extras),
         "closed_forms": list(equations.closed_forms),
         "output_sign": equations.output_sign,
@@ -349,7 +348,9 @@ class CompiledModel:
         self.unknowns = manifest["unknowns"]
         self.operating_names = manifest["operating"]
         self.parameter_names = manifest["parameters"]
-        self.transistors = manifest["transistors"]
+        self.transistors = [name for name, _, _ in manifest["transistors"]]
+        self.transistor_kinds = {name: kind for name, kind, _ in manifest["transistors"]}
+        self._quantity_keys = [(name, keys) for name, _, keys in manifest["transistors"]]
         self.extra_names = manifest["extras"]
         self.closed_form_names = manifest["closed_forms"]
         self.output_sign = manifest["output_sign"]
@@ -400,10 +401,9 @@ class CompiledModel:
         return d_x, d_q
 
     def junctions(self, x, q):
-        """Name -> dict of ``v_be, v_bc, v_ce, i_c, i_b`` arrays."""
-        values = _stack(self.module.junctions(x, q), x.shape[1:])
-        keys = ("v_be", "v_bc", "v_ce", "i_c", "i_b")
-        return {name: dict(zip(keys, values[5 * t: 5 * t + 5])) for t, name in enumerate(self.transistors)}
+        """Device name -> dict of its exported quantities (arrays)."""
+        values = iter(_stack(self.module.junctions(x, q), x.shape[1:]))
+        return {name: {key: next(values) for key in keys} for name, keys in self._quantity_keys}
 
     def extras(self, x, q):
         values = _stack(self.module.extras(x, q), x.shape[1:])

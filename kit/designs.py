@@ -17,7 +17,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 
-from kit.devices import bjt
+from kit.devices import KINDS, bjt
 from kit.errors import ParameterError
 
 DEFAULT_TEMPERATURE = 298.15  # K, 25 degC
@@ -91,8 +91,9 @@ class Design:
         """The full parameter vector as a name -> float dict."""
         out = dict(self.values)
         for name, model in self.devices.items():
+            wanted = KINDS[self.spec.kind_of(name)].EQUATION_PARAMETERS
             for key, value in model.numbers().items():
-                if key in DEVICE_EQUATION_PARAMETERS:
+                if key in wanted:
                     out[f"{name}.{key}"] = value
         out["temp"] = self.temp
         out["t_ref"] = self.t_ref
@@ -140,10 +141,6 @@ class Design:
         }
 
 
-# Transistor parameters that enter the exact equations (the rest are ratings).
-DEVICE_EQUATION_PARAMETERS = ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "beta_tc")
-
-
 def _check_values(top, values):
     names = [v.name for v in top.values]
     unknown = sorted(set(values) - set(names))
@@ -173,12 +170,13 @@ def _check_devices(top, polarity, devices):
     out = {}
     for name in top.transistors:
         wanted = transistor_polarity(top, polarity, name)
-        model = devices.get(name, bjt.typical(wanted))
+        kind = KINDS[top.kind_of(name)]
+        model = devices.get(name, kind.typical(wanted))
         if isinstance(model, dict):
-            model = bjt.typical(wanted).with_values(**model)
-        if not isinstance(model, bjt.BJTModel):
-            raise ParameterError("must be a BJTModel or a dict of its parameters", parameter=name,
-                                 value=type(model).__name__)
+            model = kind.typical(wanted).with_values(**model)
+        if not isinstance(model, kind.MODEL):
+            raise ParameterError(f"must be a {kind.MODEL.__name__} or a dict of its parameters",
+                                 parameter=name, value=type(model).__name__)
         if model.polarity != wanted:
             raise ParameterError(f"{name} must be {wanted.upper()}", parameter=f"{name}.polarity",
                                  value=model.polarity, valid=wanted)

@@ -132,8 +132,7 @@ class Evaluation:
 
     @cached_property
     def regions(self):
-        v_sat = {n: d.v_ce_sat for n, d in self.design.devices.items()}
-        return {n: str(r[0]) for n, r in self.points.regions(self.edge, v_sat).items()}
+        return {n: str(r[0]) for n, r in self.points.regions(self.edge, self.design.devices).items()}
 
     @cached_property
     def transistors(self):
@@ -141,7 +140,8 @@ class Evaluation:
         out = {}
         for name, j in self.points.junctions.items():
             values = {k: float(v[0]) for k, v in j.items()}
-            values["beta_measured"] = values["i_c"] / values["i_b"]
+            if "i_b" in values:
+                values["beta_measured"] = values["i_c"] / values["i_b"]
             values["dissipation"] = float(self.points.dissipation[name][0])
             out[name] = values
         return out

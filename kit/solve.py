@@ -21,7 +21,7 @@ from functools import cached_property
 
 import numpy as np
 
-from kit.devices.bjt import CUTOFF_THERMAL_VOLTAGES
+from kit.devices import KINDS
 from kit.errors import ConvergenceError, ParameterError
 
 JUNCTION_STEP = 0.1  # V per Newton step for a junction that is forward biased
@@ -65,32 +65,40 @@ class OperatingPoints:
         """Transistor name -> dict of normalised ``v_be, v_bc, v_ce, i_c, i_b``."""
         return self.model.junctions(self.x, self.q)
 
+    def _kind(self, name):
+        return KINDS[self.model.transistor_kinds[name]]
+
     @cached_property
     def dissipation(self):
-        """Transistor name -> power in W, ``V_CE I_C + V_BE I_B``."""
-        return {name: j["v_ce"] * j["i_c"] + j["v_be"] * j["i_b"] for name, j in self.junctions.items()}
+        """Transistor name -> power in W (for a BJT ``V_CE I_C + V_BE I_B``)."""
+        return {name: self._kind(name).dissipation(j) for name, j in self.junctions.items()}
 
-    def regions(self, edge="vce_sat", v_ce_sat=None):
+    def _devices(self, devices):
+        devices = devices or {}
+        return {name: devices.get(name) or self._kind(name).typical(_device_polarity(self, name))
+                for name in self.junctions}
+
+    def regions(self, edge="vce_sat", devices=None):
         """Transistor name -> array of region names (see the module docstring).
 
-        ``v_ce_sat`` maps transistor name -> V_CE(sat) in V (used by ``"vce_sat"``).
+        ``devices`` maps transistor name -> device model (for its ratings, such
+        as V_CE(sat)); missing ones use the typical model.
         """
         if edge not in EDGES:
             raise ParameterError("unknown saturation edge", parameter="edge", value=edge,
                                  valid=" or ".join(EDGES))
         v_t = self.q[self.model.operating_index["V_T"]]
-        off = CUTOFF_THERMAL_VOLTAGES * v_t
-        out = {}
-        for name, j in self.junctions.items():
-            if edge == "vce_sat":
-                saturated = j["v_ce"] < (v_ce_sat or {}).get(name, 0.2)
-            else:
-                saturated = j["v_bc"] > 0.0
-            region = np.where(saturated, "saturated", "active").astype(object)
-            region[(j["v_be"] < off) & (j["v_bc"] >= off)] = "reverse"
-            region[(j["v_be"] < off) & (j["v_bc"] < off)] = "cutoff"
-            out[name] = region
-        return out
+        models = self._devices(devices)
+        return {name: self._kind(name).regions(j, v_t, models[name], edge)
+                for name, j in self.junctions.items()}
+
+    def in_good_region(self, edge="vce_sat", devices=None):
+        """Boolean array: every transistor in the region its kind needs (forward active)."""
+        regions = self.regions(edge, devices)
+        good = np.ones(self.size, dtype=bool)
+        for name, region in regions.items():
+            good &= region == self._kind(name).GOOD_REGION
+        return good
 
     @cached_property
     def _gradients(self):
@@ -205,7 +213,19 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     f = np.abs(model.residuals(x, q))
     scale = model.scales(x, q)
     converged &= np.all(f <= 1e-9 * scale + 1e-18, axis=0)
-    return OperatingPoints(model, p, q, x, converged, iterations)
+    points = OperatingPoints(model, p, q, x, converged, iterations)
+    # Self-biased cells also solve at zero current: a topology can refuse that branch.
+    valid_branch = getattr(model.topology, "valid_branch", None)
+    if valid_branch is not None:
+        points.converged &= valid_branch(points)
+    return points
+
+
+def _device_polarity(points, name):
+    """Polarity of a device as its topology places it."""
+    from kit.designs import transistor_polarity
+
+    return transistor_polarity(points.model.topology, points.model.polarity, name)
 
 
 def _newton_step(model, x, q):
@@ -218,7 +238,7 @@ def _newton_step(model, x, q):
     after = model.junctions(x + step, q)
     fraction = np.ones(x.shape[1])
     for name in before:
-        for key in ("v_be", "v_bc"):
+        for key in KINDS[model.transistor_kinds[name]].STEP_LIMITED:
             rise = after[name][key] - before[name][key]
             limited = (after[name][key] > 0.3) & (rise > JUNCTION_STEP)
             fraction = np.where(limited, np.minimum(fraction, JUNCTION_STEP / np.where(limited, rise, 1.0)),

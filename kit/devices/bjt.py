@@ -183,6 +183,52 @@ def typical(polarity):
     return TYPICAL_NPN if polarity == "npn" else TYPICAL_PNP
 
 
+# --- what the solver and the compliance search need to know of this kind
+
+KIND = "bjt"
+MODEL = BJTModel
+QUANTITIES = ("v_be", "v_bc", "v_ce", "i_c", "i_b")
+STEP_LIMITED = ("v_be", "v_bc")  # junction voltages whose Newton step is limited
+EQUATION_PARAMETERS = ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "beta_tc")
+GOOD_REGION = "active"
+
+
+def dissipation(j):
+    """Power in W: ``V_CE I_C + V_BE I_B``."""
+    return j["v_ce"] * j["i_c"] + j["v_be"] * j["i_b"]
+
+
+def regions(j, v_t, device, edge="vce_sat"):
+    """Region names (``active``, ``saturated``, ``cutoff``, ``reverse``) of solved points.
+
+    ``edge`` is ``"vce_sat"`` (saturated below the model's ``v_ce_sat``) or
+    ``"vcb_zero"`` (saturated once the collector-base junction is forward biased).
+    """
+    import numpy as np
+
+    off = CUTOFF_THERMAL_VOLTAGES * v_t
+    saturated = j["v_ce"] < device.v_ce_sat if edge == "vce_sat" else j["v_bc"] > 0.0
+    region = np.where(saturated, "saturated", "active").astype(object)
+    region[(j["v_be"] < off) & (j["v_bc"] >= off)] = "reverse"
+    region[(j["v_be"] < off) & (j["v_bc"] < off)] = "cutoff"
+    return region
+
+
+def margins(j, v_t, temp, device, edge="vce_sat"):
+    """Distance to each limit of forward-active operation (>= 0 inside), by cause.
+
+    Causes: ``saturation`` (V), ``cutoff`` (V), ``breakdown`` (V) and
+    ``power`` (W, against ``(T_J,max - T)/theta_JA`` at temperature ``temp``).
+    """
+    saturation = j["v_ce"] - device.v_ce_sat if edge == "vce_sat" else -j["v_bc"]
+    return {
+        "saturation": saturation,
+        "cutoff": j["v_be"] - CUTOFF_THERMAL_VOLTAGES * v_t,
+        "breakdown": device.bv_ceo - j["v_ce"],
+        "power": (device.t_j_max - temp) / device.theta_ja - dissipation(j),
+    }
+
+
 # --- symbolic laws (SymPy imported lazily: the numeric path does not need it)
 
 def operating_symbols(name):

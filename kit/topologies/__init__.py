@@ -1,20 +1,43 @@
 """The registry of supported topologies, one module per family.
 
+Every module in this package that defines ``TOPOLOGIES`` (a tuple) or
+``TOPOLOGY`` is registered; listings follow each topology's ``order``.
+
 >>> from kit import topologies
->>> [t.key for t in topologies.all_topologies()][:1]
-['divider_source']
+>>> topologies.all_topologies()[0].key
+'divider_source'
 """
 
 from __future__ import annotations
 
-from kit.errors import ParameterError
-from kit.topologies import divider
+import importlib
+import pkgutil
 
-_REGISTRY = {t.key: t for t in (divider.TOPOLOGY,)}
+from kit.errors import ParameterError
+
+
+def _discover():
+    found = []
+    for info in pkgutil.iter_modules(__path__):
+        if info.name == "base":
+            continue
+        module = importlib.import_module(f"{__name__}.{info.name}")
+        found += list(getattr(module, "TOPOLOGIES", ())) or (
+            [module.TOPOLOGY] if hasattr(module, "TOPOLOGY") else [])
+    found.sort(key=lambda t: (t.order, t.key))
+    registry = {}
+    for topology in found:
+        if topology.key in registry:
+            raise RuntimeError(f"two topologies are named {topology.key}")
+        registry[topology.key] = topology
+    return registry
+
+
+_REGISTRY = _discover()
 
 
 def all_topologies():
-    """Every topology, in the order the documentation lists them."""
+    """Every topology, in listing order."""
     return list(_REGISTRY.values())
 
 

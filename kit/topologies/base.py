@@ -96,6 +96,17 @@ class Topology:
     derived: tuple = ("I_out", "dI/dbeta", "dI/dT", "dI/dR", "dI/dV_supply", "R_out", "compliance",
                       "dissipation", "ledger")
     hand_parameters: tuple = ("v_be_on", "v_be_tc")
+    kinds: dict = field(default_factory=dict)  # device name -> kind, default "bjt"
+    complementary: tuple = ()  # devices of the opposite polarity to the design's
+    notes: tuple = ()  # design cautions shown with every result (start-up, stability, ...)
+    order: int = 100  # position in listings
+    draw: object = field(default=None, repr=False)  # design -> schemdraw.Drawing
+    limits: object = field(default=None, repr=False)  # points -> {(part, cause): margin}
+    valid_branch: object = field(default=None, repr=False)  # points -> bool array
+
+    def kind_of(self, name):
+        """Kind of device ``name`` (a key of :data:`kit.devices.KINDS`)."""
+        return self.kinds.get(name, "bjt")
 
     def equations(self, polarity):
         """The exact equations (SymPy) of one polarity."""
@@ -141,6 +152,7 @@ class Topology:
                  "range": [v.low, v.high]} for v in self.values
             ],
             "derived": list(self.derived),
+            "notes": list(self.notes),
             "simplifications": [
                 {"name": s.key, "label": s.label,
                  "assumptions": [ASSUMPTIONS[a] for a in s.assumptions], "source": s.source}

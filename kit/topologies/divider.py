@@ -124,6 +124,7 @@ def guess(model, q):
 
 TOPOLOGY = Topology(
     key="divider_source",
+    order=10,
     title="Divider-biased emitter-degenerated source",
     description=("One transistor with an emitter resistor, its base held by a resistive divider "
                  "from the supply (base-current loading included). NPN sinks, PNP sources."),
