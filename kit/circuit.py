@@ -83,24 +83,24 @@ class Circuit:
     resistor to 0 V gives one KCL residual:
 
     >>> c = Circuit("npn")
-    >>> c.rail("vcc", c.parameter("v_supply"))
+    >>> c.rail("cc", c.parameter("v_supply"))
     >>> c.rail("0", 0)
     >>> _ = c.node("m")
-    >>> _ = c.resistor("R1", "vcc", "m", "r1")
+    >>> _ = c.resistor("R1", "cc", "m", "r1")
     >>> _ = c.resistor("R2", "m", "0", "r2")
     >>> c.kcl["m"]
-    [-(-V_m + V_CC)/R1, V_m/R2]
+    [-(V_CC - V_m)/R1, V_m/R2]
     """
 
     def __init__(self, polarity):
         self.polarity = polarity
         self.voltages = {}
-        self.unknowns = []
         self.kcl = {}
         self.operating = {}
         self.parameters = {}
         self.transistors = {}
         self.kinds = {}
+        self.driven = {}
         self.temp = self.parameter("temp")
         self.t_ref = self.parameter("t_ref")
         self.v_t = sp.Symbol("V_T", positive=True)
@@ -135,8 +135,19 @@ class Circuit:
         """An unknown node; its voltage is solved for."""
         symbol = sp.Symbol(f"V_{node}", real=True)
         self.voltages[node] = symbol
-        self.unknowns.append(symbol)
         self.kcl[node] = []
+        return symbol
+
+    def driven_node(self, node, expression):
+        """An unknown node whose voltage is set by ``expression`` (an ideal driver).
+
+        Its residual is ``V_node - expression`` instead of KCL: the driver (an
+        op-amp output, say) supplies whatever current the node needs, so the
+        parts' currents at this node are not summed.
+        """
+        symbol = sp.Symbol(f"V_{node}", real=True)
+        self.voltages[node] = symbol
+        self.driven[node] = (symbol, expression)
         return symbol
 
     def _leaving(self, node, current):
@@ -215,8 +226,13 @@ class Circuit:
             self.parameter(name)
         residuals = [sp.Add(*terms) for terms in self.kcl.values()]
         scales = [sp.Add(*[sp.Abs(t) for t in terms]) for terms in self.kcl.values()]
+        for symbol, expression in self.driven.values():
+            residuals.append(symbol - expression)
+            scales.append(sp.Abs(symbol) + sp.Abs(expression))
+        # Unknowns in the order of their residuals, so the Jacobian stays diagonal-heavy.
+        order = [self.voltages[n] for n in self.kcl] + [s for s, _ in self.driven.values()]
         return Equations(
-            unknowns=list(self.unknowns),
+            unknowns=order,
             residuals=residuals,
             scales=scales,
             operating=dict(self.operating),

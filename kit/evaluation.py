@@ -19,6 +19,7 @@ import numpy as np
 from kit import display
 from kit.compliance import find_compliance, worst_margin
 from kit.derive import compile_model
+from kit.devices import KINDS
 from kit.errors import OperatingPointError
 from kit.quantities import format_quantity, format_temperature
 from kit.solve import solve_points
@@ -92,7 +93,8 @@ def _unit_of(design, name):
         return spec.value_spec(name).unit
     if name == "temp":
         return "K"
-    return {"beta_f": "", "v_a": "V", "i_s": "A"}.get(name.split(".")[-1], "")
+    device, _, key = name.partition(".")
+    return KINDS[spec.kind_of(device)].SENSITIVITY_PARAMETERS.get(key, "")
 
 
 class Evaluation:
@@ -162,7 +164,8 @@ class Evaluation:
         params = self.design.parameters()
         names = [v.name for v in self.design.spec.values if v.kind != "load"]
         for transistor in self.design.spec.transistors:
-            names += [f"{transistor}.beta_f", f"{transistor}.v_a"]
+            kind = KINDS[self.design.spec.kind_of(transistor)]
+            names += [f"{transistor}.{key}" for key in kind.SENSITIVITY_PARAMETERS]
         names.append("temp")
         out = []
         for name in names:
@@ -186,7 +189,8 @@ class Evaluation:
         out = []
         for name, a, b in zip(self.model.operating_names, di_dq, dq_dt):
             if b != 0 and a != 0:
-                out.append((_budget_label(name), float(a * b / self.i_out)))
+                label = self.design.spec.budget_labels.get(name) or _budget_label(name)
+                out.append((label, float(a * b / self.i_out)))
         return sorted(out, key=lambda item: -abs(item[1]))
 
     # -- ledger ----------------------------------------------------------------
@@ -346,11 +350,16 @@ def _format_value(s):
 def _budget_label(name):
     if name == "V_T":
         return "thermal voltage V_T = kT/q"
-    for prefix, text in (("I_S_", "saturation current I_S"), ("betaR_", "reverse gain β_R"),
-                         ("beta_", "current gain β_F"), ("V_A_", "Early voltage V_A")):
-        if name.startswith(prefix):
-            return f"{text} of {name[len(prefix):]}"
-    return f"TCR of {name}"
+    for kind in KINDS.values():
+        for prefix, text in kind.BUDGET_LABELS.items():
+            if name.startswith(prefix):
+                return f"{text} of {name[len(prefix):]}"
+    return TEMPERATURE_LABELS.get(name, f"TCR of {name}")
+
+
+# Operating values with a temperature law of their own (topologies add theirs here
+# through Topology.budget_labels).
+TEMPERATURE_LABELS = {"V_BE_on": "hand-analysis V_BE(on)"}
 
 
 def evaluate(design, *, edge="vce_sat"):

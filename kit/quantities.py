@@ -49,7 +49,7 @@ class _KelvinQuantity(_KiloQuantity):
 _KelvinQuantity.set_prefs(input_sf="TGMk_munpfaµμ")
 
 _UNIT_ALIASES = {"Ohm": OHM, "ohm": OHM, "Ohms": OHM, "ohms": OHM, "R": OHM,
-                  "%": "", "1": "", "ppm/K": "1/K", "/K": "1/K"}
+                 "\u2126": OHM, "%": "", "1": "", "ppm/K": "1/K", "/K": "1/K"}
 _RATIO = "% or ppm"  # unit found in "1 %" or "100 ppm"; "" means none was given
 _RKM_EXPONENT = {"R": 0, "K": 3, "k": 3, "M": 6, "G": 9, "T": 12, "m": -3,
                  "u": -6, MICRO_SIGN: -6, "\u03bc": -6, "n": -9, "p": -12}

@@ -191,6 +191,10 @@ QUANTITIES = ("v_be", "v_bc", "v_ce", "i_c", "i_b")
 STEP_LIMITED = ("v_be", "v_bc")  # junction voltages whose Newton step is limited
 EQUATION_PARAMETERS = ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "beta_tc")
 GOOD_REGION = "active"
+SENSITIVITY_PARAMETERS = {"beta_f": "", "v_a": "V"}  # reported per device, with units
+# Operating-symbol prefixes -> what the tempco budget calls them.
+BUDGET_LABELS = {"I_S_": "saturation current I_S", "betaR_": "reverse gain β_R",
+                 "beta_": "current gain β_F", "V_A_": "Early voltage V_A"}
 
 
 def dissipation(j):

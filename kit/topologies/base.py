@@ -103,6 +103,7 @@ class Topology:
     draw: object = field(default=None, repr=False)  # design -> schemdraw.Drawing
     limits: object = field(default=None, repr=False)  # points -> {(part, cause): margin}
     valid_branch: object = field(default=None, repr=False)  # points -> bool array
+    budget_labels: dict = field(default_factory=dict)  # operating symbol -> tempco budget label
 
     def kind_of(self, name):
         """Kind of device ``name`` (a key of :data:`kit.devices.KINDS`)."""

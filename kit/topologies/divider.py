@@ -122,6 +122,40 @@ def guess(model, q):
     return np.stack([order[name] for name in model.unknowns])
 
 
+def draw(design, d):
+    """Schematic with the present values (see :mod:`kit.schematic`)."""
+    import schemdraw.elements as elm
+
+    from kit.quantities import format_quantity
+    from kit.schematic import value_label
+
+    npn = design.polarity == "npn"
+    supply = format_quantity(design.values["v_supply"], "V")
+    rail = elm.Vdd().label(f"V_CC {supply}")
+    elm.Line().right(UNIT_WIDTH)
+    elm.Line().left(UNIT_WIDTH).at(rail.start)
+    elm.Resistor().down().label(value_label(design, "r1", "R1"))
+    d.push()
+    elm.Line().right(1.0)
+    if npn:
+        q = elm.BjtNpn(circle=True).anchor("base").label("Q1", loc="right")
+        elm.Resistor().down().at(q.emitter).label(value_label(design, "r_e", "R_E"))
+        elm.Ground()
+        elm.Line().up(0.8).at(q.collector)
+        elm.Dot(open=True).label("load (sink)", loc="right")
+    else:
+        q = elm.BjtPnp(circle=True).anchor("base").label("Q1", loc="right")
+        elm.Resistor().up().at(q.emitter).toy(rail.start).label(value_label(design, "r_e", "R_E"))
+        elm.Line().down(0.8).at(q.collector)
+        elm.Dot(open=True).label("load (source)", loc="right")
+    d.pop()
+    elm.Resistor().down().label(value_label(design, "r2", "R2"))
+    elm.Ground()
+
+
+UNIT_WIDTH = 3.0
+
+
 TOPOLOGY = Topology(
     key="divider_source",
     order=10,
@@ -135,5 +169,6 @@ TOPOLOGY = Topology(
     simplifications=SIMPLIFICATIONS,
     build=build,
     guess=guess,
+    draw=draw,
     extras={"r_out_hybrid_pi": "R_out, hybrid-π form r_o[1 + βR_E/(R_E + r_π + R_B)] + R_E‖(r_π + R_B)"},
 )
