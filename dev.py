@@ -120,11 +120,11 @@ def tour() -> int:
 
 
 def test(pytest_args: list[str]) -> int:
-    """Run pytest on tests/ in .venv and return its exit code."""
+    """Run pytest in .venv (tests/ and notebooks/, see pyproject) and return its exit code."""
     ensure_browser()
     env = dict(os.environ, BOKEH_RESOURCES="inline", PYTHONDONTWRITEBYTECODE="1")
     say("running the tests")
-    return run([BIN / "python", "-m", "pytest", "tests", *pytest_args], cwd=ROOT, env=env)
+    return run([BIN / "python", "-m", "pytest", *pytest_args], cwd=ROOT, env=env)
 
 
 def main(argv: list[str]) -> int:
