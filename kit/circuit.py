@@ -195,13 +195,13 @@ class Circuit:
     def transistor(self, name, polarity, base, collector, emitter, area=1):
         """Bipolar transistor ``name``; ``area`` scales its I_S (area ratio N)."""
         symbols = bjt.operating_symbols(name)
-        mapping, _ = bjt.temperature_map(name, self.temp, self.t_ref, self.operating[self.v_t], area)
+        mapping, _ = bjt.temperature_map(name, self.temp, self.t_ref, area)
         for reference in mapping.values():
             for symbol in reference.free_symbols:
                 self.parameters.setdefault(symbol.name, symbol)
         self.operating.update(mapping)
         law = bjt.junction_laws(polarity, self.voltages[base], self.voltages[collector],
-                                self.voltages[emitter], symbols, self.v_t)
+                                self.voltages[emitter], symbols, symbols["V_T"])
         self._leaving(collector, law["into_c"])
         self._leaving(base, law["into_b"])
         self._leaving(emitter, law["into_e"])

@@ -7,6 +7,7 @@ public parameter names used everywhere in the kit:
 
 ``r1``, ``r_e``, ``v_supply``, ``v_load``, ...   topology values (SI units)
 ``Q1.beta_f``, ``Q1.i_s``, ``Q1.v_a``, ...       transistor parameters
+``Q1.t_rise``                                    junction temperature above ``temp`` (K; self-heating)
 ``temp``, ``t_ref``                              temperature of the point, reference temperature (K)
 ``tcr_r1``, ...                                  resistor temperature coefficients (1/K)
 ``v_be_on``, ``v_be_tc``                         hand-analysis V_BE and its slope (closed forms only)
@@ -25,6 +26,7 @@ TEMPERATURE_RANGE = (150.0, 500.0)  # K; far outside any rated silicon part
 HAND_DEFAULTS = {"v_be_on": 0.65, "v_be_tc": -2e-3}  # V and V/K, common practice, no source
 HAND_RANGES = {"v_be_on": (0.2, 1.2, "V"), "v_be_tc": (-5e-3, 0.0, "V/K")}
 TCR_RANGE = (-5e-3, 5e-3)  # 1/K; carbon film is about -1e-3 at worst
+T_RISE_RANGE = (-100.0, 300.0)  # K, junction above (or below) the temperature of the point
 
 
 @dataclass(frozen=True)
@@ -52,6 +54,7 @@ class Design:
     tcr: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     hand: MappingProxyType = field(default_factory=lambda: MappingProxyType(dict(HAND_DEFAULTS)))
     title: str = ""
+    t_rise: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
 
     def __post_init__(self):
         from kit import topologies
@@ -77,6 +80,13 @@ class Design:
                                      valid=", ".join(HAND_RANGES))
             bjt.check_range(name, value, *HAND_RANGES[name])
         object.__setattr__(self, "hand", MappingProxyType(hand))
+        t_rise = dict(self.t_rise)
+        for name, value in t_rise.items():
+            if name not in self.devices:
+                raise ParameterError("no such transistor", parameter=f"{name}.t_rise",
+                                     valid=", ".join(self.devices))
+            bjt.check_range(f"{name}.t_rise", value, *T_RISE_RANGE, "K")
+        object.__setattr__(self, "t_rise", MappingProxyType(t_rise))
         if not isinstance(self.title, str):
             raise ParameterError("must be text", parameter="title", value=self.title)
 
@@ -95,6 +105,8 @@ class Design:
             for key, value in model.numbers().items():
                 if key in wanted:
                     out[f"{name}.{key}"] = value
+        for name in self.devices:
+            out[f"{name}.t_rise"] = self.t_rise.get(name, 0.0)
         out["temp"] = self.temp
         out["t_ref"] = self.t_ref
         for name in self.spec.resistors:
@@ -104,12 +116,14 @@ class Design:
 
     def with_values(self, **changes):
         """A new design with some values changed (same names as :func:`make_design`)."""
-        return make_design(self.topology, self.polarity, devices=self.devices, temp=self.temp,
-                           t_ref=self.t_ref, tcr=self.tcr, hand=self.hand, title=self.title,
-                           **(dict(self.values) | changes))
+        return replace(make_design(self.topology, self.polarity, devices=self.devices, temp=self.temp,
+                                   t_ref=self.t_ref, tcr=self.tcr, hand=self.hand, title=self.title,
+                                   **(dict(self.values) | changes)), t_rise=self.t_rise)
 
     def with_parameter(self, name, value):
         """A new design with one flat parameter (``"Q1.beta_f"``, ``"temp"``, ``"r1"``) set."""
+        if name.endswith(".t_rise"):
+            return replace(self, t_rise=dict(self.t_rise) | {name.split(".")[0]: value})
         if "." in name:
             transistor, key = name.split(".", 1)
             if transistor not in self.devices:
@@ -138,6 +152,7 @@ class Design:
             "t_ref": self.t_ref,
             "tcr": dict(self.tcr),
             "hand": dict(self.hand),
+            "t_rise": dict(self.t_rise),
         }
 
 

@@ -90,6 +90,9 @@ def _read(text, expected, name):
     stripped = text.strip()
     if "," in stripped:
         raise _unreadable(text, name, "write '.' as the decimal mark, no thousands separator")
+    if expected not in ("K", OHM) and _BARE_K.search(stripped):
+        raise _unreadable(text, name, "'K' alone may mean kelvin or kilo; "
+                                      "pass unit='K' for kelvin or write k for kilo")
     rkm = _RKM.fullmatch(stripped)
     if expected != "K" and rkm and (rkm["head"] or rkm["tail"]):
         mantissa = f"{rkm['head'] or 0}.{rkm['tail'] or 0}"
@@ -105,9 +108,6 @@ def _read(text, expected, name):
             return _shift(number, name, zero_Celsius, -zero_Celsius, ">= -273.15 °C"), "K"
         number /= 100 if relative["unit"] == "%" else 1_000_000
         return number, "1/K" if relative["per_kelvin"] else _RATIO
-    if expected not in ("K", OHM) and _BARE_K.search(stripped):
-        raise _unreadable(text, name, "'K' alone may mean kelvin or kilo; "
-                                      "pass unit='K' for kelvin or write k for kilo")
     kind = _KelvinQuantity if expected == "K" else _KiloQuantity
     value, unit = _quantiphy(stripped, name, text, kind)
     if expected == "K" and unit == "C":
@@ -127,8 +127,8 @@ def parse_quantity(text, unit=None, *, name="value", allow_inf=False):
     unit : str, optional
         Expected unit (``"Ω"``, ``"A"``, ``"K"``, ``"1/K"``, ``"%"`` for a
         ratio); text in another unit is refused.  None checks no unit.
-        A trailing upper-case K is the kelvin for ``unit="K"``, kilo for
-        ``unit="Ω"`` and refused as ambiguous otherwise.
+        A trailing upper-case K (``"10K"``, ``"300 K"``) is the kelvin for
+        ``unit="K"``, kilo for ``unit="Ω"`` and refused as ambiguous otherwise.
     name : str
         Parameter name for error messages.
     allow_inf : bool
@@ -195,7 +195,7 @@ def _render_fixed(value, unit, digits, max_decimals=None):
     decimals = digits - 1 - math.floor(math.log10(abs(value)))
     if max_decimals is not None:
         decimals = min(decimals, max_decimals)
-    rounded = round(value, decimals) + 0.0  # + 0.0 turns -0.0 into 0.0
+    rounded = round(value, decimals)  # + 0.0 turns -0.0 into 0.0
     return _KiloQuantity(rounded, unit).render(form="fixed", prec=max(decimals, 0))
 
 

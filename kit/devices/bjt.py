@@ -193,7 +193,7 @@ EQUATION_PARAMETERS = ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "b
 GOOD_REGION = "active"
 SENSITIVITY_PARAMETERS = {"beta_f": "", "v_a": "V"}  # reported per device, with units
 # Operating-symbol prefixes -> what the tempco budget calls them.
-BUDGET_LABELS = {"I_S_": "saturation current I_S", "betaR_": "reverse gain β_R",
+BUDGET_LABELS = {"V_T_": "thermal voltage V_T", "I_S_": "saturation current I_S", "betaR_": "reverse gain β_R",
                  "beta_": "current gain β_F", "V_A_": "Early voltage V_A"}
 
 
@@ -244,26 +244,32 @@ def operating_symbols(name):
         "beta": sp.Symbol(f"beta_{name}", positive=True),
         "beta_R": sp.Symbol(f"betaR_{name}", positive=True),
         "V_A": sp.Symbol(f"V_A_{name}", positive=True),
+        "V_T": sp.Symbol(f"V_T_{name}", positive=True),
     }
 
 
-def temperature_map(name, temp, t_ref, v_t, area=1):
+def temperature_map(name, temp, t_ref, area=1):
     """Operating-temperature parameters of transistor ``name`` from its reference values.
 
-    Returns ``(map, reference_symbols)`` where ``map`` sends each operating
-    symbol (see :func:`operating_symbols`) to an expression in the reference
-    symbols ``{name}.i_s`` etc., the temperature ``temp`` and ``t_ref``.
+    The junction sits at ``temp + {name}.t_rise``: the rise above the
+    temperature of the point is zero unless self-heating or a thermal
+    gradient is being studied.  Returns ``(map, reference_symbols)`` where
+    ``map`` sends each operating symbol (see :func:`operating_symbols`) to an
+    expression in the reference symbols ``{name}.i_s`` etc., ``temp`` and ``t_ref``.
     """
     import sympy as sp
 
     ref = {key: sp.Symbol(f"{name}.{key}", real=True) for key in
-           ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "beta_tc")}
+           ("i_s", "beta_f", "beta_r", "v_a", "e_g", "xti", "xtb", "beta_tc", "t_rise")}
     op = operating_symbols(name)
-    ratio = temp / t_ref
+    junction = temp + ref["t_rise"]
+    v_t = BOLTZMANN_OVER_CHARGE * junction
+    ratio = junction / t_ref
     mapping = {
+        op["V_T"]: v_t,
         op["I_S"]: area * ref["i_s"] * ratio ** ref["xti"]
         * sp.exp(ref["e_g"] / v_t * (ratio - 1)),
-        op["beta"]: ref["beta_f"] * ratio ** ref["xtb"] * (1 + ref["beta_tc"] * (temp - t_ref)),
+        op["beta"]: ref["beta_f"] * ratio ** ref["xtb"] * (1 + ref["beta_tc"] * (junction - t_ref)),
         op["beta_R"]: ref["beta_r"],
         op["V_A"]: ref["v_a"],
     }

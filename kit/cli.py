@@ -1,0 +1,252 @@
+"""The ``biasbook`` command: list the topologies, evaluate a design record.
+
+Exit status: 0 done; 2 bad record or bad command line; 3 the design cannot
+be evaluated (load voltage outside compliance, supply too low, no converged
+operating point); 1 the output was cut short (stdout closed early).  Errors print one line on stderr naming the record field
+and its valid range; with ``--json`` an error object also goes to stdout.
+JSON output is strict: an infinite number is written as the string
+``"inf"`` or ``"-inf"``.
+
+Examples
+--------
+>>> main(["--version"])  # doctest: +ELLIPSIS
+biasbook ...
+0
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+
+import kit
+from kit.errors import DesignError
+
+__all__ = ["main", "build_parser", "cautions", "EXIT_OK", "EXIT_BAD_INPUT", "EXIT_NOT_EVALUABLE"]
+
+EXIT_OK = 0
+EXIT_BAD_INPUT = 2
+EXIT_NOT_EVALUABLE = 3
+EXIT_CUT_SHORT = 1  # stdout closed before the report was written
+
+# Touch-voltage and temperature thresholds for the cautions, from memory:
+# 60 V DC is the usual dry-skin limit of safety extra-low voltage (IEC 61140
+# ELV/SELV bands), and about 60 °C is where a metal surface becomes unsafe to
+# keep touching (touch-temperature tables of IEC 62368-1).
+HAZARDOUS_DC_VOLTS = 60.0
+HOT_SURFACE_KELVIN = 333.15
+# Heat is only this design's doing when the part warms itself by more than
+# this; a hot enclosure alone is the enclosure's caution, not ours.
+SELF_HEATING_KELVIN = 10.0
+
+EDGE_WORDS = {"vce_sat": "saturated below the part's V_CE(sat)",
+              "vcb_zero": "saturated once the collector-base junction reaches 0 V"}
+
+
+class _UsageError(Exception):
+    """A command-line mistake; argparse would otherwise exit on its own."""
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):
+        raise _UsageError(f"{message} (see {self.prog} --help)")
+
+
+def build_parser():
+    """The argument parser of ``biasbook`` (kept separate so docs can print its help)."""
+    parser = _Parser(prog="biasbook",
+                     description="Evaluate transistor DC current sources from design records.")
+    parser.add_argument("--version", action="version", version=f"biasbook {kit.__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    commands.required = True
+    listing = commands.add_parser("topologies", help="list the circuits the kit can evaluate",
+                                  description="List every topology with its values and what the kit derives.")
+    listing.add_argument("--json", action="store_true", help="print a JSON list instead of text")
+    evaluate = commands.add_parser(
+        "evaluate", help="evaluate a design record (TOML)",
+        description="Solve a design record exactly and report current, compliance, output "
+                    "resistance, sensitivities, tempco and the ledger of simplifications.")
+    evaluate.add_argument("record", metavar="RECORD.toml", help="a design record file")
+    evaluate.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    evaluate.add_argument("--edge", choices=("vce_sat", "vcb_zero"), default=None,
+                          help="saturation criterion; overrides the record's conditions.edge")
+    return parser
+
+
+def main(argv=None):
+    """Run the command line and return the exit status.
+
+    Parameters
+    ----------
+    argv : list of str, optional
+        Arguments without the program name (default: ``sys.argv[1:]``).
+
+    Returns
+    -------
+    int
+        0 done, 2 bad record or usage, 3 design cannot be evaluated.
+    """
+    argv = sys.argv[1:] if argv is None else list(argv)
+    wants_json = "--json" in argv
+    try:
+        args = build_parser().parse_args(argv)
+    except _UsageError as err:
+        return _report_failure({"error": "UsageError", "message": str(err), "parameter": None,
+                                "value": None, "valid": "see biasbook --help"},
+                               str(err), EXIT_BAD_INPUT, wants_json)
+    except SystemExit as done:  # --help and --version print and stop here
+        return int(done.code or 0)
+    try:
+        if args.command == "topologies":
+            return _list_topologies(args.json)
+        return _evaluate(args.record, args.edge, args.json)
+    except BrokenPipeError:  # the reader left early (`| head`): stop quietly
+        _silence_stdout()
+        return EXIT_CUT_SHORT
+
+
+def _silence_stdout():
+    # Python's own advice for SIGPIPE: point stdout at devnull so the
+    # interpreter's final flush does not raise again.
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass  # stdout is not a real file (a test capture); nothing to flush
+
+
+def _emit_json(value):
+    from kit.record import json_ready
+
+    print(json.dumps(json_ready(value), indent=2, ensure_ascii=True, allow_nan=False))
+
+
+def _report_failure(details, text, code, wants_json):
+    print(f"biasbook: {text}", file=sys.stderr)
+    if wants_json:
+        _emit_json(details | {"exit_code": code})
+    return code
+
+
+def _failure(err, code, wants_json):
+    return _report_failure(err.to_dict(), str(err), code, wants_json)
+
+
+# --- topologies ---------------------------------------------------------------------
+
+def _list_topologies(as_json):
+    from kit.topologies import all_topologies
+
+    described = [t.describe() for t in all_topologies()]
+    if as_json:
+        _emit_json(described)
+    else:
+        print("\n\n".join(_topology_block(d) for d in described))
+    return EXIT_OK
+
+
+def _topology_block(d):
+    from kit.quantities import format_quantity
+
+    lines = [f"{d['name']}: {d['title']}", f"  {d['description']}",
+             f"  polarities   {', '.join(d['polarities'])}",
+             f"  transistors  {', '.join(d['transistors'])}", "  values"]
+    width = max(len(p["name"]) for p in d["parameters"])
+    for p in d["parameters"]:
+        unit = p["unit"]
+        low, high = (format_quantity(v, unit) for v in p["range"])
+        lines.append(f"    {p['name']:<{width}}  [{unit or '-'}]  {p['description']}; "
+                     f"default {format_quantity(p['default'], unit)}, range {low} … {high}")
+    lines.append(f"  derived      {', '.join(d['derived'])}")
+    lines.append("  simplifications")
+    for s in d["simplifications"]:
+        lines.append(f"    {s['name']}: {s['label']} ({s['source']})")
+    return "\n".join(lines)
+
+
+# --- evaluate -----------------------------------------------------------------------
+
+def _evaluate(path, edge, as_json):
+    from kit.record import field_path, load_record
+
+    try:
+        record = load_record(path)
+    except DesignError as err:  # a RecordError naming the field
+        return _failure(err, EXIT_BAD_INPUT, as_json)
+    edge = edge or record.edge
+    try:
+        evaluation = kit.evaluate(record.design, edge=edge)
+        report = evaluation.to_dict() if as_json else evaluation.text()
+        warnings = cautions(evaluation)
+    except DesignError as err:
+        # Name the record field, not the kit's flat parameter, in the message.
+        shown = type(err)(err.message, parameter=field_path(err.parameter, record.design.spec),
+                          value=err.value, valid=err.valid)
+        return _failure(shown, EXIT_NOT_EVALUABLE, as_json)
+    digest = record.content_hash()
+    if as_json:
+        _emit_json({"record": record.to_dict(), "content_hash": digest,
+                    "evaluation": report, "cautions": warnings})
+        return EXIT_OK
+    print(_record_heading(record, digest, edge))
+    print()
+    print(report)
+    if warnings:
+        print("\ncautions")
+        print("\n".join(f"  ! {w}" for w in warnings))
+    return EXIT_OK
+
+
+def _record_heading(record, digest, edge):
+    by = [part for part in (f"revision {record.revision}" if record.revision else "",
+                            f"by {record.author}" if record.author else "") if part]
+    lines = [f"record    {record.title}" + (f" ({', '.join(by)})" if by else ""),
+             f"file      {record.source}",
+             f"sha256    {digest}",
+             f"edge      {edge}: {EDGE_WORDS[edge]}"]
+    for name, model in record.design.devices.items():
+        lines.append(f"{name:<9} {model.label}")
+    return "\n".join(lines)
+
+
+def cautions(evaluation):
+    """Safety notes a report on this design must carry (a list of sentences).
+
+    Parameters
+    ----------
+    evaluation : kit.evaluation.Evaluation
+
+    Returns
+    -------
+    list of str
+        Empty when neither voltage nor heat calls for a note.
+    """
+    from kit.quantities import format_quantity, format_temperature
+
+    design = evaluation.design
+    out = []
+    volts = [design.values.get(name) for name in ("v_supply", "v_load")]
+    volts += [evaluation.compliance.high.voltage, evaluation.compliance.low.voltage]
+    highest = max(abs(v) for v in volts if v is not None)
+    if highest > HAZARDOUS_DC_VOLTS:
+        out.append(f"Voltages up to {format_quantity(highest, 'V')} across the compliance range "
+                   f"exceed {HAZARDOUS_DC_VOLTS:g} V DC and can be hazardous to touch: insulate, "
+                   "guard and label them, and follow local electrical codes; mains-derived "
+                   "supplies need a licensed professional's design and sign-off.")
+    transistor, watts, at = evaluation.max_dissipation
+    model = design.devices[transistor]
+    rise = watts * model.theta_ja
+    junction = design.temp + rise
+    if junction > HOT_SURFACE_KELVIN and rise > SELF_HEATING_KELVIN:
+        out.append(f"{transistor} dissipates up to {format_quantity(watts, 'W')} (at a load voltage "
+                   f"of {format_quantity(at, 'V')}); with θ_JA {model.theta_ja:g} K/W its junction "
+                   f"reaches about {format_temperature(junction, 3)}, so the part and the board "
+                   "around it can burn a finger: check the datasheet's derating and keep "
+                   "heat-sensitive parts and people away.")
+    return out
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

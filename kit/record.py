@@ -1,0 +1,658 @@
+"""Design records: one design point in a small, versioned TOML file.
+
+A record holds what a design review needs to reproduce an evaluation: the
+topology and polarity, every value, the conditions, optional resistor TCRs,
+hand-analysis values and transistor overrides, and who wrote which revision.
+The format is described field by field in ``docs/record-format.md``.
+
+Reading never evaluates anything: numbers are TOML numbers, text goes
+through :func:`kit.quantities.parse_quantity` only.  Every problem raises
+:class:`kit.errors.RecordError` whose ``parameter`` is the dotted record
+field (``"values.r1"``, ``"devices.Q1.beta_f"``) or ``"file"`` for the file
+as a whole.
+
+Examples
+--------
+>>> record = parse_record('''
+... biasbook_record = 1
+... title = "Doc example"
+... [circuit]
+... topology = "divider_source"
+... polarity = "npn"
+... [values]
+... r1 = "33k"
+... r2 = "10k"
+... r_e = "2k2"
+... v_supply = "12 V"
+... v_load = "8 V"
+... ''')
+>>> record.design.values["r_e"]
+2200.0
+>>> parse_record(record.to_toml()).content_hash() == record.content_hash()
+True
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+import json
+import math
+import os
+import re
+import tempfile
+import tomllib
+from pathlib import Path
+
+import tomli_w
+
+from kit.errors import ParameterError, RecordError
+
+__all__ = ["Record", "load_record", "parse_record", "save_record", "field_path", "json_ready",
+           "SCHEMA_VERSION", "MAX_RECORD_BYTES", "EDGES"]
+
+SCHEMA_VERSION = 1
+MAX_RECORD_BYTES = 1024 * 1024  # a record is a page of text; anything larger is a mistake
+EDGES = ("vce_sat", "vcb_zero")
+FILE = "file"  # the `parameter` of errors about the file as a whole
+
+# Free-text header fields: name -> (required, longest length, may span lines).
+TEXT_FIELDS = {
+    "title": (True, 200, False),
+    "revision": (False, 40, False),
+    "author": (False, 200, False),
+    "notes": (False, 20_000, True),
+}
+HEADER_KEYS = ("biasbook_record", *TEXT_FIELDS)
+
+_PLAIN_KEY = re.compile(r"[A-Za-z0-9_-]+")
+_SYNTAX_WHERE = re.compile(r"\s*\(at (line \d+, column \d+|end of document)\)\s*$")
+_SHOWN_TEXT = 80  # longest offending text quoted back in an error
+# Longest quantity text read: "1.234567 kΩ" needs a dozen characters, and the
+# parser's time grows faster than linearly with length (seconds at 2000).
+LONGEST_QUANTITY_TEXT = 64
+
+
+# --- small helpers ------------------------------------------------------------
+
+def _key(key):
+    """A key as TOML would need to write it, so odd keys cannot garble a message."""
+    return key if _PLAIN_KEY.fullmatch(key) else json.dumps(key)
+
+
+def _shown(value):
+    """The offending value, shortened: errors are printed, and files can be large."""
+    if isinstance(value, str) and len(value) > _SHOWN_TEXT:
+        return value[:_SHOWN_TEXT - 1] + "…"
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) > 10**30:
+        return f"an integer of {len(str(abs(value)))} digits"
+    if isinstance(value, (dict, list)):
+        return _kind(value)
+    return value
+
+
+def _kind(raw):
+    kinds = ((bool, "true/false"), (dict, "a table"), (list, "an array"), (str, "text"),
+             (int, "an integer"), (float, "a number"))
+    for cls, name in kinds:
+        if isinstance(raw, cls):
+            return name
+    return "a date or time"
+
+
+def _fail(message, field, value=None, valid=None):
+    return RecordError(message, parameter=field, value=_shown(value), valid=valid)
+
+
+def _from_kit(err, field, valid=None):
+    """A kit ParameterError re-raised as a RecordError naming the record field."""
+    return RecordError(err.message, parameter=field, value=_shown(err.value),
+                       valid=valid or err.valid)
+
+
+def _table(raw, field):
+    if not isinstance(raw, dict):
+        raise _fail(f"must be a table ([{field}]), not {_kind(raw)}", field, raw)
+    return raw
+
+
+def _only_keys(table, allowed, field):
+    unknown = [k for k in table if k not in allowed]
+    if unknown:
+        key = unknown[0]
+        what = "table" if isinstance(table[key], dict) else "key"
+        where = f"in [{field}]" if field else "at the top level"
+        raise _fail(f"unknown {what} {where}", f"{field}.{_key(key)}" if field else _key(key),
+                    valid=", ".join(allowed))
+
+
+def _text(raw, field, longest, multiline=False):
+    if not isinstance(raw, str):
+        raise _fail(f"must be text, not {_kind(raw)}", field, raw)
+    allowed = "\n\t" if multiline else ""
+    if any((ord(ch) < 32 or ord(ch) == 127) and ch not in allowed for ch in raw):
+        what = "tabs and line breaks only" if multiline else "one line, no control characters"
+        raise _fail("contains control characters", field, raw, valid=what)
+    if len(raw) > longest:
+        raise _fail("too long", field, raw, valid=f"at most {longest} characters")
+    return raw
+
+
+def _number(raw, field, unit, limits, hint="", *, allow_inf=False):
+    """A TOML number or a quantity text as a float in SI units; nothing is evaluated.
+
+    ``limits`` is the inclusive (low, high) range; the kit checks it again,
+    but here the message can name the field and carry a ``hint``.
+    """
+    valid = _span(*limits, unit) + hint
+    value = _finite_number(raw, field, unit, valid, allow_inf)
+    if not (limits[0] <= value <= limits[1] or (allow_inf and value == math.inf)):
+        raise _fail("out of range", field, raw, valid)
+    return value
+
+
+def _finite_number(raw, field, unit, valid, allow_inf):
+    if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
+        raise _fail(f"expected a number or text with a unit, not {_kind(raw)}", field, raw, valid)
+    if isinstance(raw, str):
+        if len(raw) > LONGEST_QUANTITY_TEXT:
+            raise _fail("too long for a quantity", field, raw,
+                        f"at most {LONGEST_QUANTITY_TEXT} characters, e.g. \"4k7\" or \"12 V\"")
+        try:
+            return _parse_quantity(raw, unit, name=field, allow_inf=allow_inf)
+        except ParameterError as err:  # err.valid lists the accepted spellings
+            raise _from_kit(err, field) from None
+    if isinstance(raw, int):
+        try:
+            value = float(raw)
+        except OverflowError:
+            raise _fail("number too large", field, raw, valid) from None
+    else:
+        value = raw
+    if math.isnan(value):
+        raise _fail("not a number (nan)", field, raw, valid)
+    if math.isinf(value) and not allow_inf:
+        raise _fail("not finite", field, raw, valid)
+    return value
+
+
+def _parse_quantity(text, unit, **kwargs):
+    from kit.quantities import parse_quantity
+
+    return parse_quantity(text, unit, **kwargs)
+
+
+def _span(low, high, unit):
+    return f"{low:g} … {high:g} {unit}".rstrip()
+
+
+# --- sections -------------------------------------------------------------------
+# Each reader takes the raw TOML table (or None when absent) and the circuit
+# facts read so far, and returns the keyword arguments it adds to make_design.
+# A later schema adds a section by adding a reader here and a row to SECTIONS.
+
+def _read_circuit(raw, context):
+    from kit import topologies
+
+    table = _table(raw, "circuit")
+    _only_keys(table, ("topology", "polarity"), "circuit")
+    for name in ("topology", "polarity"):
+        if name not in table:
+            raise _fail("missing", f"circuit.{name}", valid=_circuit_valid(name, context))
+        _text(table[name], f"circuit.{name}", 100)
+    try:
+        top = topologies.get(table["topology"])
+        top.check_polarity(table["polarity"])
+    except ParameterError as err:
+        raise _from_kit(err, f"circuit.{err.parameter}") from None
+    context["topology"], context["polarity"] = top, table["polarity"]
+    return {"topology": top.key, "polarity": table["polarity"]}
+
+
+def _circuit_valid(name, context):
+    from kit import topologies
+
+    if name == "topology":
+        return ", ".join(t.key for t in topologies.all_topologies())
+    return "npn or pnp"
+
+
+def _read_values(raw, context):
+    top = context["topology"]
+    table = _table(raw, "values")
+    names = [v.name for v in top.values]
+    _only_keys(table, names, "values")
+    out = {}
+    for spec in top.values:
+        field = f"values.{spec.name}"
+        if spec.name not in table:
+            raise _fail(f"missing; a record gives every value of {top.key}", field,
+                        valid=_span(spec.low, spec.high, spec.unit))
+        out[spec.name] = _number(table[spec.name], field, spec.unit, (spec.low, spec.high))
+    return {"values": out}
+
+
+def _read_conditions(raw, context):
+    from kit.designs import DEFAULT_TEMPERATURE, TEMPERATURE_RANGE
+
+    table = _table({} if raw is None else raw, "conditions")
+    _only_keys(table, ("temp", "t_ref", "edge"), "conditions")
+    out = {}
+    hint = ' (a bare number is kelvin; write "25 degC" for Celsius)'
+    for name in ("temp", "t_ref"):
+        out[name] = (_number(table[name], f"conditions.{name}", "K", TEMPERATURE_RANGE, hint)
+                     if name in table else DEFAULT_TEMPERATURE)
+    edge = table.get("edge", EDGES[0])
+    _text(edge, "conditions.edge", 40)
+    if edge not in EDGES:
+        raise _fail("unknown saturation criterion", "conditions.edge", edge, " or ".join(EDGES))
+    context["edge"] = edge
+    return out
+
+
+def _read_tcr(raw, context):
+    from kit.designs import TCR_RANGE
+
+    if raw is None:
+        return {}
+    top = context["topology"]
+    table = _table(raw, "tcr")
+    _only_keys(table, top.resistors, "tcr")
+    hint = ' (a bare number is per kelvin; write "100 ppm/K")'
+    return {"tcr": {name: _number(value, f"tcr.{name}", "1/K", TCR_RANGE, hint)
+                    for name, value in table.items()}}
+
+
+def _read_hand(raw, context):
+    from kit.designs import HAND_RANGES
+
+    if raw is None:
+        return {}
+    table = _table(raw, "hand")
+    _only_keys(table, tuple(HAND_RANGES), "hand")
+    return {"hand": {name: _number(value, f"hand.{name}", HAND_RANGES[name][2],
+                                   HAND_RANGES[name][:2])
+                     for name, value in table.items()}}
+
+
+DEVICE_TEXT_KEYS = ("label",)
+
+
+def _read_devices(raw, context):
+    from kit.designs import transistor_polarity
+    from kit.devices import bjt
+
+    if raw is None:
+        return {}
+    top = context["topology"]
+    table = _table(raw, "devices")
+    _only_keys(table, top.transistors, "devices")
+    allowed = (*bjt.MODEL_LIMITS, *DEVICE_TEXT_KEYS)
+    models = {}
+    for name, overrides in table.items():
+        where = f"devices.{name}"
+        _table(overrides, where)
+        if "polarity" in overrides:
+            raise _fail("set by circuit.polarity, not per transistor", f"{where}.polarity",
+                        overrides["polarity"], "leave it out")
+        _only_keys(overrides, allowed, where)
+        changes = {}
+        for key, value in overrides.items():
+            if key in DEVICE_TEXT_KEYS:
+                changes[key] = _text(value, f"{where}.{key}", 200)
+                continue
+            low, high, unit = bjt.MODEL_LIMITS[key]
+            changes[key] = _number(value, f"{where}.{key}", unit, (low, high),
+                                   allow_inf=(key == "v_a"))
+        typical = bjt.typical(transistor_polarity(top, context["polarity"], name))
+        try:
+            models[name] = typical.with_values(**changes)
+        except ParameterError as err:
+            raise _from_kit(err, f"{where}.{err.parameter}") from None
+    return {"devices": models}
+
+
+# name -> (reader, required).  Order is the order a saved record lists them.
+SECTIONS = {
+    "circuit": (_read_circuit, True),
+    "values": (_read_values, True),
+    "conditions": (_read_conditions, False),
+    "tcr": (_read_tcr, False),
+    "hand": (_read_hand, False),
+    "devices": (_read_devices, False),
+}
+
+
+def field_path(parameter, topology):
+    """The record field of a kit parameter name (``"r1"`` -> ``"values.r1"``).
+
+    Parameters
+    ----------
+    parameter : str or None
+        A flat parameter name as kit errors report it.
+    topology : kit.topologies.base.Topology
+
+    Examples
+    --------
+    >>> from kit import topologies
+    >>> top = topologies.get("divider_source")
+    >>> [field_path(p, top) for p in ("v_load", "temp", "tcr_r_e", "Q1.beta_f", "v_be_on")]
+    ['values.v_load', 'conditions.temp', 'tcr.r_e', 'devices.Q1.beta_f', 'hand.v_be_on']
+    """
+    from kit.designs import HAND_RANGES
+
+    if parameter is None:
+        return None
+    if parameter in {v.name for v in topology.values}:
+        return f"values.{parameter}"
+    if parameter in ("temp", "t_ref"):
+        return f"conditions.{parameter}"
+    if parameter in ("topology", "polarity"):
+        return f"circuit.{parameter}"
+    if parameter.startswith("tcr_"):
+        return f"tcr.{parameter[4:]}"
+    if parameter in HAND_RANGES:
+        return f"hand.{parameter}"
+    if parameter.split(".")[0] in topology.transistors:
+        return f"devices.{parameter}"
+    return parameter
+
+
+# --- the record -------------------------------------------------------------------
+
+class Record:
+    """A validated design record (read with :func:`load_record` or :func:`parse_record`).
+
+    Parameters
+    ----------
+    document : dict
+        The record as TOML data (what :func:`tomllib.loads` returns).
+    source : str
+        Where it came from, for messages only (not part of the record).
+
+    Attributes
+    ----------
+    design : kit.designs.Design
+        The design point, values in SI units.
+    edge : str
+        Saturation criterion for evaluation (``conditions.edge``).
+    title, revision, author, notes : str
+        Header text (``""`` when absent).
+
+    Examples
+    --------
+    >>> import kit
+    >>> d = kit.design("divider_source", r_e="1k8", title="Bench check")
+    >>> record = Record.from_design(d, revision="B")
+    >>> record.design == d, record.revision
+    (True, 'B')
+    """
+
+    def __init__(self, document, source="<string>"):
+        self._document = copy.deepcopy(_table(document, FILE))
+        self.source = str(source)
+        self._read()
+
+    # Equal records mean the same design, however they are spelled.
+    def __eq__(self, other):
+        return isinstance(other, Record) and self.to_dict() == other.to_dict()
+
+    __hash__ = None
+
+    def __repr__(self):
+        return f"Record({self.title!r}, source={self.source!r}, sha256={self.content_hash()[:12]})"
+
+    def _read(self):
+        from kit.designs import make_design
+
+        doc = self._document
+        _check_version(doc)
+        _only_keys(doc, (*HEADER_KEYS, *SECTIONS), "")
+        header = {}
+        for name, (required, longest, multiline) in TEXT_FIELDS.items():
+            if name not in doc and required:
+                raise _fail("missing; every record has one", name, valid="one line of text")
+            header[name] = _text(doc.get(name, ""), name, longest, multiline)
+            if required and not header[name].strip():
+                raise _fail("must not be empty", name, valid="one line of text")
+        context = {}
+        arguments = {}
+        for name, (reader, required) in SECTIONS.items():
+            if required and name not in doc:
+                raise _fail(f"missing section [{name}]", name)
+            arguments |= reader(doc.get(name), context)
+        values = arguments.pop("values")
+        try:
+            self.design = make_design(**arguments, title=header["title"], **values)
+        except ParameterError as err:  # ranges the readers leave to the kit
+            raise _from_kit(err, field_path(err.parameter, context["topology"])) from None
+        self.edge = context["edge"]
+        self.title, self.revision = header["title"], header["revision"]
+        self.author, self.notes = header["author"], header["notes"]
+
+    @classmethod
+    def from_design(cls, design, *, edge="vce_sat", title=None, revision="", author="", notes=""):
+        """A record of a :class:`kit.designs.Design` (values written as SI numbers).
+
+        Transistor parameters equal to the typical model are left out, as a
+        hand-written record would; ``hand`` and ``tcr`` are written in full.
+        """
+        from kit.designs import transistor_polarity
+        from kit.devices import bjt
+
+        document = {"biasbook_record": SCHEMA_VERSION,
+                    "title": design.title if title is None else title}
+        document |= {k: v for k, v in (("revision", revision), ("author", author),
+                                       ("notes", notes)) if v}
+        document["circuit"] = {"topology": design.topology, "polarity": design.polarity}
+        document["values"] = dict(design.values)
+        document["conditions"] = {"temp": design.temp, "t_ref": design.t_ref, "edge": edge}
+        if design.tcr:
+            document["tcr"] = dict(design.tcr)
+        document["hand"] = dict(design.hand)
+        devices = {}
+        for name, model in design.devices.items():
+            typical = bjt.typical(transistor_polarity(design.spec, design.polarity, name))
+            changed = {k: v for k, v in (model.numbers() | {"label": model.label}).items()
+                       if getattr(typical, k) != v}
+            if changed:
+                devices[name] = changed
+        if devices:
+            document["devices"] = devices
+        return cls(document, source="<design>")
+
+    # -- output ---------------------------------------------------------------
+    def as_written(self):
+        """A copy of the TOML data as read (text values keep their spelling)."""
+        return copy.deepcopy(self._document)
+
+    def to_dict(self):
+        """The resolved record: SI floats, every default filled in.
+
+        This is what :meth:`content_hash` hashes.  It may hold ``inf``
+        (an Early voltage); pass it through :func:`json_ready` for JSON.
+        """
+        d = self.design
+        return {
+            "biasbook_record": SCHEMA_VERSION,
+            "title": self.title, "revision": self.revision, "author": self.author,
+            "notes": self.notes,
+            "circuit": {"topology": d.topology, "polarity": d.polarity},
+            "values": dict(d.values),
+            "conditions": {"temp": d.temp, "t_ref": d.t_ref, "edge": self.edge},
+            "tcr": {name: float(d.tcr.get(name, 0.0)) for name in d.spec.resistors},
+            "hand": dict(d.hand),
+            "devices": {name: m.numbers() | {"label": m.label} for name, m in d.devices.items()},
+        }
+
+    def content_hash(self):
+        """SHA-256 (hex) of the canonical JSON of :meth:`to_dict`.
+
+        Key order, layout, comments and the spelling of numbers (``"4k7"``
+        or ``4700``) do not change it; any change of meaning does.
+        """
+        return hashlib.sha256(canonical_json(self.to_dict()).encode("ascii")).hexdigest()
+
+    def to_toml(self):
+        """The record as TOML text (sections in schema order, text values as written)."""
+        doc = self._document
+        ordered = {k: doc[k] for k in HEADER_KEYS if k in doc}
+        ordered |= {k: doc[k] for k in SECTIONS if k in doc}
+        head = f"# biasbook design record, schema {SCHEMA_VERSION} (docs/record-format.md)\n"
+        return head + tomli_w.dumps(ordered, multiline_strings=True)
+
+
+def _check_version(doc):
+    field = "biasbook_record"
+    valid = f"{SCHEMA_VERSION} (an integer)"
+    if field not in doc:
+        raise _fail("not a biasbook record: the schema version is missing", field, valid=valid)
+    version = doc[field]
+    if isinstance(version, bool) or not isinstance(version, int):
+        raise _fail(f"schema version must be an integer, not {_kind(version)}", field, version, valid)
+    if version > SCHEMA_VERSION:
+        raise _fail(f"written for a newer schema than this biasbook reads ({SCHEMA_VERSION})",
+                    field, version, valid)
+    if version != SCHEMA_VERSION:
+        raise _fail("no such schema version", field, version, valid)
+
+
+# --- JSON -----------------------------------------------------------------------
+
+def json_ready(value, path="$"):
+    """A copy of ``value`` that strict JSON can hold: infinities become ``"inf"``/``"-inf"``.
+
+    NaN is refused (the kit never hands one out, so one here is a bug to
+    report); numpy scalars become Python numbers; tuples become lists.
+
+    Examples
+    --------
+    >>> json_ready({"v_a": float("inf"), "r": (1.0, -float("inf"))})
+    {'v_a': 'inf', 'r': [1.0, '-inf']}
+    """
+    if isinstance(value, dict):
+        return {str(k): json_ready(v, f"{path}.{k}") for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_ready(v, f"{path}[{i}]") for i, v in enumerate(value)]
+    if value is None or isinstance(value, (str, bool)):
+        return value
+    if hasattr(value, "item") and not isinstance(value, (int, float)):
+        value = value.item()  # numpy scalar
+    if isinstance(value, int):
+        return value
+    if isinstance(value, float):
+        if math.isnan(value):
+            raise ValueError(f"NaN at {path}: the kit should never produce one; please report it")
+        if math.isinf(value):
+            return "inf" if value > 0 else "-inf"
+        return value
+    raise TypeError(f"{type(value).__name__} at {path} has no JSON form")
+
+
+def canonical_json(value):
+    """Sorted keys, no spaces, ASCII: one text per meaning (the content hash's input)."""
+    return json.dumps(json_ready(value), sort_keys=True, separators=(",", ":"),
+                      ensure_ascii=True, allow_nan=False)
+
+
+# --- files ----------------------------------------------------------------------
+
+def parse_record(text, source="<string>"):
+    """Read a record from TOML text.
+
+    Parameters
+    ----------
+    text : str
+        The record (at most 1 MiB as UTF-8).
+    source : str
+        Where it came from, for messages.
+
+    Returns
+    -------
+    Record
+
+    Raises
+    ------
+    kit.errors.RecordError
+        With ``parameter`` the dotted field at fault, or ``"file"``.
+
+    Examples
+    --------
+    >>> parse_record("biasbook_record = 2")
+    Traceback (most recent call last):
+    ...
+    kit.errors.RecordError: biasbook_record = 2: written for a newer schema than this biasbook reads (1) (valid: 1 (an integer))
+    """
+    if not isinstance(text, str):
+        raise _fail(f"a record is text, not {type(text).__name__}", FILE, valid="str")
+    if len(text) > MAX_RECORD_BYTES:  # cheap test first: a character is at least a byte
+        raise _too_large(len(text.encode("utf-8", "surrogatepass")))
+    try:
+        size = len(text.encode("utf-8"))
+    except UnicodeEncodeError:
+        raise _fail("text cannot be written as UTF-8 (lone surrogate)", FILE, valid="UTF-8 text") \
+            from None
+    if size > MAX_RECORD_BYTES:
+        raise _too_large(size)
+    try:
+        document = tomllib.loads(text.removeprefix("\ufeff"))
+    except tomllib.TOMLDecodeError as err:
+        where = _SYNTAX_WHERE.search(str(err))
+        what = _SYNTAX_WHERE.sub("", str(err))
+        raise _fail(f"not valid TOML in {source}: {what}", FILE,
+                    where.group(1) if where else None, "TOML 1.0 (toml.io)") from None
+    except RecursionError:
+        raise _fail(f"nested too deeply in {source}", FILE, valid="TOML 1.0, a few levels deep") \
+            from None
+    return Record(document, source)
+
+
+def _too_large(size):
+    return _fail("file too large for a design record", FILE, f"{size} bytes",
+                 f"at most {MAX_RECORD_BYTES} bytes (1 MiB)")
+
+
+def load_record(path):
+    """Read a record file (UTF-8 TOML, at most 1 MiB).
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+
+    Returns
+    -------
+    Record
+    """
+    path = Path(path)
+    try:
+        with path.open("rb") as stream:
+            data = stream.read(MAX_RECORD_BYTES + 1)
+    except OSError as err:
+        raise _fail(f"cannot read the record: {err.strerror or err}", FILE, str(path)) from None
+    if len(data) > MAX_RECORD_BYTES:
+        raise _too_large(path.stat().st_size)
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as err:
+        raise _fail(f"not UTF-8 text (byte {err.start})", FILE, str(path), "UTF-8 text") from None
+    return parse_record(text, source=str(path))
+
+
+def save_record(record, path):
+    """Write ``record`` as TOML to ``path``, replacing the file in one step.
+
+    Parameters
+    ----------
+    record : Record
+    path : str or os.PathLike
+    """
+    path = Path(path)
+    text = record.to_toml()
+    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8", newline="\n") as stream:
+            stream.write(text)
+        os.replace(temporary, path)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise
