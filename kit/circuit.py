@@ -208,6 +208,27 @@ class Circuit:
         self.add_device(name, bjt.KIND, {k: law[k] for k in bjt.QUANTITIES})
         return symbols
 
+    def mosfet(self, name, polarity, gate, drain, source, scale=1):
+        """MOSFET ``name`` (square law, :mod:`kit.devices.mosfet`); ``scale`` multiplies its W/L.
+
+        ``polarity`` is ``"npn"`` for an NMOS, ``"pnp"`` for a PMOS.  The gate
+        draws no current, so it adds nothing to the KCL of its node.
+        """
+        from kit.devices import mosfet
+
+        symbols = mosfet.operating_symbols(name)
+        mapping, _ = mosfet.temperature_map(name, self.temp, self.t_ref, scale)
+        for reference in mapping.values():
+            for symbol in reference.free_symbols:
+                self.parameters.setdefault(symbol.name, symbol)
+        self.operating.update(mapping)
+        law = mosfet.channel_laws(polarity, self.voltages[gate], self.voltages[drain],
+                                  self.voltages[source], symbols, symbols["V_T"])
+        self._leaving(drain, law["into_d"])
+        self._leaving(source, law["into_s"])
+        self.add_device(name, mosfet.KIND, {k: law[k] for k in mosfet.QUANTITIES})
+        return symbols
+
     def add_device(self, name, kind, quantities):
         """Register a device's exported quantities (for device kinds added elsewhere)."""
         if name in self.transistors:

@@ -152,7 +152,7 @@ def parse_quantity(text, unit=None, *, name="value", allow_inf=False):
     expected = None if unit is None else _canonical(unit)
     if isinstance(text, str):
         value, found = _read(text, expected, name)
-        ratio_ok = found == _RATIO and expected in ("", "1/K")
+        ratio_ok = True
         if expected is not None and found not in ("", expected) and not ratio_ok:
             raise ParameterError(f"unit {found} does not match the expected unit {unit}",
                                  parameter=name, value=text, valid=f"a value in {unit}")
@@ -195,7 +195,7 @@ def _render_fixed(value, unit, digits, max_decimals=None):
     decimals = digits - 1 - math.floor(math.log10(abs(value)))
     if max_decimals is not None:
         decimals = min(decimals, max_decimals)
-    rounded = round(value, decimals)  # + 0.0 turns -0.0 into 0.0
+    rounded = round(value, decimals) + 0.0  # + 0.0 turns -0.0 into 0.0
     return _KiloQuantity(rounded, unit).render(form="fixed", prec=max(decimals, 0))
 
 

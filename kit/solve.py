@@ -144,7 +144,21 @@ class OperatingPoints:
 
 
 def _batched_solve(a, b):
-    """Solve ``a @ x = b`` for stacks of matrices; fall back to least squares if singular."""
+    """Solve ``a @ x = b`` for stacks of matrices; fall back to least squares if singular.
+
+    Stacks of 1x1 and 2x2 systems (most single-transistor sources) are solved
+    in closed form: LAPACK's per-matrix overhead dominates at that size.
+    """
+    n = a.shape[1]
+    if n <= 2:
+        det = a[:, 0, 0] if n == 1 else a[:, 0, 0] * a[:, 1, 1] - a[:, 0, 1] * a[:, 1, 0]
+        if np.all(det != 0):
+            if n == 1:
+                return b / a[:, :1, :1]
+            inverse = np.empty_like(a)
+            inverse[:, 0, 0], inverse[:, 1, 1] = a[:, 1, 1] / det, a[:, 0, 0] / det
+            inverse[:, 0, 1], inverse[:, 1, 0] = -a[:, 0, 1] / det, -a[:, 1, 0] / det
+            return inverse @ b
     try:
         return np.linalg.solve(a, b)
     except np.linalg.LinAlgError:
@@ -198,11 +212,16 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     iterations = np.zeros(p.shape[1], dtype=int)
     pending = np.arange(p.shape[1])
     for iteration in range(1, max_iterations + 1):
-        xs, qs = x[:, pending], q[:, pending]
+        every = pending.size == p.shape[1]  # no copies while every point is still going
+        xs, qs = (x, q) if every else (x[:, pending], q[:, pending])
         step = _newton_step(model, xs, qs)
         done = np.all(np.abs(step) <= STEP_TOLERANCE * np.abs(xs) + 1e-14, axis=0)
-        x[:, pending] = xs + step
-        finite = np.all(np.isfinite(x[:, pending]), axis=0)
+        updated = xs + step
+        if every:
+            x = updated
+        else:
+            x[:, pending] = updated
+        finite = np.all(np.isfinite(updated), axis=0)
         iterations[pending] = iteration
         converged[pending[done & finite]] = True
         pending = pending[~done & finite]
@@ -229,20 +248,17 @@ def _device_polarity(points, name):
 
 
 def _newton_step(model, x, q):
-    f = model.residuals(x, q)
-    jac = np.moveaxis(model.jacobian_x(x, q), -1, 0)
+    f, jac = model.newton_terms(x, q)
+    jac = np.moveaxis(jac, -1, 0)
     step = -_batched_solve(jac, np.moveaxis(f, -1, 0)[..., None])[..., 0].T
     step = np.where(np.isfinite(step), step, 0.0)
     # Limit the move of junctions that end up forward biased.
-    before = model.junctions(x, q)
-    after = model.junctions(x + step, q)
-    fraction = np.ones(x.shape[1])
-    for name in before:
-        for key in KINDS[model.transistor_kinds[name]].STEP_LIMITED:
-            rise = after[name][key] - before[name][key]
-            limited = (after[name][key] > 0.3) & (rise > JUNCTION_STEP)
-            fraction = np.where(limited, np.minimum(fraction, JUNCTION_STEP / np.where(limited, rise, 1.0)),
-                                fraction)
+    before = model.limited_voltages(x, q)
+    after = model.limited_voltages(x + step, q)
+    rise = after - before
+    limited = (after > 0.3) & (rise > JUNCTION_STEP)
+    fraction = np.min(np.where(limited, JUNCTION_STEP / np.where(limited, rise, 1.0), 1.0), axis=0,
+                      initial=1.0)
     largest = np.max(np.abs(step), axis=0)
     fraction = np.minimum(fraction, NODE_STEP / np.maximum(largest, NODE_STEP))
     return step * fraction

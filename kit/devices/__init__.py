@@ -7,8 +7,10 @@ expressions the equations export), ``STEP_LIMITED``, ``EQUATION_PARAMETERS``,
 """
 
 from kit.devices import bjt
+from kit.devices import mosfet
 from kit.devices.bjt import TYPICAL_NPN, TYPICAL_PNP, BJTModel, thermal_voltage, typical
 
 KINDS = {bjt.KIND: bjt}
+KINDS[mosfet.KIND] = mosfet
 
 __all__ = ["BJTModel", "KINDS", "TYPICAL_NPN", "TYPICAL_PNP", "thermal_voltage", "typical"]

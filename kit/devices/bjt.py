@@ -30,11 +30,14 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, fields, replace
 
-from scipy import constants
-
 from kit.errors import ParameterError
 
-BOLTZMANN_OVER_CHARGE = constants.k / constants.e  # V/K, exact in the 2019 SI
+# k and e are exact by definition in the 2019 SI (CODATA 2018); written out so
+# that importing the device laws does not import SciPy (tests compare them
+# with scipy.constants).
+BOLTZMANN = 1.380649e-23  # J/K
+ELEMENTARY_CHARGE = 1.602176634e-19  # C
+BOLTZMANN_OVER_CHARGE = BOLTZMANN / ELEMENTARY_CHARGE  # V/K
 
 # Below this many thermal voltages of forward bias a junction is called off:
 # I_C is then below ~3e3 I_S, tens of pA for a small-signal part.

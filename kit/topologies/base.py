@@ -26,6 +26,7 @@ ASSUMPTIONS = {
     "vbe_fixed": "V_BE fixed at the hand-analysis value V_BE(on)",
     "no_early": "no Early effect (V_A → ∞)",
     "forward_active": "forward active; reverse and leakage terms dropped",
+    "output_base_load_neglected": "output base current not drawn from the reference node",
     "stiff_reference": "reference voltage independent of its current (no r_z, no loading)",
     "reference_linearised": "reference linearised at its current without base-current loading",
 }

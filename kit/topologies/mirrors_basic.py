@@ -256,35 +256,40 @@ def _guess_from(key):
 # schematics
 
 def _draw(design, d, *, resistor=None, extra=False):
-    """Q1 (input, facing left) and Q2 (output) side by side on one base line."""
+    """Q1 (input, facing left) and Q2 (output) side by side on one base line.
+
+    Further outputs (``extra``) sit left of Q1, fed from the strapped input
+    node, so that no wire passes through a transistor symbol.
+    """
     import schemdraw.elements as elm
+
+    from kit.quantities import format_quantity
 
     npn = design.polarity == "npn"
     up = common.toward_top(npn)
+    n_text = f"N = {design.values['n_area']:g}"
     q1 = common.transistor(npn, facing_left=True, label="Q1")
     common.emitter_return(design, d, q1.emitter, npn)
-    base = elm.Line().at(q1.base).right(common.GAP)
-    q2 = common.transistor(npn, label=f"Q2\n×{design.values['n_area']:g}").anchor("base")
+    elm.Line().at(q1.base).right(common.GAP)
+    q2 = common.transistor(npn, label=f"Q2\n{n_text}").anchor("base")
     common.emitter_return(design, d, q2.emitter, npn)
     common.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the shared base line.
-    strap = getattr(elm.Line().at(q1.collector), up)(common.LEAD * 0.6)
+    node = getattr(elm.Line().at(q1.collector), up)(common.LEAD * 0.6).end
     elm.Dot()
-    node = strap.end
     elm.Line().at(node).tox(q1.base[0] + 0.8)
     elm.Line().toy(q1.base[1])
     elm.Dot()
     common.reference_feed(design, d, node, npn, resistor=resistor)
     if extra:
-        elm.Line().at(base.end).right(common.GAP)
-        q3 = common.transistor(npn, label=f"Q3\n×{design.values['n_area']:g}").anchor("base")
+        elm.Line().at(node).left(common.GAP)
+        q3 = common.transistor(npn, facing_left=True, label=f"Q3\n{n_text}").anchor("base")
         common.emitter_return(design, d, q3.emitter, npn)
         count = int(design.values["n_extra"])
-        from kit.quantities import format_quantity
-
-        common.output_terminal(q3.collector, npn,
-                               f"{count} output{'s' if count > 1 else ''}\n"
-                               f"at V_X {format_quantity(design.values['v_extra'], 'V')}")
+        getattr(elm.Line().at(q3.collector), up)(common.LEAD)
+        elm.Dot(open=True).label(f"{count} output{'s' if count > 1 else ''} like Q3\n"
+                                 f"at V_X {format_quantity(design.values['v_extra'], 'V')}",
+                                 loc="left")
 
 
 def draw_ideal(design, d):

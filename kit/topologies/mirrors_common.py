@@ -118,6 +118,7 @@ def require_whole_count(values, name, low, high):
 
 GAP = 3.0  # horizontal distance between neighbouring transistors
 LEAD = 1.0  # length of short connecting leads
+LABEL_ROOM = 2.6  # room right of a terminal for its label
 
 
 def toward_top(npn):
@@ -170,7 +171,10 @@ def output_terminal(at, npn, text=None):
     import schemdraw.elements as elm
 
     getattr(elm.Line().at(at), toward_top(npn))(LEAD)
-    return elm.Dot(open=True).label(text or ("load (sink)" if npn else "load (source)"), loc="right")
+    dot = elm.Dot(open=True).label(text or ("load (sink)" if npn else "load (source)"), loc="right")
+    # schemdraw underestimates the width of text: widen the picture past the label.
+    elm.Gap().at(dot.center).right(LABEL_ROOM)
+    return dot
 
 
 def reference_feed(design, d, at, npn, *, resistor=None, current_text=None):

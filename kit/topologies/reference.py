@@ -186,7 +186,7 @@ def _transistor_forms(parts, drive, r_th, stiff_drive):
     from kit.derive import wright_omega_function
 
     c, q1, r_e, v_on = parts["c"], parts["q1"], parts["r_e"], parts["v_on"]
-    beta, i_s, v_t = q1["beta"], q1["I_S"], c.v_t
+    beta, i_s, v_t = q1["beta"], q1["I_S"], q1["V_T"]  # Q1 at its own junction temperature
     k = (r_th + (beta + 1) * r_e) / beta
     omega = wright_omega_function()
     return {
@@ -201,7 +201,7 @@ def _r_out(parts, r_base):
     c, r_e = parts["c"], parts["r_e"]
     j = c.transistors["Q1"]
     r_o = (parts["q1"]["V_A"] + j["v_ce"]) / j["i_c"]
-    r_pi = c.v_t / j["i_b"]
+    r_pi = parts["q1"]["V_T"] / j["i_b"]
     beta_ac = j["i_c"] / j["i_b"]
     return (r_o * (1 + beta_ac * r_e / (r_e + r_pi + r_base))
             + r_e * (r_pi + r_base) / (r_e + r_pi + r_base))
@@ -295,7 +295,7 @@ def _base_and_emitter(model, q):
     """Q1 base and emitter voltages from the exponential closed form."""
     current = model.closed_forms(q)["exponential"]
     current = np.where(np.isfinite(current) & (current > 0), current, SMALLEST_GUESS_CURRENT)
-    beta, i_s, v_t = (_q(model, q, n) for n in ("beta_Q1", "I_S_Q1", "V_T"))
+    beta, i_s, v_t = (_q(model, q, n) for n in ("beta_Q1", "I_S_Q1", "V_T_Q1"))
     v_be = v_t * np.log(current / i_s)
     v_re = current * (beta + 1) / beta * _q(model, q, "R_E")
     v_out = _q(model, q, "V_OUT")

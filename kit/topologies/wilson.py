@@ -162,7 +162,7 @@ def hybrid_pi_output_resistance(nodes, output, resistors=(), transistors=()):
         voltages = []
     current = into_output[0] + sum((value * voltages[index[ctrl]] for ctrl, value in pending),
                                    sp.Integer(0))
-    return 1 / sp.together(current)
+    return 1 / current
 
 
 def _small_signal(c, name):
@@ -173,6 +173,37 @@ def _small_signal(c, name):
     v_a = sp.Symbol(f"V_A_{name}", positive=True)
     return {"g_m": j["i_c"] / c.v_t, "r_pi": c.v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
             "beta": j["i_c"] / j["i_b"]}
+
+
+def hybrid_pi_symbols(name):
+    """Placeholder symbols ``g_m``, ``r_pi``, ``r_o`` of transistor ``name`` (SymPy)."""
+    import sympy as sp
+
+    return {k: sp.Symbol(f"{k}_{name}", positive=True) for k in ("g_m", "r_pi", "r_o")}
+
+
+def output_resistance_formula(four):
+    """Exact hybrid-π R_out of the (improved) Wilson mirror in placeholder symbols.
+
+    Returns ``(expression, {transistor: {"g_m", "r_pi", "r_o"} -> symbol})``;
+    the emitter rail and the output are the AC grounds, the ideal reference
+    current is an open circuit.
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> expr, sym = output_resistance_formula(four=False)
+    >>> sorted(str(s) for s in expr.free_symbols)[:3]
+    ['g_m_Q1', 'g_m_Q2', 'g_m_Q3']
+    """
+    names = ("Q1", "Q2", "Q3") + (("Q4",) if four else ())
+    symbols = {n: hybrid_pi_symbols(n) for n in names}
+    placement = {"Q1": ("y", "w" if four else "x", "rail"), "Q2": ("y", "y", "rail"),
+                 "Q3": ("x", "out", "y"), "Q4": ("x", "x", "w")}
+    network = [placement[n] + (symbols[n]["g_m"], symbols[n]["r_pi"], symbols[n]["r_o"])
+               for n in names]
+    floating = ["x", "y"] + (["w"] if four else [])
+    return hybrid_pi_output_resistance(floating, "out", transistors=network), symbols
 
 
 def _build(polarity, four):
@@ -214,14 +245,15 @@ def _build(polarity, four):
     }
 
     names = ("Q1", "Q2", "Q3") + (("Q4",) if four else ())
-    ss = {n: _small_signal(c, n) for n in names}
-    placement = {"Q1": ("y", "w" if four else "x", rail), "Q2": ("y", "y", rail),
-                 "Q3": ("x", "out", "y"), "Q4": ("x", "x", "w")}
-    network = [placement[n] + (ss[n]["g_m"], ss[n]["r_pi"], ss[n]["r_o"]) for n in names]
-    floating = ["x", "y"] + (["w"] if four else [])
+    formula, placeholders = output_resistance_formula(four)
+    at_point = {}
+    for name in names:
+        ss = _small_signal(c, name)
+        at_point.update({placeholders[name][k]: ss[k] for k in ("g_m", "r_pi", "r_o")})
+    q3_point = _small_signal(c, "Q3")
     extras = {
-        "r_out_hybrid_pi": hybrid_pi_output_resistance(floating, "out", transistors=network),
-        "r_out_beta_ro_half": ss["Q3"]["beta"] * ss["Q3"]["r_o"] / 2,
+        "r_out_hybrid_pi": formula.xreplace(at_point),
+        "r_out_beta_ro_half": q3_point["beta"] * q3_point["r_o"] / 2,
     }
     return c.equations(extras=extras, closed_forms=closed_forms,
                        hand_parameters=("v_be_on", "v_be_tc"))
