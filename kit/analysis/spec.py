@@ -1,0 +1,245 @@
+"""The requirement a design must meet, and the tolerance box it must meet it over.
+
+A :class:`Spec` says what "the current is guaranteed" means: a target
+current and tolerance, the load-voltage range that must lie inside
+compliance, the supply and ambient-temperature ranges, the transistor gain
+range, resistor tolerance and TCR (a default and per resistor), bounds on
+other values (a zener's voltage, an op-amp's offset) and a dissipation
+limit.  :func:`factors` turns a spec and a design into the list of
+:class:`Factor` s the worst-case methods vary.
+
+Examples
+--------
+>>> spec = Spec(i_target=1e-3, tolerance=0.05, v_load=(3.0, 10.0),
+...             temp=(233.15, 358.15), beta={"npn": (100.0, 300.0)})
+>>> [round(limit * 1e3, 6) for limit in spec.limits]
+[0.95, 1.05]
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from types import MappingProxyType
+
+from kit.errors import ParameterError
+
+SIGMA_PER_TOLERANCE = 3.0  # RSS maps a ± tolerance to 3 sigma (an assumption, stated in reports)
+DISTRIBUTIONS = ("uniform", "log-uniform")
+
+
+def _pair(name, value, low, high, unit):
+    if value is None:
+        return None
+    try:
+        a, b = (float(v) for v in value)
+    except (TypeError, ValueError):
+        raise ParameterError("must be a pair (low, high)", parameter=name, value=value,
+                             valid=f"two numbers in {low:g} … {high:g} {unit}".rstrip()) from None
+    for v in (a, b):
+        if not (low <= v <= high):
+            raise ParameterError("out of range", parameter=name, value=value,
+                                 valid=f"{low:g} … {high:g} {unit}".rstrip())
+    if a > b:
+        raise ParameterError("low end above high end", parameter=name, value=value,
+                             valid="low <= high")
+    return (a, b)
+
+
+def _fraction(name, value, high=0.5):
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (0 <= value <= high):
+        raise ParameterError("tolerance out of range", parameter=name, value=value,
+                             valid=f"0 … {high:g} (a fraction: 0.01 is 1 %)")
+    return float(value)
+
+
+@dataclass(frozen=True)
+class Spec:
+    """What the output current must do, and over what.
+
+    Parameters
+    ----------
+    i_target : float
+        Target output current in A.
+    tolerance : float
+        Allowed relative deviation (0.02 for ±2 %).
+    v_load : (float, float), optional
+        Load voltages (V) over which the current must hold; default: the
+        design's own load voltage only.
+    v_supply : (float, float), optional
+        Supply range in V; default: the design's supply only.
+    temp : (float, float), optional
+        Ambient temperature range in K; default: the design's temperature.
+    beta : dict, optional
+        Polarity (``"npn"``/``"pnp"``, or a transistor name) -> (min, max) of
+        the forward gain beta_F; default: nominal gain only.
+    resistor_tolerance : float
+        Default resistor tolerance (fraction).
+    resistor_tcr : float
+        Default TCR bound in 1/K (sign unknown: varied over ±).
+    tolerances, tcrs : dict
+        Per-resistor overrides of the two above.
+    bounds : dict
+        Other value name -> (low, high), e.g. a zener voltage or an offset.
+    p_max : float, optional
+        Dissipation limit per transistor in W (besides the junction
+        temperature limit of each device model).
+    matched : tuple of tuples
+        Groups of transistors whose gain varies together (a matched pair),
+        for Monte Carlo.
+    mismatch : float
+        Relative gain mismatch within a matched group (Monte Carlo).
+    beta_distribution : {"log-uniform", "uniform"}
+    samples : int
+        Monte Carlo samples.
+    seed : int
+        Monte Carlo seed (runs are reproducible).
+    """
+
+    i_target: float
+    tolerance: float
+    v_load: tuple | None = None
+    v_supply: tuple | None = None
+    temp: tuple | None = None
+    beta: dict = field(default_factory=dict)
+    resistor_tolerance: float = 0.01
+    resistor_tcr: float = 100e-6
+    tolerances: dict = field(default_factory=dict)
+    tcrs: dict = field(default_factory=dict)
+    bounds: dict = field(default_factory=dict)
+    p_max: float | None = None
+    matched: tuple = ()
+    mismatch: float = 0.0
+    beta_distribution: str = "log-uniform"
+    samples: int = 2000
+    seed: int = 1
+
+    def __post_init__(self):
+        if isinstance(self.i_target, bool) or not isinstance(self.i_target, (int, float)) \
+                or not (1e-12 <= self.i_target <= 100.0):
+            raise ParameterError("target current out of range", parameter="i_target",
+                                 value=self.i_target, valid="1 pA … 100 A")
+        _fraction("tolerance", self.tolerance)
+        if self.tolerance == 0:
+            raise ParameterError("a zero tolerance cannot be met", parameter="tolerance",
+                                 value=0.0, valid="> 0")
+        object.__setattr__(self, "v_load", _pair("v_load", self.v_load, -1000, 1000, "V"))
+        object.__setattr__(self, "v_supply", _pair("v_supply", self.v_supply, 0.1, 1000, "V"))
+        object.__setattr__(self, "temp", _pair("temp", self.temp, 150, 500, "K"))
+        beta = {k: _pair(f"beta.{k}", v, 1.0, 1e5, "") for k, v in dict(self.beta).items()}
+        object.__setattr__(self, "beta", MappingProxyType(beta))
+        _fraction("resistor_tolerance", self.resistor_tolerance)
+        _tcr("resistor_tcr", self.resistor_tcr)
+        object.__setattr__(self, "tolerances", MappingProxyType(
+            {k: _fraction(f"tolerances.{k}", v) for k, v in dict(self.tolerances).items()}))
+        object.__setattr__(self, "tcrs", MappingProxyType(
+            {k: _tcr(f"tcrs.{k}", v) for k, v in dict(self.tcrs).items()}))
+        object.__setattr__(self, "bounds", MappingProxyType(
+            {k: _pair(f"bounds.{k}", v, -math.inf, math.inf, "") for k, v in dict(self.bounds).items()}))
+        if self.p_max is not None and not (0 < self.p_max <= 1e4):
+            raise ParameterError("dissipation limit out of range", parameter="p_max",
+                                 value=self.p_max, valid="0 … 10 kW")
+        _fraction("mismatch", self.mismatch)
+        if self.beta_distribution not in DISTRIBUTIONS:
+            raise ParameterError("unknown distribution", parameter="beta_distribution",
+                                 value=self.beta_distribution, valid=" or ".join(DISTRIBUTIONS))
+        if not isinstance(self.samples, int) or not (10 <= self.samples <= 1_000_000):
+            raise ParameterError("sample count out of range", parameter="samples",
+                                 value=self.samples, valid="10 … 1000000")
+        if not isinstance(self.seed, int) or self.seed < 0:
+            raise ParameterError("seed must be a non-negative integer", parameter="seed",
+                                 value=self.seed, valid=">= 0")
+        object.__setattr__(self, "matched", tuple(tuple(g) for g in self.matched))
+
+    @property
+    def limits(self):
+        """``(low, high)`` current limits in A."""
+        return (self.i_target * (1 - self.tolerance), self.i_target * (1 + self.tolerance))
+
+    def margin(self, low, high):
+        """Smallest relative distance of ``[low, high]`` to the limits (< 0: out of spec).
+
+        Measured in units of the target current, so 0.01 means 1 % of the
+        target to spare.
+        """
+        lo, hi = self.limits
+        return min(low - lo, hi - high) / self.i_target
+
+    def to_dict(self):
+        out = {}
+        for name in self.__dataclass_fields__:
+            value = getattr(self, name)
+            out[name] = dict(value) if isinstance(value, MappingProxyType) else value
+        return out
+
+
+def _tcr(name, value):
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (0 <= value <= 5e-3):
+        raise ParameterError("TCR bound out of range", parameter=name, value=value,
+                             valid="0 … 5000 ppm/K (a bound; the sign is varied)")
+    return float(value)
+
+
+@dataclass(frozen=True)
+class Factor:
+    """One varied parameter of the tolerance box.
+
+    ``name`` is the flat parameter name; ``kind`` is ``"part"`` (varies from
+    part to part: resistors, gain, reference) or ``"condition"`` (the
+    environment the design must work over: temperature, supply, load).
+    """
+
+    name: str
+    nominal: float
+    low: float
+    high: float
+    kind: str
+    distribution: str = "uniform"
+    label: str = ""
+
+    @property
+    def half_range(self):
+        return 0.5 * (self.high - self.low)
+
+
+def factors(spec, design):
+    """The factors of ``spec`` applied to ``design``, parts first, then conditions.
+
+    Examples
+    --------
+    >>> import kit
+    >>> d = kit.design("divider_source")
+    >>> names = [f.name for f in factors(Spec(1e-3, 0.05, temp=(273.15, 323.15)), d)]
+    >>> names[:3], names[-1]
+    (['r1', 'r2', 'r_e'], 'temp')
+    """
+    top = design.spec
+    params = design.parameters()
+    out = []
+    for name in top.resistors:
+        tol = spec.tolerances.get(name, spec.resistor_tolerance)
+        if tol:
+            out.append(Factor(name, params[name], params[name] * (1 - tol), params[name] * (1 + tol),
+                              "part", label=f"{name} ±{tol:.3g}"))
+    for name in top.resistors:
+        tcr = spec.tcrs.get(name, spec.resistor_tcr)
+        if tcr and spec.temp is not None:
+            out.append(Factor(f"tcr_{name}", 0.0, -tcr, tcr, "part", label=f"TCR of {name}"))
+    for transistor, model in design.devices.items():
+        bounds = spec.beta.get(transistor) or spec.beta.get(model.polarity)
+        if bounds is not None and hasattr(model, "beta_f"):
+            out.append(Factor(f"{transistor}.beta_f", model.beta_f, bounds[0], bounds[1], "part",
+                              spec.beta_distribution, label=f"β_F of {transistor}"))
+    known = set(params)
+    for name, (low, high) in spec.bounds.items():
+        if name not in known:
+            raise ParameterError("bounds name no parameter of this design", parameter=f"bounds.{name}",
+                                 valid=", ".join(sorted(known)))
+        out.append(Factor(name, params[name], low, high, "part", label=name))
+    for name, bounds in (("v_supply", spec.v_supply), ("v_load", spec.v_load), ("temp", spec.temp)):
+        if bounds is not None:
+            out.append(Factor(name, params[name], bounds[0], bounds[1], "condition", label=name))
+    for f in out:
+        if f.low > f.high:
+            raise ParameterError("empty range", parameter=f.name, valid="low <= high")
+    return out
