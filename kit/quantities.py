@@ -152,7 +152,7 @@ def parse_quantity(text, unit=None, *, name="value", allow_inf=False):
     expected = None if unit is None else _canonical(unit)
     if isinstance(text, str):
         value, found = _read(text, expected, name)
-        ratio_ok = True
+        ratio_ok = found == _RATIO and expected in ("", "1/K")
         if expected is not None and found not in ("", expected) and not ratio_ok:
             raise ParameterError(f"unit {found} does not match the expected unit {unit}",
                                  parameter=name, value=text, valid=f"a value in {unit}")
