@@ -1,0 +1,1 @@
+"""Worst case, temperature, E-series and synthesis."""
