@@ -54,6 +54,9 @@ class MethodResult:
     passed: bool
     margin: float  # fraction of the target to spare (< 0: out of spec)
     detail: dict = field(default_factory=dict)
+    # Raw arrays for plots (Monte Carlo: "current" (samples, condition points),
+    # "ok", "passed" per sample); left out of to_dict.
+    arrays: dict = field(default_factory=dict, repr=False)
 
     def to_dict(self):
         return {"method": self.method, "low": self.low, "high": self.high, "passed": self.passed,
@@ -248,7 +251,8 @@ def _monte_carlo(box, box_factors):
         "distributions": {f.name: ("log-uniform" if f.distribution == "log-uniform" else "uniform")
                           for f in parts},
         "matched": [list(g) for g in spec.matched], "mismatch": spec.mismatch,
-        "how": "parts drawn per sample, each sample solved at every condition level"})
+        "how": "parts drawn per sample, each sample solved at every condition level"},
+        arrays={"current": current, "ok": ok, "passed": good, "draws": draws})
 
 
 def _budget(box, box_factors, nominal_points):
