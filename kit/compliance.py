@@ -18,8 +18,8 @@ import numpy as np
 from scipy.optimize import brentq
 
 from kit.devices import KINDS
-from kit.errors import OperatingPointError
-from kit.solve import solve_points
+from kit.errors import OperatingPointError, ParameterError
+from kit.solve import EDGES, solve_points
 
 SCAN_POINTS = 241
 EDGE_TOLERANCE = 1e-6  # V
@@ -66,12 +66,20 @@ class Compliance:
         return {"low": self.low.to_dict(), "high": self.high.to_dict(), "edge": self.edge}
 
 
+def check_edge(edge):
+    """Refuse an unknown saturation criterion."""
+    if edge not in EDGES:
+        raise ParameterError("unknown saturation edge", parameter="edge", value=edge,
+                             valid=" or ".join(EDGES))
+
+
 def margins(points, devices, edge="vce_sat"):
     """Per-transistor margins (V or W; >= 0 is inside) of solved points.
 
     Returns a dict ``(transistor, cause) -> array``; a point that did not
     converge gets ``-inf`` under cause ``"solve"``.
     """
+    check_edge(edge)
     temp = points.p[points.model.parameter_index["temp"]]
     v_t = points.q[points.model.operating_index["V_T"]]
     out = {}

@@ -156,6 +156,44 @@ class Design:
         }
 
 
+def parameter_range(top, name):
+    """``(low, high, unit)`` of flat parameter ``name`` in topology ``top``.
+
+    The same ranges :class:`Design` enforces, for checking arrays of values
+    (sweeps) without building a design per point.
+    """
+    if name in {v.name for v in top.values}:
+        spec = top.value_spec(name)
+        return spec.low, spec.high, spec.unit
+    if name in ("temp", "t_ref"):
+        return (*TEMPERATURE_RANGE, "K")
+    if name.startswith("tcr_"):
+        return (*TCR_RANGE, "1/K")
+    if name in HAND_RANGES:
+        return HAND_RANGES[name]
+    device, _, key = name.partition(".")
+    if key == "t_rise":
+        return (*T_RISE_RANGE, "K")
+    if device in top.transistors:
+        limits = getattr(KINDS[top.kind_of(device)], "MODEL_LIMITS", bjt.MODEL_LIMITS)
+        if key in limits:
+            return limits[key]
+    raise ParameterError("no such parameter", parameter=name, valid="a flat parameter name of the design")
+
+
+def check_parameter_values(top, name, values):
+    """Raise :class:`ParameterError` unless every value of ``name`` lies in its range."""
+    import numpy as np
+
+    low, high, unit = parameter_range(top, name)
+    array = np.asarray(values, dtype=float)
+    allowed_inf = name.endswith(".v_a")
+    bad = ~((array >= low) & (array <= high)) & ~(allowed_inf & np.isposinf(array))
+    if np.any(bad):
+        raise ParameterError("out of range", parameter=name, value=float(array[bad].flat[0]),
+                             valid=f"{low:g} … {high:g} {unit}".rstrip())
+
+
 def _check_values(top, values):
     names = [v.name for v in top.values]
     unknown = sorted(set(values) - set(names))

@@ -17,7 +17,7 @@ from functools import cached_property
 import numpy as np
 
 from kit import display
-from kit.compliance import find_compliance, worst_margin
+from kit.compliance import check_edge, find_compliance, worst_margin
 from kit.derive import compile_model
 from kit.devices import KINDS
 from kit.errors import OperatingPointError
@@ -48,8 +48,13 @@ def sweep(design, name, values, **fixed):
     >>> bool(pts.converged.all()), bool(pts.i_out[1] > pts.i_out[0])
     (True, True)
     """
+    from kit.designs import check_parameter_values
+
+    changes = fixed | {name: values}
+    for key, value in changes.items():
+        check_parameter_values(design.spec, key, value)
     model = model_of(design)
-    params = design.parameters() | fixed | {name: np.asarray(values, dtype=float)}
+    params = design.parameters() | {k: np.asarray(v, dtype=float) for k, v in changes.items()}
     return solve_points(model, params)
 
 
@@ -383,6 +388,7 @@ def evaluate(design, *, edge="vce_sat"):
     kit.errors.ConvergenceError
         If the exact solve did not converge.
     """
+    check_edge(edge)
     model = model_of(design)
     values = design.parameters()
     points = solve_points(model, values).require("design point")
