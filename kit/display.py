@@ -13,9 +13,10 @@ STYLE = (
     ".bb-result{font-family:system-ui,sans-serif;font-size:13px;max-width:60em}"
     ".bb-result h4{margin:.8em 0 .3em;color:#264653;border-bottom:2px solid #e9c46a}"
     ".bb-result table{border-collapse:collapse;margin:.2em 0 .6em}"
-    ".bb-result td,.bb-result th{padding:2px 10px;border-bottom:1px solid #ddd;text-align:left}"
+    ".bb-result td,.bb-result th{padding:2px 10px;border-bottom:1px solid #ddd;"
+    "text-align:left!important;vertical-align:top}"
     ".bb-result th{background:#f4f1e8}"
-    ".bb-result td.num{text-align:right;font-variant-numeric:tabular-nums}"
+    ".bb-result td.num{text-align:right!important;font-variant-numeric:tabular-nums}"
     ".bb-ok{color:#2a7d4f;font-weight:600}.bb-bad{color:#b23a48;font-weight:600}"
     "</style>"
 )

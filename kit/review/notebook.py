@@ -1,0 +1,108 @@
+"""Design notebooks made from a template: one per topology, prefilled from a record.
+
+:func:`new_notebook` writes the standard design story — circuit, derivation,
+operating point, ledger, sweep across compliance, worst case when the record
+has a spec, and the review summary — for any topology.  ``biasbook new`` and
+``biasbook review RECORD.toml`` both use it.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+
+def _code(source, *, hide=False):
+    import nbformat
+
+    cell = nbformat.v4.new_code_cell(source)
+    if hide:
+        cell.metadata["tags"] = ["biasbook-setup"]
+    return cell
+
+
+def _markdown(text):
+    import nbformat
+
+    return nbformat.v4.new_markdown_cell(text)
+
+
+SWEEP_CELL = '''\
+# NBVAL_IGNORE_OUTPUT
+from bokeh.models import BoxAnnotation
+from bokeh.plotting import figure, show
+low, high = evaluation.compliance.low.voltage, evaluation.compliance.high.voltage
+span = max(high - low, 1.0)
+v_load = np.linspace(low - 0.15 * span, high + 0.05 * span, 300)
+points = sweep(design, "v_load", v_load)
+forms = points.model.closed_forms(points.q)
+plot = figure(width=640, height=320, x_axis_label="load voltage V_load (V)", y_axis_label="I_out (mA)",
+              title="Output current across compliance: exact and hand formulas")
+plot.add_layout(BoxAnnotation(left=low, right=high, fill_alpha=0.08, fill_color="#2a9d8f"))
+plot.line(v_load, points.i_out * 1e3, line_width=2.5, color="#264653", legend_label="exact")
+for key, colour in zip(forms, ("#e76f51", "#e9c46a", "#8ab17d", "#6d597a", "#b56576")):
+    plot.line(v_load, forms[key] * 1e3, line_dash="dashed", color=colour,
+              legend_label=design.spec.simplification(key).label)
+plot.legend.location = "bottom_right"
+show(plot)'''
+
+
+def new_notebook(design, *, record_path=None, title=None, has_spec=False):
+    """A design notebook for ``design`` (a :class:`kit.designs.Design`).
+
+    With ``record_path`` the notebook loads its design from that record (a
+    path relative to where the notebook will live, or absolute); otherwise
+    the design is written out as a ``kit.design(...)`` call.
+    """
+    import nbformat
+
+    top = design.spec
+    heading = title or design.title or top.title
+    if record_path is not None:
+        load = (f"record = load_record({json.dumps(str(record_path))})\n"
+                "design = record.design\n"
+                "spec = getattr(record, 'spec', None)")
+    else:
+        values = ", ".join(f"{k}={v!r}" for k, v in design.values.items())
+        load = (f"record = None\ndesign = kit.design({top.key!r}, {design.polarity!r}, {values},\n"
+                f"                    title={heading!r})\nspec = None")
+    cells = [
+        _markdown(f"# {heading}\n\n{top.title} ({design.polarity.upper()}). {top.description}\n\n"
+                  "State the requirement here: the current and its tolerance, the load-voltage range, "
+                  "the supply and temperature ranges."),
+        _code("# NBVAL_IGNORE_OUTPUT\nimport numpy as np\nimport kit\n"
+              "from bokeh.io import output_notebook\nfrom bokeh.resources import INLINE\n"
+              "from kit.derivation import derivation\nfrom kit.evaluation import sweep\n"
+              "from kit.record import load_record\nfrom kit.review import review_summary\n"
+              "from kit.schematic import render\n"
+              "output_notebook(resources=INLINE, hide_banner=True)\n" + load, hide=True),
+        _markdown("## The circuit"),
+        _code("render(design)"),
+        _markdown("## The exact equations and the hand formulas"),
+        _code("# NBVAL_IGNORE_OUTPUT\nderivation(design)"),
+        _markdown("## The design point\n\nExact solve, compliance, output resistance, sensitivities, "
+                  "tempco budget and the ledger of simplifications."),
+        _code("# NBVAL_IGNORE_OUTPUT\nevaluation = kit.evaluate(design, edge=getattr(record, 'edge', 'vce_sat'))\n"
+              "evaluation"),
+        _markdown("## Across compliance"),
+        _code(SWEEP_CELL),
+    ]
+    if has_spec or record_path is not None:
+        cells += [_markdown("## Worst case against the specification"),
+                  _code("# NBVAL_IGNORE_OUTPUT\nfrom kit.analysis.worstcase import worst_case\n"
+                        "worst = worst_case(design, spec) if spec is not None else None\nworst")]
+    else:
+        cells.append(_code("worst = None", hide=True))
+    cells += [_markdown("## Summary for the review"),
+              _code("# NBVAL_IGNORE_OUTPUT\nreview_summary(evaluation, worst, record)")]
+    notebook = nbformat.v4.new_notebook()
+    notebook.cells = cells
+    notebook.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3", "language": "python"}
+    notebook.metadata["biasbook"] = {"topology": top.key, "polarity": design.polarity}
+    return notebook
+
+
+def notebook_for_record(record, path):
+    """The template notebook of a loaded record stored at ``path``."""
+    return new_notebook(record.design, record_path=Path(path).resolve(), title=record.title,
+                        has_spec=getattr(record, "spec", None) is not None)
