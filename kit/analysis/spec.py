@@ -213,8 +213,11 @@ def factors(spec, design):
     >>> names[:3], names[-1]
     (['r1', 'r2', 'r_e'], 'temp')
     """
+    from kit.designs import parameter_range
+
     top = design.spec
     params = design.parameters()
+    _check_names(spec, design)
     out = []
     for name in top.resistors:
         tol = spec.tolerances.get(name, spec.resistor_tolerance)
@@ -224,22 +227,50 @@ def factors(spec, design):
     for name in top.resistors:
         tcr = spec.tcrs.get(name, spec.resistor_tcr)
         if tcr and spec.temp is not None:
-            out.append(Factor(f"tcr_{name}", 0.0, -tcr, tcr, "part", label=f"TCR of {name}"))
+            # The bound is a spread about the design's own TCR (zero unless it names one).
+            own = params[f"tcr_{name}"]
+            out.append(Factor(f"tcr_{name}", own, own - tcr, own + tcr, "part", label=f"TCR of {name}"))
     for transistor, model in design.devices.items():
         bounds = spec.beta.get(transistor) or spec.beta.get(model.polarity)
         if bounds is not None and hasattr(model, "beta_f"):
             out.append(Factor(f"{transistor}.beta_f", model.beta_f, bounds[0], bounds[1], "part",
                               spec.beta_distribution, label=f"β_F of {transistor}"))
-    known = set(params)
+    varied = {f.name for f in out} | {n for n, b in (("v_supply", spec.v_supply), ("v_load", spec.v_load),
+                                                     ("temp", spec.temp)) if b is not None}
     for name, (low, high) in spec.bounds.items():
-        if name not in known:
-            raise ParameterError("bounds name no parameter of this design", parameter=f"bounds.{name}",
-                                 valid=", ".join(sorted(known)))
+        field = f"bounds.{name}"
+        if name not in params:
+            raise ParameterError("names no parameter of this design", parameter=field,
+                                 valid=", ".join(sorted(params)))
+        if name in varied:
+            raise ParameterError("already varied by the spec (its tolerance, gain or condition range)",
+                                 parameter=field, valid="a value the spec does not vary otherwise")
+        lowest, highest, unit = parameter_range(top, name)
+        if not (lowest <= low <= high <= highest):
+            raise ParameterError("outside the value's valid range", parameter=field, value=(low, high),
+                                 valid=f"{lowest:g} … {highest:g} {unit}".rstrip())
         out.append(Factor(name, params[name], low, high, "part", label=name))
     for name, bounds in (("v_supply", spec.v_supply), ("v_load", spec.v_load), ("temp", spec.temp)):
         if bounds is not None:
             out.append(Factor(name, params[name], bounds[0], bounds[1], "condition", label=name))
-    for f in out:
-        if f.low > f.high:
-            raise ParameterError("empty range", parameter=f.name, valid="low <= high")
     return out
+
+
+def _check_names(spec, design):
+    """Refuse spec entries that name nothing in the design (they would silently do nothing)."""
+    transistors = set(design.devices)
+    for key in spec.beta:
+        if key not in transistors | {"npn", "pnp"}:
+            raise ParameterError("names no transistor or polarity of this design", parameter=f"beta.{key}",
+                                 valid=", ".join(sorted(transistors | {"npn", "pnp"})))
+    resistors = set(design.spec.resistors)
+    for table, entries in (("tolerances", spec.tolerances), ("tcrs", spec.tcrs)):
+        for key in entries:
+            if key not in resistors:
+                raise ParameterError("names no resistor of this design", parameter=f"{table}.{key}",
+                                     valid=", ".join(sorted(resistors)))
+    for group in spec.matched:
+        stray = [name for name in group if name not in transistors]
+        if stray:
+            raise ParameterError("names no transistor of this design", parameter="matched", value=stray[0],
+                                 valid=", ".join(sorted(transistors)))

@@ -185,6 +185,17 @@ def _plans(design, setting):
     return plans
 
 
+def _why_unsized(design, spec, name):
+    """Reasons no value of ``name`` reaches the target: first, what the load range does."""
+    reasons = []
+    if spec.v_load is not None:
+        box = _Box(spec, design, self_heating=False, edge="vce_sat")
+        points = box.solve({"v_load": np.array(spec.v_load)})
+        ok, why = box.judge(points)
+        reasons += [f"{why[k]} at v_load = {format_quantity(spec.v_load[k], 'V')}" for k in range(2) if not ok[k]]
+    return reasons + [f"no value of {name} in its range gives {format_quantity(spec.i_target, 'A')}"]
+
+
 def _candidates(design, series, setting):
     """Designs with every resistor at one of its neighbouring standard values.
 
@@ -265,7 +276,7 @@ def synthesize(spec, *, topologies=None, polarities=None):
                 sized = [d for d in (_size(plan, name, spec.i_target) for plan in _plans(start, name))
                          if d is not None]
                 if not sized:
-                    infeasible[key] = [f"no value of {name} in its range gives {format_quantity(spec.i_target, 'A')}"]
+                    infeasible[key] = _why_unsized(start, spec, name)
                     continue
                 candidates = [c for d in sized for c in _candidates(d, series, name)]
                 margins = _screen(spec, candidates)
@@ -274,7 +285,8 @@ def synthesize(spec, *, topologies=None, polarities=None):
                 for k in np.argsort(-margins)[:CONFIRMED]:
                     wc = worst_case(candidates[k], spec, methods=("extreme-value",))
                     eva = wc.methods["extreme-value"]
-                    confirmed.append(Candidate(candidates[k], wc.nominal, eva.low, eva.high, eva.margin,
+                    margin = -np.inf if eva.margin is None else eva.margin
+                    confirmed.append(Candidate(candidates[k], wc.nominal, eva.low, eva.high, margin,
                                                wc.met, eva.method, tuple(wc.reasons())))
                     if wc.met:
                         break

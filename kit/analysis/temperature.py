@@ -15,6 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from kit.analysis.thermal import junction_temperatures, solve_self_heated
+from kit.compliance import CAUSES, worst_margin
+from kit.errors import OperatingPointError
 from kit.evaluation import _budget_label, model_of
 from kit.quantities import format_quantity, format_temperature
 from kit.solve import solve_points
@@ -78,6 +80,18 @@ class TemperatureSweep:
         return "\n".join(lines)
 
 
+def _require_valid(points, design, temps):
+    """Refuse a sweep in which the design leaves forward active or its ratings."""
+    worst, keys = worst_margin(points, design.devices, "vce_sat")
+    bad = np.flatnonzero(worst < 0)
+    if bad.size:
+        part, cause = keys[bad[0]]
+        what = "no converged solution" if part is None else f"{part} {CAUSES.get(cause, cause)}"
+        raise OperatingPointError(f"{what} at {format_temperature(temps[bad[0]], 3)}", parameter="temp",
+                                  value=float(temps[bad[0]]),
+                                  valid="temperatures at which every transistor stays in forward active")
+
+
 def temperature_sweep(design, temps, *, points=61):
     """Sweep the ambient temperature over ``temps`` = (low, high) in K (or an array).
 
@@ -93,6 +107,8 @@ def temperature_sweep(design, temps, *, points=61):
     values = design.parameters() | {"temp": temps}
     cold = solve_points(model, values).require("temperature sweep")
     heated = solve_self_heated(model, values, design.devices).require("self-heated sweep")
+    for points in (cold, heated):
+        _require_valid(points, design, temps)
     t_index = model.parameter_index["temp"]
     tempco = cold.di_dp[t_index] / cold.i_out
     budget = {}

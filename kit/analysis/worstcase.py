@@ -40,6 +40,7 @@ from kit.solve import solve_points
 
 MAX_CORNER_FACTORS = 14  # 2^14 = 16384 corners; above, extreme corners come from the signs
 INTERIOR_SAMPLES = 2048
+INTERIOR_SLACK = 1e-9  # relative; below it, "beyond the corners" is solver noise
 AXIS_POINTS = 33
 METHODS = ("extreme-value", "RSS", "Monte Carlo")
 
@@ -57,6 +58,13 @@ class MethodResult:
     # Raw arrays for plots (Monte Carlo: "current" (samples, condition points),
     # "ok", "passed" per sample); left out of to_dict.
     arrays: dict = field(default_factory=dict, repr=False)
+
+    def texts(self, digits=4):
+        """``(low, high, margin)`` as text; ``—`` where no point was valid."""
+        if self.low is None:
+            return "—", "—", "—"
+        return (format_quantity(self.low, "A", digits), format_quantity(self.high, "A", digits),
+                f"{self.margin:+.3%}")
 
     def to_dict(self):
         return {"method": self.method, "low": self.low, "high": self.high, "passed": self.passed,
@@ -111,6 +119,20 @@ class _Box:
         return ok, reasons
 
 
+def _valid_range(current, ok):
+    """``(low, high)`` of the currents at valid points, or ``(None, None)`` if there are none."""
+    if not np.any(ok):
+        return None, None
+    return float(np.min(current[ok])), float(np.max(current[ok]))
+
+
+def _verdict(spec, low, high, all_ok):
+    """``(passed, margin)``; no valid point means failed with no margin to state."""
+    if low is None:
+        return False, None
+    return bool(all_ok) and spec.limits[0] <= low and high <= spec.limits[1], float(spec.margin(low, high))
+
+
 def _corner_values(box_factors):
     grid = np.array(list(itertools.product((0, 1), repeat=len(box_factors))), dtype=float)
     return {f.name: f.low + grid[:, i] * (f.high - f.low) for i, f in enumerate(box_factors)}
@@ -142,6 +164,8 @@ def _extreme_value(box, box_factors, nominal_points):
     turning = [f for f, s in zip(box_factors, slopes) if s.size and np.any(s > 0) and np.any(s < 0)]
     rng = np.random.default_rng(spec.seed + 1)
     inside = {f.name: rng.uniform(f.low, f.high, INTERIOR_SAMPLES) for f in box_factors}
+    if not box_factors:
+        inside = None  # the box is the nominal point: nothing inside it to search
     sweeps = []
     for f in turning:
         # Sweep the turning factor with the others at the corners of the extremes found so far.
@@ -149,25 +173,24 @@ def _extreme_value(box, box_factors, nominal_points):
             line = {g.name: np.full(AXIS_POINTS, corners[g.name][k]) for g in box_factors}
             line[f.name] = np.linspace(f.low, f.high, AXIS_POINTS)
             sweeps.append(line)
-    for extra in [inside] + sweeps:
+    for extra in ([inside] if inside else []) + sweeps:
         more = box.solve(extra)
         more_ok, more_reasons = box.judge(more)
         points_current = more.i_out
         current = np.concatenate([current, points_current])
         ok = np.concatenate([ok, more_ok])
         reasons = np.concatenate([reasons, more_reasons])
-    corner_count = len(next(iter(corners.values())))
-    corner_low = np.min(np.where(ok[:corner_count], current[:corner_count], np.inf))
-    corner_high = np.max(np.where(ok[:corner_count], current[:corner_count], -np.inf))
-    low = float(np.min(np.where(ok, current, np.inf)))
-    high = float(np.max(np.where(ok, current, -np.inf)))
-    interior = bool(low < corner_low - 1e-12 * abs(corner_low) or high > corner_high + 1e-12 * abs(corner_high))
+    corner_count = points.size
+    corner_low, corner_high = _valid_range(current[:corner_count], ok[:corner_count])
+    low, high = _valid_range(current, ok)
+    # Interior beyond the corners by more than the self-heated solve resolves (~1e-12).
+    slack = INTERIOR_SLACK * abs(corner_high or 0.0)
+    interior = bool(corner_low is not None and (low < corner_low - slack or high > corner_high + slack))
     note.append(f"{INTERIOR_SAMPLES} interior samples" + (f", sweeps along {', '.join(f.name for f in turning)}"
                                                           if turning else ""))
     failures = sorted({r for r in reasons[~ok] if r})
-    passed = bool(ok.all()) and spec.limits[0] <= low and high <= spec.limits[1]
-    margin = spec.margin(low, high) if np.isfinite(low) and np.isfinite(high) else -np.inf
-    return MethodResult("extreme-value", low, high, passed, float(margin), {
+    passed, margin = _verdict(spec, low, high, ok.all())
+    return MethodResult("extreme-value", low, high, passed, margin, {
         "points": int(current.size), "failing_points": int((~ok).sum()), "failures": failures,
         "non_monotonic": [f.name for f in turning], "interior_beyond_corners": interior,
         "how": "; ".join(note)})
@@ -192,10 +215,10 @@ def _rss(box, box_factors):
         sigma += (points.di_dp[index[f.name]] * f.half_range / SIGMA_PER_TOLERANCE) ** 2
     sigma = np.sqrt(sigma)
     k = SIGMA_PER_TOLERANCE
-    low = float(np.min(points.i_out - k * sigma))
-    high = float(np.max(points.i_out + k * sigma))
-    passed = bool(ok.all()) and spec.limits[0] <= low and high <= spec.limits[1]
-    return MethodResult("RSS", low, high, passed, float(spec.margin(low, high)), {
+    low, _ = _valid_range(points.i_out - k * sigma, ok)
+    _, high = _valid_range(points.i_out + k * sigma, ok)
+    passed, margin = _verdict(spec, low, high, ok.all())
+    return MethodResult("RSS", low, high, passed, margin, {
         "sigma_max": float(sigma.max()), "coverage": f"±{k:g} sigma",
         "mapping": f"a ± tolerance is taken as ±{SIGMA_PER_TOLERANCE:g} sigma (an assumption)",
         "condition_corners": count,
@@ -209,13 +232,15 @@ def _draw_parts(spec, design, parts, rng, n):
             draws[f.name] = np.exp(rng.uniform(np.log(f.low), np.log(f.high), n))
         else:
             draws[f.name] = rng.uniform(f.low, f.high, n)
-    # Matched groups: one gain for the group, each member within the mismatch of it.
+    # Matched groups: one gain for the group, each member within the mismatch of
+    # it, kept inside the spec's gain range (clipped at its ends).
+    ranges = {f.name: (f.low, f.high) for f in parts}
     for group in spec.matched:
         names = [f"{t}.beta_f" for t in group if f"{t}.beta_f" in draws]
         if names:
             common = draws[names[0]]
             for name in names:
-                draws[name] = common * (1 + spec.mismatch * rng.uniform(-1, 1, n))
+                draws[name] = np.clip(common * (1 + spec.mismatch * rng.uniform(-1, 1, n)), *ranges[name])
     return draws
 
 
@@ -231,6 +256,8 @@ def _monte_carlo(box, box_factors):
     changes = {name: np.repeat(values, len(grid)) for name, values in draws.items()}
     for i, f in enumerate(conditions):
         changes[f.name] = np.tile([g[i] for g in grid], n)
+    if not changes:  # nothing varies: every sample is the nominal point
+        changes = {"temp": np.full(n * len(grid), box.base["temp"])}
     points = box.solve(changes)
     ok, _ = box.judge(points)
     current = points.i_out.reshape(n, len(grid))
@@ -241,10 +268,10 @@ def _monte_carlo(box, box_factors):
     valid = current[ok]
     percentiles = {str(p): float(np.percentile(valid, p)) for p in (0.135, 1, 50, 99, 99.865)} \
         if valid.size else {}
-    low, high = (float(valid.min()), float(valid.max())) if valid.size else (np.nan, np.nan)
+    low, high = _valid_range(current, ok)
+    _, margin = _verdict(spec, low, high, ok.all())
     passed = yield_ == 1.0
-    margin = spec.margin(low, high) if valid.size else -np.inf
-    return MethodResult("Monte Carlo", low, high, passed, float(margin), {
+    return MethodResult("Monte Carlo", low, high, passed, margin, {
         "samples": n, "seed": spec.seed, "condition_points": len(grid), "yield": yield_,
         "yield_standard_error": float(np.sqrt(max(yield_ * (1 - yield_), 1e-300) / n)),
         "percentiles": percentiles, "failing_samples": int((~good).sum()),
@@ -274,20 +301,30 @@ def _budget(box, box_factors, nominal_points):
     for name, values in corners.items():
         changes[name] = np.broadcast_to(values, (rows, count))
     points = box.solve({k: np.ravel(v) for k, v in changes.items()})
+    ok = box.judge(points)[0].reshape(rows, count)
     current = points.i_out.reshape(rows, count)
-    swings = [np.abs(current[1 + 2 * i: 3 + 2 * i] - current[0]).max() for i in range(len(parts))]
+    # Only solved, valid points count: a run-away or saturated point has no current to compare.
+    swings = [_largest_change(current[1 + 2 * i: 3 + 2 * i], current[0], ok[1 + 2 * i: 3 + 2 * i] & ok[0])
+              for i in range(len(parts))]
     if conditions:
         alone = {f.name: np.full(2 * len(conditions), f.nominal) for f in conditions}
         for i, f in enumerate(conditions):
             alone[f.name][2 * i], alone[f.name][2 * i + 1] = f.low, f.high
-        moved = box.solve(alone).i_out.reshape(len(conditions), 2)
-        swings += list(np.abs(moved - nominal_points.i_out[0]).max(axis=1))
+        moved_points = box.solve(alone)
+        moved_ok = box.judge(moved_points)[0].reshape(len(conditions), 2)
+        moved = moved_points.i_out.reshape(len(conditions), 2)
+        swings += [_largest_change(m, nominal_points.i_out[0], k) for m, k in zip(moved, moved_ok)]
     ordered = parts + conditions
     total = float(sum(swings)) or 1.0
     slope = nominal_points.di_dp[:, 0]
     entries = [BudgetEntry(f.name, f.label, f.kind, float(s), float(abs(slope[index[f.name]]) * f.half_range),
                            float(s / total)) for f, s in zip(ordered, swings)]
     return sorted(entries, key=lambda e: -e.swing)
+
+
+def _largest_change(values, reference, ok):
+    changes = np.abs(np.asarray(values) - reference)[np.asarray(ok)]
+    return float(changes.max()) if changes.size else 0.0
 
 
 class WorstCase:
@@ -320,8 +357,8 @@ class WorstCase:
                            f"of the target (the spec allows ±{self.spec.tolerance:.2%})")
         eva = self.methods["extreme-value"]
         if not out and not eva.passed:
-            out.append(f"worst case {format_quantity(eva.low, 'A', 4)} … {format_quantity(eva.high, 'A', 4)} "
-                       "leaves the spec")
+            low, high, _ = eva.texts()
+            out.append(f"worst case {low} … {high} leaves the spec")
         return out
 
     def to_dict(self):
@@ -341,8 +378,8 @@ class WorstCase:
         for m in self.methods.values():
             verdict = "PASS" if m.passed else "FAIL"
             extra = f", yield {m.detail['yield']:.2%}" if "yield" in m.detail else ""
-            lines.append(f"  {m.method:<14} {format_quantity(m.low, 'A', 4):>10} … "
-                         f"{format_quantity(m.high, 'A', 4):<10} margin {m.margin:+.3%}  {verdict}{extra}")
+            low, high, margin = m.texts()
+            lines.append(f"  {m.method:<14} {low:>10} … {high:<10} margin {margin}  {verdict}{extra}")
         lines.append("error budget (each factor alone, exact)")
         for b in self.budget:
             lines.append(f"  {b.label:<22} {format_quantity(b.swing, 'A'):>9}  {b.share:6.1%}")
@@ -355,8 +392,7 @@ class WorstCase:
         rows = []
         for m in self.methods.values():
             css = "bb-ok" if m.passed else "bb-bad"
-            rows.append([m.method, format_quantity(m.low, "A", 4), format_quantity(m.high, "A", 4),
-                         f"{m.margin:+.3%}", display.Raw(f'<span class="{css}">{"pass" if m.passed else "fail"}</span>'),
+            rows.append([m.method, *m.texts(), display.Raw(f'<span class="{css}">{"pass" if m.passed else "fail"}</span>'),
                          m.detail.get("how", "")])
         methods = display.table(["method", "lowest", "highest", "margin", "verdict", "how"], rows,
                                 numeric=(1, 2, 3))

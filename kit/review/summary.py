@@ -82,8 +82,8 @@ class ReviewSummary:
                  "margin": f"{wc.spec.margin(wc.nominal, wc.nominal):+.2%}",
                  "verdict": "pass" if lo <= wc.nominal <= hi else "fail"}]
         for m in wc.methods.values():
-            rows.append({"method": m.method, "low": format_quantity(m.low, "A", 4),
-                         "high": format_quantity(m.high, "A", 4), "margin": f"{m.margin:+.2%}",
+            low, high, margin = m.texts()
+            rows.append({"method": m.method, "low": low, "high": high, "margin": margin,
                          "verdict": "pass" if m.passed else "fail"})
         return [{"spec": f"{format_quantity(wc.spec.i_target, 'A', 4)} ± {wc.spec.tolerance:.2%}"}] + rows
 
