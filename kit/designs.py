@@ -226,7 +226,11 @@ def _check_devices(top, polarity, devices):
         kind = KINDS[top.kind_of(name)]
         model = devices.get(name, kind.typical(wanted))
         if isinstance(model, dict):
-            model = kind.typical(wanted).with_values(**model)
+            try:
+                model = kind.typical(wanted).with_values(**model)
+            except ParameterError as err:  # name the transistor too: "Q2.beta_f"
+                raise ParameterError(err.message, parameter=f"{name}.{err.parameter}", value=err.value,
+                                     valid=err.valid) from None
         if not isinstance(model, kind.MODEL):
             raise ParameterError(f"must be a {kind.MODEL.__name__} or a dict of its parameters",
                                  parameter=name, value=type(model).__name__)

@@ -8,8 +8,8 @@ not is never returned as a valid current (:meth:`OperatingPoints.require`).
 
 Operating regions use normalised junction voltages (forward bias positive):
 
-``cutoff``     v_BE and v_BC below :data:`kit.devices.bjt.CUTOFF_THERMAL_VOLTAGES` V_T
-``reverse``    v_BE below that, v_BC above it
+``cutoff``     collector current below :data:`kit.devices.bjt.CUTOFF_CURRENT`, v_BC not forward
+``reverse``    v_BE below :data:`kit.devices.bjt.CUTOFF_THERMAL_VOLTAGES` V_T, v_BC above it
 ``saturated``  conducting with V_CE < V_CE(sat) (edge ``"vce_sat"``) or V_CB < 0 (edge ``"vcb_zero"``)
 ``active``     otherwise (forward active)
 """
@@ -28,6 +28,7 @@ JUNCTION_STEP = 0.1  # V per Newton step for a junction that is forward biased
 NODE_STEP = 2.0  # V per Newton step for any node
 STEP_TOLERANCE = 1e-12  # relative; plus an absolute 1e-14 V
 MAX_ITERATIONS = 200
+RESIDUAL_FLOOR = 1e-15  # A
 EDGES = ("vce_sat", "vcb_zero")
 
 
@@ -231,7 +232,10 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     # singular there; confirm against the currents flowing at each node.
     f = np.abs(model.residuals(x, q))
     scale = model.scales(x, q)
-    converged &= np.all(f <= 1e-9 * scale + 1e-18, axis=0)
+    # The absolute floor (1 fA) covers a node whose currents are tiny but whose
+    # voltage is large (a cut-off device at a high supply): one ulp of the
+    # voltage over its resistor is already more than 1e-9 of what flows there.
+    converged &= np.all(f <= 1e-9 * scale + RESIDUAL_FLOOR, axis=0)
     points = OperatingPoints(model, p, q, x, converged, iterations)
     # Self-biased cells also solve at zero current: a topology can refuse that branch.
     valid_branch = getattr(model.topology, "valid_branch", None)

@@ -39,9 +39,12 @@ BOLTZMANN = 1.380649e-23  # J/K
 ELEMENTARY_CHARGE = 1.602176634e-19  # C
 BOLTZMANN_OVER_CHARGE = BOLTZMANN / ELEMENTARY_CHARGE  # V/K
 
-# Below this many thermal voltages of forward bias a junction is called off:
-# I_C is then below ~3e3 I_S, tens of pA for a small-signal part.
+# A junction with less than this many thermal voltages of forward bias counts
+# as not forward biased (for telling reverse operation apart).  A transistor
+# is cut off when its collector current is below CUTOFF_CURRENT: a voltage
+# criterion alone would call a hot, large part cut off while it conducts.
 CUTOFF_THERMAL_VOLTAGES = 8.0
+CUTOFF_CURRENT = 1e-10  # A
 
 
 def thermal_voltage(temp):
@@ -217,8 +220,15 @@ def regions(j, v_t, device, edge="vce_sat"):
     saturated = j["v_ce"] < device.v_ce_sat if edge == "vce_sat" else j["v_bc"] > 0.0
     region = np.where(saturated, "saturated", "active").astype(object)
     region[(j["v_be"] < off) & (j["v_bc"] >= off)] = "reverse"
-    region[(j["v_be"] < off) & (j["v_bc"] < off)] = "cutoff"
+    region[(j["v_bc"] < off) & (j["i_c"] < CUTOFF_CURRENT)] = "cutoff"
     return region
+
+
+def _cutoff_margin(j, v_t):
+    import numpy as np
+
+    # The current criterion as a voltage, V_T ln(I_C / I_cutoff): continuous for I_C > 0.
+    return v_t * np.log(np.maximum(j["i_c"], 1e-300) / CUTOFF_CURRENT)
 
 
 def margins(j, v_t, temp, device, edge="vce_sat"):
@@ -230,7 +240,7 @@ def margins(j, v_t, temp, device, edge="vce_sat"):
     saturation = j["v_ce"] - device.v_ce_sat if edge == "vce_sat" else -j["v_bc"]
     return {
         "saturation": saturation,
-        "cutoff": j["v_be"] - CUTOFF_THERMAL_VOLTAGES * v_t,
+        "cutoff": _cutoff_margin(j, v_t),  # see CUTOFF_CURRENT
         "breakdown": device.bv_ceo - j["v_ce"],
         "power": (device.t_j_max - temp) / device.theta_ja - dissipation(j),
     }

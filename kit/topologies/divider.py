@@ -77,7 +77,7 @@ def build(polarity):
 
     v_cc = c.voltages["cc"]
     beta, i_s, v_a = q1["beta"], q1["I_S"], q1["V_A"]
-    v_t = c.v_t
+    v_t = q1["V_T"]  # at Q1's junction, so the closed forms hold with self-heating too
     drive = v_cc * (r2 if npn else r1) / (r1 + r2)
     r_th = r1 * r2 / (r1 + r2)
     k = (r_th + (beta + 1) * r_e) / beta
@@ -105,7 +105,7 @@ def guess(model, q):
     """Node voltages from the exponential closed form (exact for V_A -> inf)."""
     index = model.operating_index
     current = model.closed_forms(q)["exponential"]
-    beta, i_s, v_t = (q[index[n]] for n in ("beta_Q1", "I_S_Q1", "V_T"))
+    beta, i_s, v_t = (q[index[n]] for n in ("beta_Q1", "I_S_Q1", "V_T_Q1"))
     current = np.where(np.isfinite(current) & (current > 0), current, 1e-9)
     v_be = v_t * np.log(current / i_s)
     v_re = current * (beta + 1) / beta * q[index["R_E"]]
