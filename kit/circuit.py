@@ -249,7 +249,10 @@ class Circuit:
         scales = [sp.Add(*[sp.Abs(t) for t in terms]) for terms in self.kcl.values()]
         for symbol, expression in self.driven.values():
             residuals.append(symbol - expression)
-            scales.append(sp.Abs(symbol) + sp.Abs(expression))
+            # Term by term: a large gain times a small difference rounds at the
+            # size of each term, not of their sum.
+            terms = sp.Add.make_args(sp.expand(expression))
+            scales.append(sp.Abs(symbol) + sp.Add(*[sp.Abs(t) for t in terms]))
         # Unknowns in the order of their residuals, so the Jacobian stays diagonal-heavy.
         order = [self.voltages[n] for n in self.kcl] + [s for s, _ in self.driven.values()]
         return Equations(

@@ -24,13 +24,23 @@ from kit.solve import EDGES, solve_points
 SCAN_POINTS = 241
 EDGE_TOLERANCE = 1e-6  # V
 
+# Wording of causes that are not a device's own (each device kind words its own).
 CAUSES = {
     "saturation": "saturates",
     "cutoff": "cuts off",
-    "breakdown": "reaches BV_CEO",
+    "breakdown": "reaches its breakdown voltage",
     "power": "reaches its dissipation limit",
+    "output_swing": "reaches its output swing limit",
     "solve": "has no converged operating point",
 }
+
+
+def cause_text(model, part, cause):
+    """How a report words ``cause`` for ``part`` (a device of ``model`` or another part)."""
+    kind = model.transistor_kinds.get(part)
+    if kind is not None and cause in KINDS[kind].CAUSE_TEXT:
+        return KINDS[kind].CAUSE_TEXT[cause]
+    return CAUSES.get(cause, cause.replace("_", " "))
 
 
 @dataclass(frozen=True)
@@ -40,11 +50,12 @@ class Edge:
     voltage: float
     transistor: str | None
     cause: str | None
+    text: str = ""  # the cause in words, as the part's kind puts it
 
     def describe(self):
         if self.transistor is None:
             return "end of the searched range"
-        return f"{self.transistor} {CAUSES.get(self.cause, self.cause.replace('_', ' '))}"
+        return f"{self.transistor} {self.text or CAUSES.get(self.cause, self.cause.replace('_', ' '))}"
 
     def to_dict(self):
         return {"voltage": self.voltage, "transistor": self.transistor, "cause": self.cause,
@@ -187,4 +198,4 @@ def _refine(model, values, devices, edge, grid, index, direction):
     probe = solve_points(model, values | {"v_load": np.array([voltage + direction * 2 * EDGE_TOLERANCE])})
     _, keys = worst_margin(probe, devices, edge)
     transistor, cause = keys[0]
-    return Edge(float(voltage), transistor, cause)
+    return Edge(float(voltage), transistor, cause, cause_text(model, transistor, cause))

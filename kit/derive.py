@@ -129,6 +129,15 @@ def latex_name(name, transistors=()):
             if symbol == r"\beta":
                 return symbol if single else rf"\beta_{{{device}}}"
             return symbol + ("}" if single else f",{device}}}")
+    from kit.devices import KINDS
+
+    for kind in KINDS.values():
+        for prefix, symbol in getattr(kind, "LATEX_PREFIXES", {}).items():
+            if name.startswith(prefix):
+                device = name[len(prefix):]
+                if symbol.count("{") > symbol.count("}"):  # "V_{th" -> "V_{th}" or "V_{th,M1}"
+                    return symbol + ("}" if single else f",{device}}}")
+                return symbol if single else f"{symbol}_{{{device}}}"
     fixed = {"V_BE_on": "V_{BE(on)}", "V_T": "V_T", "V_OUT": "V_{out}", "V_CC": "V_{CC}"}
     if name in fixed:
         return fixed[name]

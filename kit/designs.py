@@ -235,8 +235,9 @@ def _check_devices(top, polarity, devices):
             raise ParameterError(f"must be a {kind.MODEL.__name__} or a dict of its parameters",
                                  parameter=name, value=type(model).__name__)
         if model.polarity != wanted:
-            raise ParameterError(f"{name} must be {wanted.upper()}", parameter=f"{name}.polarity",
-                                 value=model.polarity, valid=wanted)
+            word = getattr(kind, "POLARITY_WORDS", {}).get(wanted, wanted)
+            raise ParameterError(f"{name} must be {word.upper()}", parameter=f"{name}.polarity",
+                                 value=model.polarity, valid=word)
         out[name] = model
     return out
 

@@ -153,6 +153,9 @@ class Evaluation:
             out[name] = values
         return out
 
+    def _kind(self, name):
+        return KINDS[self.design.spec.kind_of(name)]
+
     # -- sensitivities -------------------------------------------------------
     @cached_property
     def _gradient(self):
@@ -284,8 +287,7 @@ class Evaluation:
             lines.append(f"  {key:<12} {format_quantity(value, 'Ω')}")
         lines.append("transistors")
         for name, t in self.transistors.items():
-            lines.append(f"  {name}: {self.regions[name]}, V_BE {format_quantity(t['v_be'], 'V', 4)}, "
-                         f"V_CE {format_quantity(t['v_ce'], 'V')}, I_C/I_B {t['beta_measured']:.1f}")
+            lines.append(f"  {name}: {self.regions[name]}, {self._kind(name).describe(t)}")
         lines.append("sensitivities            dI/dp           S = (p/I) dI/dp")
         for s in self.sensitivities:
             unit = "A/K" if s.parameter == "temp" else (f"A/{s.unit}" if s.unit else "A")
@@ -311,10 +313,9 @@ class Evaluation:
                               + [[self.design.spec.extras.get(k, k), format_quantity(v, "Ω", 5)]
                                  for k, v in self.r_out_forms.items()], numeric=(1,))
         transistors = display.table(
-            ["transistor", "region", "V_BE", "V_CE", "I_C", "I_C/I_B", "P_D"],
-            [[n, self.regions[n], format_quantity(t["v_be"], "V", 4), format_quantity(t["v_ce"], "V"),
-              format_quantity(t["i_c"], "A"), f"{t['beta_measured']:.1f}", format_quantity(t["dissipation"], "W")]
-             for n, t in self.transistors.items()], numeric=(2, 3, 4, 5, 6))
+            ["transistor", "region", "operating point", "P_D"],
+            [[n, self.regions[n], self._kind(n).describe(t), format_quantity(t["dissipation"], "W")]
+             for n, t in self.transistors.items()], numeric=(3,))
         sens = display.table(
             ["parameter", "value", "dI/dp", "S = (p/I)·dI/dp"],
             [[s.parameter, _format_value(s), f"{s.derivative:.4g}",

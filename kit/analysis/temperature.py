@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from kit.analysis.thermal import junction_temperatures, solve_self_heated
-from kit.compliance import CAUSES, worst_margin
+from kit.compliance import cause_text, worst_margin
 from kit.errors import OperatingPointError
 from kit.evaluation import _budget_label, model_of
 from kit.quantities import format_quantity, format_temperature
@@ -86,7 +86,7 @@ def _require_valid(points, design, temps):
     bad = np.flatnonzero(worst < 0)
     if bad.size:
         part, cause = keys[bad[0]]
-        what = "no converged solution" if part is None else f"{part} {CAUSES.get(cause, cause)}"
+        what = "no converged solution" if part is None else f"{part} {cause_text(points.model, part, cause)}"
         raise OperatingPointError(f"{what} at {format_temperature(temps[bad[0]], 3)}", parameter="temp",
                                   value=float(temps[bad[0]]),
                                   valid="temperatures at which every transistor stays in forward active")

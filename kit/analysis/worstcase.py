@@ -33,7 +33,7 @@ import numpy as np
 from kit import display
 from kit.analysis.spec import SIGMA_PER_TOLERANCE, factors
 from kit.analysis.thermal import solve_self_heated
-from kit.compliance import CAUSES, worst_margin
+from kit.compliance import cause_text, worst_margin
 from kit.evaluation import model_of
 from kit.quantities import format_quantity
 from kit.solve import solve_points
@@ -110,7 +110,8 @@ class _Box:
         reasons = np.array([None] * points.size, dtype=object)
         for k in np.flatnonzero(~ok):
             part, cause = keys[k]
-            reasons[k] = "no converged solution" if part is None else f"{part} {CAUSES.get(cause, cause)}"
+            reasons[k] = "no converged solution" if part is None else \
+                f"{part} {cause_text(self.model, part, cause)}"
         if self.spec.p_max is not None:
             for name, power in points.dissipation.items():
                 over = ok & (power > self.spec.p_max)

@@ -203,6 +203,25 @@ BUDGET_LABELS = {"V_T_": "thermal voltage V_T", "I_S_": "saturation current I_S"
                  "beta_": "current gain β_F", "V_A_": "Early voltage V_A"}
 
 
+CAUSE_TEXT = {"saturation": "saturates", "cutoff": "cuts off", "breakdown": "reaches BV_CEO",
+              "power": "reaches its dissipation limit"}
+LATEX_PREFIXES = {}  # the kit's own names (beta_, I_S_, V_A_) are known to kit.derive
+
+
+def describe(values):
+    """One line of a solved transistor for plain-text reports.
+
+    Examples
+    --------
+    >>> describe({"v_be": 0.648, "v_ce": 5.89, "i_c": 9.5e-4, "i_b": 4.5e-6})
+    'V_BE 648 mV, V_CE 5.89 V, I_C 950 µA, I_C/I_B 211.1'
+    """
+    from kit.quantities import format_quantity
+
+    return (f"V_BE {format_quantity(values['v_be'], 'V', 4)}, V_CE {format_quantity(values['v_ce'], 'V')}, "
+            f"I_C {format_quantity(values['i_c'], 'A')}, I_C/I_B {values['i_c'] / values['i_b']:.1f}")
+
+
 def dissipation(j):
     """Power in W: ``V_CE I_C + V_BE I_B``."""
     return j["v_ce"] * j["i_c"] + j["v_be"] * j["i_b"]

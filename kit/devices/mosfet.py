@@ -18,19 +18,21 @@ tied to the source (no body effect).  The channel is symmetric: for
 Below threshold the square law gives zero current and zero slope, which
 leaves Newton's method without a direction and makes a diode-connected
 device's Jacobian singular.  The kit therefore continues the law smoothly
-with an *effective* overdrive ``v_eff`` that equals ``v_ov`` above the join
-``V_J = 2 n V_T`` and falls off exponentially below it::
+below the join ``V_J = 2 n V_T`` of overdrive: there the current is the
+square law *at* the join times an exponential in the overdrive::
 
-    v_eff = v_ov                        (v_ov >= V_J)
-    v_eff = V_J exp(v_ov/V_J - 1)       (v_ov <  V_J)
+    i_d = i_square(V_J, v_ds) exp(2 (v_ov - V_J)/V_J)
+        = i_square(V_J, v_ds) exp((v_ov - V_J)/(n V_T))
 
-so ``i_d = (K/2) v_eff^2`` decays as ``exp(v_ov/(n V_T))``, the
-weak-inversion slope with slope factor ``n`` (Tsividis, *Operation and
-Modeling of the MOS Transistor*, from memory).  ``V_J`` is where the square
-law's ``g_m/I_D = 2/v_ov`` equals the weak-inversion ``1/(n V_T)``, so value
-and slope are continuous there.  The square law is exact above ``V_J``
-(about 78 mV of overdrive at 25 degC with n = 1.5); below, the current is a
-qualitative continuation, and the kit calls the device *cut off* as soon as
+so it falls as ``exp(v_gs/(n V_T))``, the weak-inversion slope with slope
+factor ``n`` (Tsividis, *Operation and Modeling of the MOS Transistor*, from
+memory).  ``V_J`` is where the square law's ``g_m/I_D = 2/v_ov`` equals that
+slope, so in saturation current and ``g_m`` are continuous across the join
+(in triode only the current: ``g_m`` steps there, outside any good region).
+Below the join the channel saturates at ``v_ds = V_J``, a few V_T as weak
+inversion does.  The square law is exact above ``V_J`` (about 78 mV of
+overdrive at 25 degC with n = 1.5); below, the current is a qualitative
+continuation, and the kit calls the device *cut off* as soon as
 ``v_gs < V_th``: a design is never accepted on the continuation.
 
 Temperature laws (mobility and threshold; Sedra & Smith and Razavi, from
@@ -38,6 +40,9 @@ memory; exponent 1.2 ... 2, threshold slope -1 ... -4 mV/K)::
 
     k'(T)   = k'(T0) (T/T0)^(-mu_exp)
     V_th(T) = V_th(T0) + tc_vth (T - T0)
+
+with ``T`` the channel temperature, ``temp + t_rise`` (self-heating), as for
+a BJT junction; lambda does not change with temperature in this model.
 
 Polarity uses the kit's design words: an NMOS is a ``"npn"``-polarity
 device (it sinks), a PMOS a ``"pnp"`` one (it sources); ``"nmos"`` and
@@ -246,12 +251,39 @@ def describe(values):
     Examples
     --------
     >>> describe({"v_gs": 2.5, "v_ds": 8.0, "v_ov": 0.5, "i_d": 0.01})
-    'V_GS 2.500 V, V_DS 8.000 V, V_ov 0.500 V, I_D 10.00 mA'
+    'V_GS 2.500 V, V_DS 8.000 V, V_ov 0.500 V, I_D 10 mA'
     """
     from kit.quantities import format_quantity
 
     return (f"V_GS {values['v_gs']:.3f} V, V_DS {values['v_ds']:.3f} V, "
             f"V_ov {values['v_ov']:.3f} V, I_D {format_quantity(values['i_d'], 'A', 4)}")
+
+
+def overdrive_for_current(current, v_ds, k, lam, join, smallest_v_ds=1e-3):
+    """Overdrive ``v_gs - V_th`` that carries ``current`` at ``v_ds`` (the law inverted).
+
+    Saturation when ``v_ds`` exceeds the saturation voltage, else the triode
+    law solved for the overdrive; below the join the exponential
+    continuation is inverted.  NumPy arrays in and out; for starting points
+    of the exact solve (``v_ds`` below ``smallest_v_ds`` is raised to it).
+
+    Examples
+    --------
+    >>> round(float(overdrive_for_current(0.01, 5.0, 0.2, 0.0, 0.078)), 6)
+    0.316228
+    >>> round(float(overdrive_for_current(0.2 / 2 * 0.078**2, 5.0, 0.2, 0.0, 0.078)), 6)
+    0.078
+    """
+    import numpy as np
+
+    v = np.maximum(v_ds, smallest_v_ds)
+    clm = 1 + lam * v
+    saturated = np.sqrt(2 * current / (k * clm))
+    triode = current / (k * v * clm) + v / 2
+    strong = np.where(v >= saturated, saturated, triode)
+    at_join = k * clm * np.where(v < join, join * v - v ** 2 / 2, join ** 2 / 2)
+    weak = join + join / 2 * np.log(np.maximum(current, 1e-300) / at_join)
+    return np.where(strong >= join, strong, weak)
 
 
 # --- symbolic laws (SymPy imported lazily: the numeric path does not need it)
@@ -293,18 +325,30 @@ def temperature_map(name, temp, t_ref, scale=1):
 
 
 def effective_overdrive(v_ov, join):
-    """``v_ov`` above ``join``, ``join exp(v_ov/join - 1)`` below (C1 at the join)."""
+    """The saturation voltage: ``v_ov`` above ``join``, ``join`` below it."""
     import sympy as sp
 
-    return sp.Piecewise((v_ov, v_ov >= join), (join * sp.exp(v_ov / join - 1), True))
+    return sp.Piecewise((v_ov, v_ov >= join), (join, True))
 
 
-def forward_current(k, v_eff, v_ds, lam):
-    """Drain current for ``v_ds >= 0`` (triode below ``v_eff``, saturation above)."""
+def _square(k, x, v_ds, lam):
+    """Square law at overdrive ``x`` for ``v_ds >= 0``: triode below ``x``, saturation above."""
     import sympy as sp
 
-    shape = sp.Piecewise((v_eff * v_ds - v_ds ** 2 / 2, v_ds < v_eff), (v_eff ** 2 / 2, True))
-    return k * shape * (1 + lam * v_ds)
+    return k * (1 + lam * v_ds) * sp.Piecewise((x * v_ds - v_ds ** 2 / 2, v_ds < x), (x ** 2 / 2, True))
+
+
+def forward_current(k, v_ov, v_ds, lam, join):
+    """Drain current for ``v_ds >= 0``: the square law, continued below ``v_ov = join``.
+
+    Below the join the law is the square law *at* the join times
+    ``exp(2 (v_ov - join)/join)``.  Every condition compares plain expressions
+    (never a Piecewise), so the generated code selects with boolean arrays.
+    """
+    import sympy as sp
+
+    return sp.Piecewise((_square(k, v_ov, v_ds, lam), v_ov >= join),
+                        (_square(k, join, v_ds, lam) * sp.exp(2 * (v_ov - join) / join), True))
 
 
 def channel_laws(polarity, v_g, v_d, v_s, symbols, v_t):
@@ -339,8 +383,8 @@ def channel_laws(polarity, v_g, v_d, v_s, symbols, v_t):
     join = 2 * n * v_t
     v_ov = v_gs - v_th
     v_dsat = effective_overdrive(v_ov, join)
-    forward = forward_current(k, v_dsat, v_ds, lam)
-    reverse = -forward_current(k, effective_overdrive(v_gd - v_th, join), -v_ds, lam)
+    forward = forward_current(k, v_ov, v_ds, lam, join)
+    reverse = -forward_current(k, v_gd - v_th, -v_ds, lam, join)
     i_d = sp.Piecewise((forward, v_ds >= 0), (reverse, True))
     return {
         "into_d": sign * i_d,

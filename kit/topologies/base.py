@@ -29,6 +29,11 @@ ASSUMPTIONS = {
     "output_base_load_neglected": "output base current not drawn from the reference node",
     "stiff_reference": "reference voltage independent of its current (no r_z, no loading)",
     "reference_linearised": "reference linearised at its current without base-current loading",
+    "isothermal": "all junctions at one temperature (no self-heating or gradient between them)",
+    "ideal_opamp": "ideal op-amp (infinite gain, no offset, no input bias current)",
+    "no_clm": "no channel-length modulation (λ → 0)",
+    "square_law": "MOSFET square law in saturation (strong inversion, no subthreshold continuation)",
+    "matched_mos": "matched MOSFETs (equal k′, V_th and λ, one temperature)",
 }
 
 
