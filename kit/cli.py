@@ -2,8 +2,9 @@
 
 Exit status: 0 done; 2 bad record or bad command line; 3 the design cannot
 be evaluated (load voltage outside compliance, supply too low, no converged
-operating point); 1 the output was cut short (stdout closed early).  Errors print one line on stderr naming the record field
-and its valid range; with ``--json`` an error object also goes to stdout.
+operating point); 1 the output was cut short (stdout closed early).  Errors
+print one line on stderr naming the record field and its valid range; with
+``--json`` an error object also goes to stdout.
 JSON output is strict: an infinite number is written as the string
 ``"inf"`` or ``"-inf"``.
 
@@ -23,6 +24,7 @@ import sys
 
 import kit
 from kit.errors import DesignError
+from kit.record import EDGES
 
 __all__ = ["main", "build_parser", "cautions", "EXIT_OK", "EXIT_BAD_INPUT", "EXIT_NOT_EVALUABLE"]
 
@@ -61,16 +63,18 @@ def build_parser():
     parser.add_argument("--version", action="version", version=f"biasbook {kit.__version__}")
     commands = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     commands.required = True
-    listing = commands.add_parser("topologies", help="list the circuits the kit can evaluate",
-                                  description="List every topology with its values and what the kit derives.")
+    listing = commands.add_parser(
+        "topologies", help="list the circuits the kit can evaluate",
+        description="List every topology with its values and what the kit derives.")
     listing.add_argument("--json", action="store_true", help="print a JSON list instead of text")
     evaluate = commands.add_parser(
         "evaluate", help="evaluate a design record (TOML)",
         description="Solve a design record exactly and report current, compliance, output "
                     "resistance, sensitivities, tempco and the ledger of simplifications.")
     evaluate.add_argument("record", metavar="RECORD.toml", help="a design record file")
-    evaluate.add_argument("--json", action="store_true", help="print one JSON object instead of text")
-    evaluate.add_argument("--edge", choices=("vce_sat", "vcb_zero"), default=None,
+    evaluate.add_argument("--json", action="store_true",
+                          help="print one JSON object instead of text")
+    evaluate.add_argument("--edge", choices=EDGES, default=None,
                           help="saturation criterion; overrides the record's conditions.edge")
     return parser
 
@@ -240,11 +244,11 @@ def cautions(evaluation):
     rise = watts * model.theta_ja
     junction = design.temp + rise
     if junction > HOT_SURFACE_KELVIN and rise > SELF_HEATING_KELVIN:
-        out.append(f"{transistor} dissipates up to {format_quantity(watts, 'W')} (at a load voltage "
-                   f"of {format_quantity(at, 'V')}); with θ_JA {model.theta_ja:g} K/W its junction "
-                   f"reaches about {format_temperature(junction, 3)}, so the part and the board "
-                   "around it can burn a finger: check the datasheet's derating and keep "
-                   "heat-sensitive parts and people away.")
+        out.append(f"{transistor} dissipates up to {format_quantity(watts, 'W')} (at a load "
+                   f"voltage of {format_quantity(at, 'V')}); with θ_JA {model.theta_ja:g} K/W its "
+                   f"junction reaches about {format_temperature(junction, 3)}, so the part and "
+                   "the board around it can burn a finger: check the datasheet's derating and "
+                   "keep heat-sensitive parts and people away.")
     return out
 
 

@@ -17,7 +17,7 @@ from functools import cached_property
 import numpy as np
 
 from kit import display
-from kit.compliance import check_edge, find_compliance, worst_margin
+from kit.compliance import cause_text, check_edge, find_compliance, worst_margin
 from kit.derive import compile_model
 from kit.devices import KINDS
 from kit.errors import OperatingPointError
@@ -268,7 +268,7 @@ class Evaluation:
         return {
             "I_out": format_quantity(self.i_out, "A", 4),
             "compliance": f"{format_quantity(c.low.voltage, 'V')} … {format_quantity(c.high.voltage, 'V')}",
-            "R_out": format_quantity(self.r_out, "Ω"),
+            "R_out": _resistance(self.r_out),
             "tempco": format_quantity(self.tempco, "ppm/K"),
             "dissipation": f"{format_quantity(self.transistors[self.design.spec.output_transistor]['dissipation'], 'W')}"
                            f" now, {format_quantity(watts, 'W')} max ({transistor} at {format_quantity(at, 'V')})",
@@ -284,7 +284,7 @@ class Evaluation:
         c = self.compliance
         lines.append(f"  low edge     {c.low.describe()}; high edge {c.high.describe()}")
         for key, value in self.r_out_forms.items():
-            lines.append(f"  {key:<12} {format_quantity(value, 'Ω')}")
+            lines.append(f"  {key:<12} {_resistance(value)}")
         lines.append("transistors")
         for name, t in self.transistors.items():
             lines.append(f"  {name}: {self.regions[name]}, {self._kind(name).describe(t)}")
@@ -309,8 +309,8 @@ class Evaluation:
             ["high", format_quantity(c.high.voltage, "V"), c.high.describe()],
         ], numeric=(1,))
         forms = display.table(["output resistance", "value"],
-                              [["exact (from dI/dV_load)", format_quantity(self.r_out, "Ω", 5)]]
-                              + [[self.design.spec.extras.get(k, k), format_quantity(v, "Ω", 5)]
+                              [["exact (from dI/dV_load)", _resistance(self.r_out, 5)]]
+                              + [[self.design.spec.extras.get(k, k), _resistance(v, 5)]
                                  for k, v in self.r_out_forms.items()], numeric=(1,))
         transistors = display.table(
             ["transistor", "region", "operating point", "P_D"],
@@ -343,6 +343,11 @@ class Evaluation:
         rows = [rf"\text{{{e.label}}}: & {e.latex} & \text{{error }} {e.error:+.3%} \\".replace("%", r"\%")
                 for e in self.ledger]
         return r"$$\begin{aligned}" + "\n".join(rows) + r"\end{aligned}$$"
+
+
+def _resistance(value, digits=3):
+    """An output resistance as text; an ideal (infinite) one as ∞."""
+    return "∞ Ω" if np.isinf(value) else format_quantity(value, "Ω", digits)
 
 
 def _format_value(s):
@@ -402,7 +407,7 @@ def evaluate(design, *, edge="vce_sat"):
     if worst[0] < 0 or not compliance.contains(v_load):
         transistor, cause = keys[0]
         raise OperatingPointError(
-            f"load voltage outside compliance: {transistor} {cause} here",
+            f"load voltage outside compliance: {transistor} {cause_text(model, transistor, cause)} here",
             parameter="v_load", value=v_load,
             valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     return Evaluation(design, points, compliance, edge)

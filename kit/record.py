@@ -35,6 +35,7 @@ True
 from __future__ import annotations
 
 import copy
+import dataclasses
 import hashlib
 import json
 import math
@@ -42,6 +43,7 @@ import os
 import re
 import tempfile
 import tomllib
+import unicodedata
 from pathlib import Path
 
 import tomli_w
@@ -67,6 +69,7 @@ HEADER_KEYS = ("biasbook_record", *TEXT_FIELDS)
 
 _PLAIN_KEY = re.compile(r"[A-Za-z0-9_-]+")
 _SYNTAX_WHERE = re.compile(r"\s*\(at (line \d+, column \d+|end of document)\)\s*$")
+_BIDI_CONTROLS = frozenset("\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069")
 _SHOWN_TEXT = 80  # longest offending text quoted back in an error
 # Longest quantity text read: "1.234567 kΩ" needs a dozen characters, and the
 # parser's time grows faster than linearly with length (seconds at 2000).
@@ -104,10 +107,9 @@ def _fail(message, field, value=None, valid=None):
     return RecordError(message, parameter=field, value=_shown(value), valid=valid)
 
 
-def _from_kit(err, field, valid=None):
+def _from_kit(err, field):
     """A kit ParameterError re-raised as a RecordError naming the record field."""
-    return RecordError(err.message, parameter=field, value=_shown(err.value),
-                       valid=valid or err.valid)
+    return RecordError(err.message, parameter=field, value=_shown(err.value), valid=err.valid)
 
 
 def _table(raw, field):
@@ -130,12 +132,18 @@ def _text(raw, field, longest, multiline=False):
     if not isinstance(raw, str):
         raise _fail(f"must be text, not {_kind(raw)}", field, raw)
     allowed = "\n\t" if multiline else ""
-    if any((ord(ch) < 32 or ord(ch) == 127) and ch not in allowed for ch in raw):
+    if any(_is_control(ch) and ch not in allowed for ch in raw):
         what = "tabs and line breaks only" if multiline else "one line, no control characters"
         raise _fail("contains control characters", field, raw, valid=what)
     if len(raw) > longest:
         raise _fail("too long", field, raw, valid=f"at most {longest} characters")
     return raw
+
+
+def _is_control(ch):
+    # C0, DEL and C1 (terminal escapes) and the bidirectional overrides, which
+    # can make a printed title read differently from what the file says.
+    return unicodedata.category(ch) == "Cc" or ch in _BIDI_CONTROLS
 
 
 def _number(raw, field, unit, limits, hint="", *, allow_inf=False):
@@ -146,7 +154,7 @@ def _number(raw, field, unit, limits, hint="", *, allow_inf=False):
     """
     valid = _span(*limits, unit) + hint
     value = _finite_number(raw, field, unit, valid, allow_inf)
-    if not (limits[0] <= value <= limits[1] or (allow_inf and value == math.inf)):
+    if not (limits[0] <= value <= limits[1] or (allow_inf and math.isinf(value))):
         raise _fail("out of range", field, raw, valid)
     return value
 
@@ -198,7 +206,7 @@ def _read_circuit(raw, context):
     _only_keys(table, ("topology", "polarity"), "circuit")
     for name in ("topology", "polarity"):
         if name not in table:
-            raise _fail("missing", f"circuit.{name}", valid=_circuit_valid(name, context))
+            raise _fail("missing", f"circuit.{name}", valid=_circuit_valid(name))
         _text(table[name], f"circuit.{name}", 100)
     try:
         top = topologies.get(table["topology"])
@@ -209,7 +217,7 @@ def _read_circuit(raw, context):
     return {"topology": top.key, "polarity": table["polarity"]}
 
 
-def _circuit_valid(name, context):
+def _circuit_valid(name):
     from kit import topologies
 
     if name == "topology":
@@ -222,13 +230,17 @@ def _read_values(raw, context):
     table = _table(raw, "values")
     names = [v.name for v in top.values]
     _only_keys(table, names, "values")
+    missing = [spec for spec in top.values if spec.name not in table]
+    if missing:  # all of them at once: a new record often lacks several
+        first = missing[0]
+        also = "".join(f", {spec.name}" for spec in missing[1:])
+        raise _fail(f"missing{f' (and{also[1:]})' if also else ''}; a record gives every value "
+                    f"of {top.key} (`biasbook topologies` lists them)", f"values.{first.name}",
+                    valid=_span(first.low, first.high, first.unit))
     out = {}
     for spec in top.values:
-        field = f"values.{spec.name}"
-        if spec.name not in table:
-            raise _fail(f"missing; a record gives every value of {top.key}", field,
-                        valid=_span(spec.low, spec.high, spec.unit))
-        out[spec.name] = _number(table[spec.name], field, spec.unit, (spec.low, spec.high))
+        out[spec.name] = _number(table[spec.name], f"values.{spec.name}", spec.unit,
+                                 (spec.low, spec.high))
     return {"values": out}
 
 
@@ -276,39 +288,53 @@ def _read_hand(raw, context):
 
 
 DEVICE_TEXT_KEYS = ("label",)
+T_RISE_KEY = "t_rise"  # the design's junction rise of one transistor, kept beside its model
+_CELSIUS_TEXT = re.compile(r"deg\s?C|°\s?C|℃")
+
+
+def _device_kind(top, name):
+    from kit.devices import KINDS
+
+    return KINDS[top.kind_of(name)]
 
 
 def _read_devices(raw, context):
-    from kit.designs import transistor_polarity
-    from kit.devices import bjt
+    from kit.designs import T_RISE_RANGE, transistor_polarity
 
     if raw is None:
         return {}
     top = context["topology"]
     table = _table(raw, "devices")
     _only_keys(table, top.transistors, "devices")
-    allowed = (*bjt.MODEL_LIMITS, *DEVICE_TEXT_KEYS)
-    models = {}
+    models, rises = {}, {}
     for name, overrides in table.items():
         where = f"devices.{name}"
+        kind = _device_kind(top, name)
         _table(overrides, where)
         if "polarity" in overrides:
             raise _fail("set by circuit.polarity, not per transistor", f"{where}.polarity",
                         overrides["polarity"], "leave it out")
-        _only_keys(overrides, allowed, where)
+        _only_keys(overrides, (*kind.MODEL_LIMITS, *DEVICE_TEXT_KEYS, T_RISE_KEY), where)
         changes = {}
         for key, value in overrides.items():
+            field = f"{where}.{key}"
             if key in DEVICE_TEXT_KEYS:
-                changes[key] = _text(value, f"{where}.{key}", 200)
-                continue
-            low, high, unit = bjt.MODEL_LIMITS[key]
-            changes[key] = _number(value, f"{where}.{key}", unit, (low, high),
-                                   allow_inf=(key == "v_a"))
-        typical = bjt.typical(transistor_polarity(top, context["polarity"], name))
+                changes[key] = _text(value, field, 200)
+            elif key == T_RISE_KEY:
+                if isinstance(value, str) and _CELSIUS_TEXT.search(value):
+                    raise _fail("a temperature rise is a difference: give it in kelvin", field,
+                                value, _span(*T_RISE_RANGE, "K") + ' (write "12 K")')
+                rises[name] = _number(value, field, "K", T_RISE_RANGE)
+            else:
+                low, high, unit = kind.MODEL_LIMITS[key]
+                # inf passes here; the model decides (a BJT takes V_A = inf).
+                changes[key] = _number(value, field, unit, (low, high), allow_inf=True)
+        typical = kind.typical(transistor_polarity(top, context["polarity"], name))
         try:
             models[name] = typical.with_values(**changes)
         except ParameterError as err:
             raise _from_kit(err, f"{where}.{err.parameter}") from None
+    context["t_rise"] = rises
     return {"devices": models}
 
 
@@ -423,9 +449,12 @@ class Record:
             arguments |= reader(doc.get(name), context)
         values = arguments.pop("values")
         try:
-            self.design = make_design(**arguments, title=header["title"], **values)
+            design = make_design(**arguments, title=header["title"], **values)
+            if context.get("t_rise"):
+                design = dataclasses.replace(design, t_rise=context["t_rise"])
         except ParameterError as err:  # ranges the readers leave to the kit
             raise _from_kit(err, field_path(err.parameter, context["topology"])) from None
+        self.design = design
         self.edge = context["edge"]
         self.title, self.revision = header["title"], header["revision"]
         self.author, self.notes = header["author"], header["notes"]
@@ -436,9 +465,18 @@ class Record:
 
         Transistor parameters equal to the typical model are left out, as a
         hand-written record would; ``hand`` and ``tcr`` are written in full.
+
+        Parameters
+        ----------
+        design : kit.designs.Design
+        edge : {"vce_sat", "vcb_zero"}
+            Saturation criterion stored as ``conditions.edge``.
+        title : str, optional
+            Record title (default: the design's title, which must not be empty).
+        revision, author, notes : str
+            Optional header text.
         """
         from kit.designs import transistor_polarity
-        from kit.devices import bjt
 
         document = {"biasbook_record": SCHEMA_VERSION,
                     "title": design.title if title is None else title}
@@ -452,9 +490,12 @@ class Record:
         document["hand"] = dict(design.hand)
         devices = {}
         for name, model in design.devices.items():
-            typical = bjt.typical(transistor_polarity(design.spec, design.polarity, name))
+            kind = _device_kind(design.spec, name)
+            typical = kind.typical(transistor_polarity(design.spec, design.polarity, name))
             changed = {k: v for k, v in (model.numbers() | {"label": model.label}).items()
                        if getattr(typical, k) != v}
+            if design.t_rise.get(name):
+                changed[T_RISE_KEY] = design.t_rise[name]
             if changed:
                 devices[name] = changed
         if devices:
@@ -482,7 +523,9 @@ class Record:
             "conditions": {"temp": d.temp, "t_ref": d.t_ref, "edge": self.edge},
             "tcr": {name: float(d.tcr.get(name, 0.0)) for name in d.spec.resistors},
             "hand": dict(d.hand),
-            "devices": {name: m.numbers() | {"label": m.label} for name, m in d.devices.items()},
+            "devices": {name: m.numbers() | {"label": m.label,
+                                             T_RISE_KEY: float(d.t_rise.get(name, 0.0))}
+                        for name, m in d.devices.items()},
         }
 
     def content_hash(self):
@@ -509,7 +552,8 @@ def _check_version(doc):
         raise _fail("not a biasbook record: the schema version is missing", field, valid=valid)
     version = doc[field]
     if isinstance(version, bool) or not isinstance(version, int):
-        raise _fail(f"schema version must be an integer, not {_kind(version)}", field, version, valid)
+        raise _fail(f"schema version must be an integer, not {_kind(version)}", field, version,
+                    valid)
     if version > SCHEMA_VERSION:
         raise _fail(f"written for a newer schema than this biasbook reads ({SCHEMA_VERSION})",
                     field, version, valid)
@@ -578,10 +622,10 @@ def parse_record(text, source="<string>"):
 
     Examples
     --------
-    >>> parse_record("biasbook_record = 2")
+    >>> parse_record("biasbook_record = 2")  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    kit.errors.RecordError: biasbook_record = 2: written for a newer schema than this biasbook reads (1) (valid: 1 (an integer))
+    kit.errors.RecordError: biasbook_record = 2: written for a newer schema ...
     """
     if not isinstance(text, str):
         raise _fail(f"a record is text, not {type(text).__name__}", FILE, valid="str")
