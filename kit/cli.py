@@ -76,6 +76,39 @@ def build_parser():
                           help="print one JSON object instead of text")
     evaluate.add_argument("--edge", choices=EDGES, default=None,
                           help="saturation criterion; overrides the record's conditions.edge")
+    check = commands.add_parser(
+        "check", help="check a record's [spec]: exit 0 when met, 1 when not",
+        description="Check the record's specification by extreme values (the guarantee), RSS and "
+                    "Monte Carlo. Exit 0 when the extreme-value bound meets it, 1 when not, 2 for a "
+                    "bad record, 3 when the design cannot be evaluated.")
+    check.add_argument("record", metavar="RECORD.toml", help="a design record with a [spec] section")
+    check.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    check.add_argument("--no-self-heating", action="store_true",
+                       help="junctions at ambient (default: ambient + theta_JA x dissipation)")
+    synth = commands.add_parser(
+        "synthesize", help="standard values meeting a record's [spec], ranked by margin",
+        description="Size each topology for the record's [spec], snap to the E-series of the spec's "
+                    "resistor tolerance and rank the candidates by worst-case margin.")
+    synth.add_argument("record", metavar="RECORD.toml", help="a design record with a [spec] section")
+    synth.add_argument("--json", action="store_true", help="print one JSON object instead of text")
+    synth.add_argument("--all", action="store_true",
+                       help="try every topology (default: the record's own), same polarity")
+    review = commands.add_parser(
+        "review", help="design-review PDF of a notebook or a record",
+        description="Execute a design notebook (or a record through the standard template) in a "
+                    "fresh kernel and print it to PDF offline with Chromium.")
+    review.add_argument("source", metavar="NOTEBOOK.ipynb|RECORD.toml")
+    review.add_argument("-o", "--output", required=True, metavar="OUT.pdf")
+    review.add_argument("--with-code", action="store_true", help="show the code cells too")
+    review.add_argument("--keep-html", metavar="PAGE.html", help="also keep the HTML page")
+    new = commands.add_parser(
+        "new", help="start a design notebook for a topology",
+        description="Write a design notebook from the standard template, with the topology's default "
+                    "values or those of a record.")
+    new.add_argument("topology", metavar="TOPOLOGY", help="a name from `biasbook topologies`")
+    new.add_argument("-o", "--output", required=True, metavar="NOTEBOOK.ipynb")
+    new.add_argument("--record", metavar="RECORD.toml", help="take the design from this record")
+    new.add_argument("--polarity", default=None, help="npn or pnp (default: the record's, else npn)")
     return parser
 
 
@@ -105,6 +138,14 @@ def main(argv=None):
     try:
         if args.command == "topologies":
             return _list_topologies(args.json)
+        if args.command == "check":
+            return _check(args.record, args.json, not args.no_self_heating)
+        if args.command == "synthesize":
+            return _synthesize(args.record, args.json, args.all)
+        if args.command == "review":
+            return _review(args.source, args.output, args.with_code, args.keep_html)
+        if args.command == "new":
+            return _new(args.topology, args.output, args.record, args.polarity)
         return _evaluate(args.record, args.edge, args.json)
     except BrokenPipeError:  # the reader left early (`| head`): stop quietly
         _silence_stdout()
@@ -213,6 +254,115 @@ def _record_heading(record, digest, edge):
     for name, model in record.design.devices.items():
         lines.append(f"{name:<9} {model.label}")
     return "\n".join(lines)
+
+
+# --- check, synthesize -------------------------------------------------------------
+
+EXIT_SPEC_NOT_MET = 1
+
+
+def _record_with_spec(path, as_json):
+    """``(record, None)`` or ``(None, exit code)`` after reporting the problem."""
+    from kit.errors import RecordError
+    from kit.record import load_record
+
+    try:
+        record = load_record(path)
+    except DesignError as err:
+        return None, _failure(err, EXIT_BAD_INPUT, as_json)
+    if record.spec is None:
+        err = RecordError("this record has no [spec] section to check against", parameter="spec",
+                          valid="a [spec] table with current and tolerance (docs/record-format.md)")
+        return None, _failure(err, EXIT_BAD_INPUT, as_json)
+    return record, None
+
+
+def _check(path, as_json, self_heating):
+    from kit.analysis.worstcase import worst_case
+    from kit.record import field_path
+
+    record, code = _record_with_spec(path, as_json)
+    if record is None:
+        return code
+    try:
+        kit.evaluate(record.design, edge=record.edge)  # the design point itself must work
+        result = worst_case(record.design, record.spec, self_heating=self_heating, edge=record.edge)
+    except DesignError as err:
+        shown = type(err)(err.message, parameter=field_path(err.parameter, record.design.spec),
+                          value=err.value, valid=err.valid)
+        return _failure(shown, EXIT_NOT_EVALUABLE, as_json)
+    if as_json:
+        _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
+                    "check": result.to_dict()})
+    else:
+        print(_record_heading(record, record.content_hash(), record.edge))
+        print()
+        print(result.text())
+    return EXIT_OK if result.met else EXIT_SPEC_NOT_MET
+
+
+def _synthesize(path, as_json, every):
+    from kit.analysis.synthesis import synthesize
+
+    record, code = _record_with_spec(path, as_json)
+    if record is None:
+        return code
+    design = record.design
+    topologies = None if every else [design.topology]
+    result = synthesize(record.spec, topologies=topologies, polarities=[design.polarity])
+    if as_json:
+        _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
+                    "synthesis": result.to_dict()})
+    else:
+        print(f"record    {record.title}\nspec      {record.spec.i_target:g} A ± {record.spec.tolerance:.2%}\n")
+        print(result.text())
+    return EXIT_OK if result.best is not None else EXIT_SPEC_NOT_MET
+
+
+# --- review, new ----------------------------------------------------------------------
+
+def _review(source, output, with_code, keep_html):
+    from kit.review.build import build_review
+
+    def progress(stage):
+        print(f"biasbook review: {stage}", file=sys.stderr, flush=True)
+
+    try:
+        build_review(source, output, with_code=with_code, progress=progress, keep_html=keep_html)
+    except DesignError as err:
+        return _failure(err, EXIT_BAD_INPUT if err.parameter in ("source", "file") or
+                        type(err).__name__ == "RecordError" else EXIT_NOT_EVALUABLE, False)
+    print(output)
+    return EXIT_OK
+
+
+def _new(topology, output, record_path, polarity):
+    import nbformat
+
+    from kit.review.notebook import new_notebook
+
+    try:
+        if record_path:
+            from kit.record import load_record
+
+            record = load_record(record_path)
+            if record.design.topology != topology:
+                raise DesignError("the record is of another topology", parameter="topology",
+                                  value=topology, valid=record.design.topology)
+            relative = os.path.relpath(os.path.abspath(record_path), os.path.dirname(os.path.abspath(output)))
+            notebook = new_notebook(record.design, record_path=relative, title=record.title,
+                                    has_spec=record.spec is not None)
+        else:
+            design = kit.design(topology, polarity or "npn", title=f"New {topology} design")
+            notebook = new_notebook(design)
+    except DesignError as err:
+        return _failure(err, EXIT_BAD_INPUT, False)
+    if os.path.exists(output):
+        print(f"biasbook: {output} exists; not overwritten", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    nbformat.write(notebook, output)
+    print(output)
+    return EXIT_OK
 
 
 def cautions(evaluation):

@@ -31,6 +31,7 @@ CAUSES = {
     "breakdown": "reaches its breakdown voltage",
     "power": "reaches its dissipation limit",
     "output_swing": "reaches its output swing limit",
+    "zener_current": "falls below its least zener current",
     "solve": "has no converged operating point",
 }
 

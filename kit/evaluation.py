@@ -299,6 +299,8 @@ class Evaluation:
         lines.append("ledger (closed form vs exact)")
         for e in self.ledger:
             lines.append(f"  {e.label:<40} {format_quantity(e.value, 'A', 4):>10}  error {e.error:+.3%}")
+        for note in self.design.spec.notes:
+            lines.append(f"note: {note}")
         return "\n".join(lines)
 
     def _repr_html_(self):
@@ -337,6 +339,9 @@ class Evaluation:
                 + display.section("Sensitivities (exact, implicit function theorem)", sens)
                 + display.section("Tempco budget", budget)
                 + display.section("Ledger: simplifications against the exact solution", ledger))
+        if self.design.spec.notes:
+            body += display.section("Design notes", "".join(f"<p>{display.escape(n)}</p>"
+                                                            for n in self.design.spec.notes))
         return display.wrap(body)
 
     def _repr_latex_(self):

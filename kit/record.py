@@ -339,6 +339,96 @@ def _read_devices(raw, context):
 
 
 # name -> (reader, required).  Order is the order a saved record lists them.
+SPEC_PAIRS = {"v_load": ("V", (-1000.0, 1000.0)), "v_supply": ("V", (0.1, 1000.0)),
+              "temp": ("K", (150.0, 500.0))}
+SPEC_SCALARS = {"current": ("A", (1e-12, 100.0)), "tolerance": ("%", (0.0, 0.5)),
+                "resistor_tolerance": ("%", (0.0, 0.5)), "resistor_tcr": ("1/K", (0.0, 5e-3)),
+                "p_max": ("W", (1e-9, 1e4)), "mismatch": ("%", (0.0, 0.5))}
+SPEC_TABLES = ("beta", "tolerances", "tcrs", "bounds")
+SPEC_OTHER = ("beta_distribution", "samples", "seed", "matched")
+
+
+def _pair_of(raw, field, unit, limits):
+    if not isinstance(raw, list) or len(raw) != 2:
+        raise _fail("must be a pair [low, high]", field, raw, _span(*limits, unit))
+    low, high = (_number(v, f"{field}[{k}]", unit, limits) for k, v in enumerate(raw))
+    if low > high:
+        raise _fail("low end above high end", field, raw, "low <= high")
+    return (low, high)
+
+
+def _read_spec(raw, context):
+    """The optional [spec] section: what the current must do (see kit.analysis.spec.Spec)."""
+    if raw is None:
+        context["spec"] = None
+        return {}
+    table = _table(raw, "spec")
+    _only_keys(table, (*SPEC_SCALARS, *SPEC_PAIRS, *SPEC_TABLES, *SPEC_OTHER), "spec")
+    for name in ("current", "tolerance"):
+        if name not in table:
+            raise _fail("missing; a spec states the current and its tolerance", f"spec.{name}")
+    args = {}
+    for name, (unit, limits) in SPEC_SCALARS.items():
+        if name in table:
+            args["i_target" if name == "current" else name] = _number(table[name], f"spec.{name}", unit, limits)
+    for name, (unit, limits) in SPEC_PAIRS.items():
+        if name in table:
+            args[name] = _pair_of(table[name], f"spec.{name}", unit, limits)
+    top = context["topology"]
+    if "beta" in table:
+        beta = _table(table["beta"], "spec.beta")
+        args["beta"] = {k: _pair_of(v, f"spec.beta.{_key(k)}", "", (1.0, 1e5)) for k, v in beta.items()}
+    for name, unit, limits in (("tolerances", "%", (0.0, 0.5)), ("tcrs", "1/K", (0.0, 5e-3))):
+        if name in table:
+            entries = _table(table[name], f"spec.{name}")
+            _only_keys(entries, top.resistors, f"spec.{name}")
+            args[name] = {k: _number(v, f"spec.{name}.{k}", unit, limits) for k, v in entries.items()}
+    if "bounds" in table:
+        from kit.designs import parameter_range
+
+        entries = _table(table["bounds"], "spec.bounds")
+        bounds = {}
+        for key, value in entries.items():
+            field = f"spec.bounds.{_key(key)}"
+            try:
+                low, high, unit = parameter_range(top, key)
+            except ParameterError as err:
+                raise _from_kit(err, field) from None
+            bounds[key] = _pair_of(value, field, unit, (low, high))
+        args["bounds"] = bounds
+    if "beta_distribution" in table:
+        args["beta_distribution"] = _text(table["beta_distribution"], "spec.beta_distribution", 20)
+    for name in ("samples", "seed"):
+        if name in table:
+            if isinstance(table[name], bool) or not isinstance(table[name], int):
+                raise _fail("must be a whole number", f"spec.{name}", table[name])
+            args[name] = table[name]
+    if "matched" in table:
+        groups = table["matched"]
+        if not isinstance(groups, list) or not all(isinstance(g, list) and all(isinstance(n, str) for n in g)
+                                                    for g in groups):
+            raise _fail("must be a list of lists of transistor names", "spec.matched", groups,
+                        'e.g. [["Q1", "Q2"]]')
+        args["matched"] = tuple(tuple(g) for g in groups)
+    context["spec"] = args
+    return {}
+
+
+def _make_spec(args, design):
+    """Build and check the Spec against the design (names must exist); errors name spec fields."""
+    from kit.analysis.spec import Spec, factors
+
+    if args is None:
+        return None
+    try:
+        spec = Spec(**args)
+        factors(spec, design)
+    except ParameterError as err:
+        name = {"i_target": "current"}.get(err.parameter, err.parameter)
+        raise _from_kit(err, f"spec.{name}") from None
+    return spec
+
+
 SECTIONS = {
     "circuit": (_read_circuit, True),
     "values": (_read_values, True),
@@ -346,6 +436,7 @@ SECTIONS = {
     "tcr": (_read_tcr, False),
     "hand": (_read_hand, False),
     "devices": (_read_devices, False),
+    "spec": (_read_spec, False),
 }
 
 
@@ -455,6 +546,7 @@ class Record:
         except ParameterError as err:  # ranges the readers leave to the kit
             raise _from_kit(err, field_path(err.parameter, context["topology"])) from None
         self.design = design
+        self.spec = _make_spec(context.get("spec"), design)
         self.edge = context["edge"]
         self.title, self.revision = header["title"], header["revision"]
         self.author, self.notes = header["author"], header["notes"]
@@ -526,7 +618,7 @@ class Record:
             "devices": {name: m.numbers() | {"label": m.label,
                                              T_RISE_KEY: float(d.t_rise.get(name, 0.0))}
                         for name, m in d.devices.items()},
-        }
+        } | ({"spec": self.spec.to_dict()} if self.spec is not None else {})
 
     def content_hash(self):
         """SHA-256 (hex) of the canonical JSON of :meth:`to_dict`.

@@ -43,6 +43,17 @@ Electron. Lett. 36, 2000); its small-signal resistance then completes
 Output resistance: the hybrid-π form of the divider source with the base
 returned through ``R_B = R_Z || r_ref`` (``r_ref`` the reference's
 small-signal resistance at the exact operating point).
+
+Examples
+--------
+A 5.6 V zener with 1.5 kΩ in the emitter sinks about (5.6 - 0.68)/1.5k:
+
+>>> import kit
+>>> ev = kit.evaluate(kit.design("zener_source", r_e="1k5", v_z0="5.6 V"))
+>>> round(ev.i_out * 1e3, 1)
+3.3
+>>> ev.compliance.low.transistor, ev.compliance.low.cause
+('Q1', 'saturation')
 """
 
 from __future__ import annotations
@@ -107,8 +118,7 @@ SOURCE_LINEARISED = ("derived here: reference linearised at its unloaded current
 def _simplifications(stiff_label, thevenin_source, linearised):
     extra = ("reference_linearised",) if linearised else ()
     return (
-        Simplification("stiff_reference", stiff_label,
-                       ("stiff_reference", "base_current_neglected", "vbe_fixed", "no_early"),
+        Simplification("stiff_reference", stiff_label, ("stiff_reference", "vbe_fixed", "no_early"),
                        SOURCE_HAND),
         Simplification("fixed_vbe", "fixed V_BE, reference loaded by the base current",
                        ("vbe_fixed", "no_early") + extra, thevenin_source),
@@ -121,6 +131,7 @@ def _simplifications(stiff_label, thevenin_source, linearised):
 # --- equations ------------------------------------------------------------------
 
 def _parts(polarity):
+    """The parts every reference topology shares: rails, R_Z, R_E, Q1 and V_BE(on)."""
     from kit.circuit import Circuit
 
     npn = polarity == "npn"
@@ -153,6 +164,20 @@ def _zener_law(c):
     c.parameter("i_z_min")  # ratings: parameters of the limits, not of the equations
     c.parameter("p_z_max")
     return v_z0, r_z
+
+
+def _zener(c, top, bottom, v_z0, r_z):
+    """PWL zener from ``top`` (cathode) to ``bottom``; returns ``(I_Z, V_Z)`` expressions.
+
+    The current goes in as two terms, ``V/r_z`` and ``-V_Z0/r_z``: the same
+    law, but the convergence scale at the node then sees the size of the
+    parts that cancel, so a starved zener (tiny I_Z) is not failed on
+    floating-point noise.
+    """
+    across = c.voltages[top] - c.voltages[bottom]
+    c.current_source(top, bottom, across / r_z)
+    c.current_source(top, bottom, -v_z0 / r_z)
+    return (across - v_z0) / r_z, across
 
 
 def _diode_law(c):
@@ -216,9 +241,7 @@ def build_zener(polarity):
     parts = _parts(polarity)
     c, top, bottom, r_feed = parts["c"], parts["top"], parts["bottom"], parts["r_feed"]
     v_z0, r_z = _zener_law(c)
-    across = c.voltages[top] - c.voltages[bottom]
-    i_zener = (across - v_z0) / r_z
-    c.current_source(top, bottom, i_zener)
+    i_zener, across = _zener(c, top, bottom, v_z0, r_z)
     v_cc = c.voltages["cc"]
     drive = (v_cc * r_z + v_z0 * r_feed) / (r_feed + r_z)
     closed = _transistor_forms(parts, drive, _parallel(r_feed, r_z), v_z0)
@@ -263,14 +286,12 @@ def build_zener_diode(polarity):
     v = c.voltages
     # NPN: B -diode-> m -zener-> 0.  PNP: V_CC -zener-> m -diode-> B (mirror image).
     if npn:
-        diode_drop, zener_drop = v["b"] - v["m"], v["m"]
+        diode_drop = v["b"] - v["m"]
         c.current_source("b", "m", i_sd * (sp.exp(diode_drop / (n_id * c.v_t)) - 1))
-        i_zener = (zener_drop - v_z0) / r_z
-        c.current_source("m", "0", i_zener)
+        i_zener, zener_drop = _zener(c, "m", "0", v_z0, r_z)
     else:
-        diode_drop, zener_drop = v["m"] - v["b"], v["cc"] - v["m"]
-        i_zener = (zener_drop - v_z0) / r_z
-        c.current_source("cc", "m", i_zener)
+        diode_drop = v["m"] - v["b"]
+        i_zener, zener_drop = _zener(c, "cc", "m", v_z0, r_z)
         c.current_source("m", "b", i_sd * (sp.exp(diode_drop / (n_id * c.v_t)) - 1))
     slope = n_id * c.v_t
     unloaded = _junction_reference_current(r_feed + r_z, v["cc"] - v_z0, slope, i_sd)
@@ -345,7 +366,7 @@ def zener_limits(points):
 # --- schematic ---------------------------------------------------------------------
 
 def _draw(design, d, reference):
-    """Schematic with present values; ``reference(d, direction)`` draws the reference leg."""
+    """Schematic with present values; ``reference()`` draws the reference leg downwards."""
     import schemdraw.elements as elm
 
     from kit.quantities import format_quantity
@@ -359,78 +380,76 @@ def _draw(design, d, reference):
     if npn:
         elm.Resistor().down().label(value_label(design, "r_feed", "R_Z"))
     else:
-        reference(d, "down")
+        reference()
     d.push()
     elm.Line().right(1.0)
     if npn:
         q = elm.BjtNpn(circle=True).anchor("base").label("Q1", loc="right")
-        elm.Resistor().down().at(q.emitter).label(value_label(design, "r_e", "R_E"))
+        elm.Resistor().down().at(q.emitter).label(value_label(design, "r_e", "R_E"), loc="bottom")
         elm.Ground()
         elm.Line().up(0.8).at(q.collector)
         elm.Dot(open=True).label("load (sink)", loc="right")
     else:
         q = elm.BjtPnp(circle=True).anchor("base").label("Q1", loc="right")
-        elm.Resistor().up().at(q.emitter).toy(rail.start).label(value_label(design, "r_e", "R_E"))
+        elm.Resistor().up().at(q.emitter).toy(rail.start).label(value_label(design, "r_e", "R_E"),
+                                                                loc="bottom")
         elm.Line().down(0.8).at(q.collector)
         elm.Dot(open=True).label("load (source)", loc="right")
     d.pop()
     if npn:
-        reference(d, "down")
+        reference()
     else:
         elm.Resistor().down().label(value_label(design, "r_feed", "R_Z"))
     elm.Ground()
 
 
 UNIT_WIDTH = 3.0
+DIODE_LENGTH = 1.5  # schemdraw units; a string of up to 8 stays on the page
 
 
-def _zener_label(design):
+def _draw_zener(design):
+    import schemdraw.elements as elm
+
     from kit.quantities import format_quantity
 
-    return (f"D1 {format_quantity(design.values['v_z0'], 'V')}\n"
-            f"r_z {format_quantity(design.values['r_z'], 'Ω')}")
+    # Drawn cathode up: in breakdown the zener conducts from the upper node downwards.
+    elm.Zener().down().reverse().label(
+        f"D1\n{format_quantity(design.values['v_z0'], 'V')}\n"
+        f"r_z {format_quantity(design.values['r_z'], 'Ω')}")
 
 
-def _diode_label(design, count=None):
+def _draw_diodes(design, first, count):
+    import schemdraw.elements as elm
+
     from kit.quantities import format_quantity
 
-    head = f"D{count}" if count else "D"
-    return f"{head}\nI_SD {format_quantity(design.values['i_sd'], 'A')}"
+    saturation = format_quantity(design.values["i_sd"], "A")
+    names = f"D{first}" if count == 1 else f"D{first}…D{first + count - 1}"
+    for k in range(count):
+        diode = elm.Diode().down().length(DIODE_LENGTH)
+        if k == 0:
+            diode.label(f"{names}\nI_SD {saturation}\nn {design.values['n_id']:g}")
 
 
 def draw_zener(design, d):
-    import schemdraw.elements as elm
-
-    def reference(d, direction):
-        # Cathode up: the zener conducts in breakdown from the upper node downwards.
-        elm.Zener().down().reverse().label(_zener_label(design))
-
-    _draw(design, d, reference)
+    """Schematic of the zener-referenced source."""
+    _draw(design, d, lambda: _draw_zener(design))
 
 
 def draw_diode_string(design, d):
-    import schemdraw.elements as elm
-
-    def reference(d, direction):
-        count = int(round(design.values["n_diodes"]))
-        elm.Diode().down().label(_diode_label(design, 1), loc="bottom")
-        elm.Line().down(0.4)
-        elm.Gap().down().label(f"… {count} diodes in series", loc="bottom") if count > 2 else None
-        elm.Diode().down().label(f"D{count}", loc="bottom")
-
-    _draw(design, d, reference)
+    """Schematic of the diode-string-referenced source (every diode drawn)."""
+    _draw(design, d, lambda: _draw_diodes(design, 1, int(round(design.values["n_diodes"]))))
 
 
 def draw_zener_diode(design, d):
-    import schemdraw.elements as elm
-
-    def reference(d, direction):
+    """Schematic of the zener-plus-diode-referenced source (diode next to the base)."""
+    def reference():
         if design.polarity == "npn":
-            elm.Diode().down().label(_diode_label(design, 2), loc="bottom")
-            elm.Zener().down().reverse().label(_zener_label(design))
+            _draw_diodes(design, 2, 1)
+            _draw_zener(design)
         else:
-            elm.Zener().down().reverse().label(_zener_label(design))
-            elm.Diode().down().label(_diode_label(design, 2), loc="bottom")
+            _draw_zener(design)
+            _draw_diodes(design, 2, 1)
 
     _draw(design, d, reference)
 
