@@ -1,0 +1,195 @@
+"""Design-review PDFs and the commands around them (check, synthesize, new, review).
+
+The PDF is checked as a reader would meet it: its text (pdftotext, from
+Debian's poppler-utils), its pictures (pdfimages / a rendered page) and that
+the page it was printed from asks nothing of the network.  The first page is
+also rendered to ``artifacts/review-page-1.png`` so a person can look at it.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+import shutil
+import subprocess
+from html.parser import HTMLParser
+from pathlib import Path
+
+import pytest
+
+import kit
+from kit.cli import main
+from kit.quantities import format_quantity
+from kit.record import load_record
+
+ROOT = Path(__file__).resolve().parents[1]
+EXAMPLES = ROOT / "examples"
+PASSING = EXAMPLES / "spec-led-driver-passes.toml"
+FAILING = EXAMPLES / "spec-bridge-excitation-fails.toml"
+NO_SPEC = EXAMPLES / "bridge_excitation_npn.toml"
+ARTIFACTS = ROOT / "artifacts"
+
+needs_printing = pytest.mark.skipif(
+    shutil.which("chromium") is None or shutil.which("pdftotext") is None,
+    reason="needs Debian's chromium and poppler-utils (python3 dev.py test installs them)")
+
+
+def run(capsys, *argv):
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+# --- check and synthesize -----------------------------------------------------------
+
+def test_check_exit_codes_follow_the_verdict(capsys):
+    assert run(capsys, "check", str(PASSING))[0] == 0
+    code, out, _ = run(capsys, "check", str(FAILING))
+    assert code == 1
+    assert "spec NOT met" in out and "v_supply alone" in out
+    code, _, err = run(capsys, "check", str(NO_SPEC))
+    assert code == 2 and "no [spec]" in err
+
+
+def test_check_json_is_strict_and_names_the_methods(capsys):
+    code, out, _ = run(capsys, "check", "--json", str(FAILING))
+    assert code == 1
+    data = json.loads(out, parse_constant=lambda name: pytest.fail(f"non-strict JSON: {name}"))
+    assert set(data["check"]["methods"]) == {"extreme-value", "RSS", "Monte Carlo"}
+    assert data["check"]["met"] is False
+    assert data["content_hash"] == load_record(FAILING).content_hash()
+
+
+def test_bad_spec_in_a_record_names_the_field(tmp_path, capsys):
+    text = FAILING.read_text().replace('tolerance = "2 %"', 'tolerance = "-2 %"')
+    path = tmp_path / "bad.toml"
+    path.write_text(text)
+    code, _, err = run(capsys, "check", str(path))
+    assert code == 2 and "spec.tolerance" in err
+    text = FAILING.read_text().replace('npn = [100, 300]', 'npn = [300, 100]')
+    path.write_text(text)
+    code, _, err = run(capsys, "check", str(path))
+    assert code == 2 and "spec.beta.npn" in err
+
+
+def test_synthesize_meets_its_spec_when_checked_again(capsys):
+    code, out, _ = run(capsys, "synthesize", "--json", str(PASSING))
+    assert code == 0
+    best = json.loads(out)["synthesis"]["candidates"][0]
+    record = load_record(PASSING)
+    design = record.design.with_values(**best["values"])
+    from kit.analysis.worstcase import worst_case
+
+    assert worst_case(design, record.spec, methods=("extreme-value",)).met
+
+
+# --- new ------------------------------------------------------------------------------
+
+def test_new_writes_a_notebook_for_every_topology(tmp_path, capsys):
+    import nbformat
+
+    for top in kit.list_topologies():
+        out = tmp_path / f"{top.key}.ipynb"
+        code, _, err = run(capsys, "new", top.key, "-o", str(out))
+        assert code == 0, err
+        notebook = nbformat.read(out, as_version=4)
+        sources = "\n".join(c.source for c in notebook.cells)
+        assert f"kit.design({top.key!r}" in sources and "review_summary" in sources
+    assert run(capsys, "new", "divider_source", "-o", str(tmp_path / "divider_source.ipynb"))[0] == 2
+    assert run(capsys, "new", "no_such_circuit", "-o", str(tmp_path / "x.ipynb"))[0] == 2
+
+
+# --- review ---------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def reviewed(tmp_path_factory):
+    """One review of the passing record: the PDF, its HTML and the record's evaluation."""
+    from kit.review.build import build_review
+
+    folder = tmp_path_factory.mktemp("review")
+    stages = []
+    pdf = build_review(PASSING, folder / "review.pdf", progress=stages.append,
+                       keep_html=folder / "review.html")
+    return {"pdf": pdf, "html": (folder / "review.html").read_text(encoding="utf-8"),
+            "stages": stages, "evaluation": kit.evaluate(load_record(PASSING).design),
+            "record": load_record(PASSING), "folder": folder}
+
+
+@needs_printing
+def test_review_reports_its_progress(reviewed):
+    assert reviewed["stages"] == ["executing", "converting", "printing", "done"]
+
+
+@needs_printing
+def test_review_text_holds_title_block_numbers_and_cautions(reviewed):
+    text = subprocess.run(["pdftotext", "-layout", str(reviewed["pdf"]), "-"], capture_output=True,
+                          text=True, check=True).stdout
+    flat = re.sub(r"\s+", " ", text)
+    record, evaluation = reviewed["record"], reviewed["evaluation"]
+    assert record.title in flat
+    assert record.content_hash() in flat  # the hash names exactly what was reviewed
+    assert f"biasbook {kit.__version__}" in flat and "SymPy" in flat and "NumPy" in flat
+    # the headline numbers as the kit computes and formats them
+    assert evaluation.headline()["I_out"] in flat
+    assert format_quantity(evaluation.compliance.low.voltage, "V") in flat
+    assert "licensed practitioner" in flat and "dissipation" in flat
+    assert "extreme-value" in flat and "Monte Carlo" in flat  # the spec, method by method
+    assert "page 1 of" in flat  # the footer's page numbers
+
+
+@needs_printing
+def test_review_has_pictures_schematic_and_plot(reviewed):
+    page_count = int(re.search(r"Pages:\s+(\d+)", subprocess.run(
+        ["pdfinfo", str(reviewed["pdf"])], capture_output=True, text=True, check=True).stdout).group(1))
+    assert page_count >= 3
+    # The schematic is SVG (vector) and the Bokeh plot a canvas: both print as
+    # drawn content, so look for them in the page they were printed from.
+    html = reviewed["html"]
+    assert html.count("<svg") >= 1  # schemdraw's schematic
+    assert "Bokeh" in html and "application/json" in html  # the embedded Bokeh document
+    # and the equations were typeset (MathJax output, not raw TeX, reaches the PDF)
+    text = subprocess.run(["pdftotext", str(reviewed["pdf"]), "-"], capture_output=True, text=True).stdout
+    assert "\\frac" not in text and "$$" not in text
+
+
+class _Addresses(HTMLParser):
+    """Every address an element of the page would load (script bodies are not elements)."""
+
+    def __init__(self):
+        super().__init__()
+        self.found = []
+
+    def handle_starttag(self, tag, attrs):
+        for name, value in attrs:
+            if name in ("src", "href", "data") and value:
+                self.found.append(value)
+
+
+@needs_printing
+def test_review_page_asks_nothing_of_the_network(reviewed):
+    parser = _Addresses()
+    parser.feed(reviewed["html"])
+    assert parser.found, "the page loads its MathJax from somewhere"
+    remote = [a for a in parser.found if re.match(r"(?i)(https?:)?//", a)]
+    assert remote == []
+    # only local files, in-page anchors and inline data
+    assert all(a.startswith(("file:", "#", "data:")) for a in parser.found), parser.found
+
+
+@needs_printing
+def test_first_page_rendered_for_a_person_to_look_at(reviewed):
+    ARTIFACTS.mkdir(exist_ok=True)
+    stem = ARTIFACTS / "review-page"
+    subprocess.run(["pdftoppm", "-png", "-r", "80", "-f", "1", "-l", "1", str(reviewed["pdf"]), str(stem)],
+                   check=True)
+    page = next(ARTIFACTS.glob("review-page*1.png"))
+    assert page.stat().st_size > 20_000  # a page with a title block and tables, not a blank sheet
+
+
+def test_review_refuses_what_it_cannot_read(tmp_path, capsys):
+    bogus = tmp_path / "notes.txt"
+    bogus.write_text("not a design")
+    code, _, err = run(capsys, "review", str(bogus), "-o", str(tmp_path / "x.pdf"))
+    assert code == 2 and "source" in err
+    code, _, err = run(capsys, "review", str(tmp_path / "missing.ipynb"), "-o", str(tmp_path / "x.pdf"))
+    assert code == 2
