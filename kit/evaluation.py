@@ -276,7 +276,7 @@ class Evaluation:
 
     def text(self):
         """A plain-text report (the CLI prints it)."""
-        lines = [f"{self.design.spec.title} ({self.design.polarity.upper()})"
+        lines = [f"{self.design.spec.title} ({self.design.spec.polarity_label(self.design.polarity)})"
                  + (f" — {self.design.title}" if self.design.title else ""),
                  f"at {format_temperature(self.design.temp)}"]
         for label, value in self.headline().items():
@@ -331,7 +331,7 @@ class Evaluation:
             [[e.label, display.Raw(f"$${e.latex}$$"), format_quantity(e.value, "A", 4), f"{e.error:+.3%}",
               format_quantity(e.tempco, "ppm/K"), "; ".join(e.assumptions)] for e in self.ledger],
             numeric=(2, 3, 4))
-        title = f"{self.design.spec.title} ({self.design.polarity.upper()})"
+        title = f"{self.design.spec.title} ({self.design.spec.polarity_label(self.design.polarity)})"
         if self.design.title:
             title = f"{self.design.title} — {title}"
         body = (display.section(title, head) + display.section("Compliance", edges)

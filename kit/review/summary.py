@@ -58,7 +58,7 @@ class ReviewSummary:
             "content_hash": record.content_hash() if record else _design_hash(design),
             "hash_of": "design record" if record else "design values",
             "topology": design.spec.title,
-            "polarity": design.polarity.upper(),
+            "polarity": design.spec.polarity_label(design.polarity),
             "versions": _versions(),
             "headline": evaluation.headline(),
             "ledger": [{"label": e.label, "value": format_quantity(e.value, "A", 4),

@@ -113,6 +113,16 @@ class Topology:
     valid_branch: object = field(default=None, repr=False)  # points -> bool array
     budget_labels: dict = field(default_factory=dict)  # operating symbol -> tempco budget label
 
+    def polarity_label(self, polarity):
+        """``"NPN"``/``"PNP"``, or ``"NMOS"``/``"PMOS"`` for a circuit of MOSFETs only."""
+        from kit.devices import KINDS
+
+        kinds = {self.kind_of(n) for n in self.transistors}
+        if len(kinds) == 1:
+            words = getattr(KINDS[next(iter(kinds))], "POLARITY_WORDS", {})
+            return words.get(polarity, polarity).upper()
+        return polarity.upper()
+
     def kind_of(self, name):
         """Kind of device ``name`` (a key of :data:`kit.devices.KINDS`)."""
         return self.kinds.get(name, "bjt")
