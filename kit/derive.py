@@ -232,15 +232,19 @@ def generate(equations, key):
 
     residuals = xq(equations.residuals)
     output = xq([equations.output])[0]
-    jac_x = [(i, j, sp.diff(r, xs[j])) for i, r in enumerate(residuals) for j in range(len(xs))]
-    jac_q = [(i, j, sp.diff(r, qs[j])) for i, r in enumerate(residuals) for j in range(len(qs))]
+    def diff(expression, symbol):
+        # Most entries do not depend on most symbols: skip SymPy's work there.
+        return sp.diff(expression, symbol) if symbol in expression.free_symbols else sp.Integer(0)
+
+    jac_x = [(i, j, diff(r, xs[j])) for i, r in enumerate(residuals) for j in range(len(xs))]
+    jac_q = [(i, j, diff(r, qs[j])) for i, r in enumerate(residuals) for j in range(len(qs))]
     jac_x = [(i, j, e) for i, j, e in jac_x if e != 0]
     jac_q = [(i, j, e) for i, j, e in jac_q if e != 0]
-    out_x = [sp.diff(output, s) for s in xs]
-    out_q = [(j, sp.diff(output, qs[j])) for j in range(len(qs))]
+    out_x = [diff(output, s) for s in xs]
+    out_q = [(j, diff(output, qs[j])) for j in range(len(qs))]
     out_q = [(j, e) for j, e in out_q if e != 0]
     operating = [equations.operating[s].xreplace(to_p) for s in q]
-    dq_dp = [(j, k, sp.diff(operating[j], ps[k])) for j in range(len(q)) for k in range(len(p))]
+    dq_dp = [(j, k, diff(operating[j], ps[k])) for j in range(len(q)) for k in range(len(p))]
     dq_dp = [(j, k, e) for j, k, e in dq_dp if e != 0]
     junctions = [e for name in equations.transistors for e in xq(list(equations.transistors[name].values()))]
     from kit.devices import KINDS
@@ -250,7 +254,7 @@ def generate(equations, key):
     limited = xq([equations.transistors[name][key] for name, key in limited_keys])
     extras = xq(list(equations.extras.values()))
     closed = xq(list(equations.closed_forms.values()))
-    closed_grad = [(c, j, sp.diff(e, qs[j])) for c, e in enumerate(closed) for j in range(len(qs))]
+    closed_grad = [(c, j, diff(e, qs[j])) for c, e in enumerate(closed) for j in range(len(qs))]
     closed_grad = [(c, j, e) for c, j, e in closed_grad if e != 0]
 
     printer = _printer()

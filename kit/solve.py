@@ -230,12 +230,14 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
             break
     # A converged step may still sit on a large residual if the Jacobian was
     # singular there; confirm against the currents flowing at each node.
-    f = np.abs(model.residuals(x, q))
+    f, jac = model.newton_terms(x, q)
     scale = model.scales(x, q)
+    # Rounding of the node voltages themselves: a few ulps of the largest
+    # voltage times each node's conductances (a tiny drop under a high rail).
+    rounding = 8 * np.finfo(float).eps * np.max(np.abs(x), axis=0) * np.sum(np.abs(jac), axis=1)
     # The absolute floor (1 fA) covers a node whose currents are tiny but whose
-    # voltage is large (a cut-off device at a high supply): one ulp of the
-    # voltage over its resistor is already more than 1e-9 of what flows there.
-    converged &= np.all(f <= 1e-9 * scale + RESIDUAL_FLOOR, axis=0)
+    # voltage is large (a cut-off device at a high supply).
+    converged &= np.all(np.abs(f) <= 1e-9 * scale + rounding + RESIDUAL_FLOOR, axis=0)
     points = OperatingPoints(model, p, q, x, converged, iterations)
     # Self-biased cells also solve at zero current: a topology can refuse that branch.
     valid_branch = getattr(model.topology, "valid_branch", None)

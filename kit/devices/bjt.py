@@ -256,7 +256,13 @@ def margins(j, v_t, temp, device, edge="vce_sat"):
     Causes: ``saturation`` (V), ``cutoff`` (V), ``breakdown`` (V) and
     ``power`` (W, against ``(T_J,max - T)/theta_JA`` at temperature ``temp``).
     """
-    saturation = j["v_ce"] - device.v_ce_sat if edge == "vce_sat" else -j["v_bc"]
+    import numpy as np
+
+    if edge == "vce_sat":
+        saturation = j["v_ce"] - device.v_ce_sat
+    else:
+        # A diode-connected transistor has V_CB = 0 by its wiring: never a limit.
+        saturation = np.where(j["v_bc"] == 0.0, np.inf, -j["v_bc"])
     return {
         "saturation": saturation,
         "cutoff": _cutoff_margin(j, v_t),  # see CUTOFF_CURRENT

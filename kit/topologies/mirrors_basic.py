@@ -28,16 +28,28 @@ Closed forms (``m = I_S2/I_S1``, equal to N for matched parts;
   n_extra outputs, ``N I_REF / (1 + (1 + N + n_extra N)/beta)``;
 * with the Early law ``I_C = I_S e^{V_BE/V_T} (1 + V_CE/V_A)`` the ratio is
   exactly ``m (1 + V_CE2/V_A2) / (a + V_B/V_A1)`` given the input voltage
-  ``V_B`` (derived here); the closed form takes ``V_B`` from the no-Early
-  solution, which leaves an error of order ``(V_T/V_A)(V_B/V_A)``;
+  ``V_B`` (derived here).  With an ideal reference the closed form takes ``V_B``
+  from the no-Early solution plus one fixed-point step (error of order
+  ``(V_T/V_A)^2``); with R_REF it solves the reference loop again with
+  ``a + V_B/V_A1`` (error of order ``(V_T/V_A)(V_B/V_A)``);
 * resistor reference: ``I_REF R_REF + V_T ln(I_REF/(a I_S1)) = V_CC``, so
   ``I_REF = (V_T/R_REF) omega(V_CC/V_T + ln(a I_S1 R_REF/V_T))`` and
   ``I_out = m I_REF/a`` (derived here; the structure of Banwell & Jayakumar,
   Electron. Lett. 36, 2000); the hand form ``I_REF = (V_CC - V_BE(on))/R_REF``.
 
+All ratios assume Q1 and Q2 at one junction temperature ("isothermal"):
+each junction keeps its own V_T in the exact equations, and a warmer Q2
+raises the output by several per cent per kelvin.
+
 Output resistance: Q2's base current does not depend on its collector
 voltage in this model, so ``R_out = r_o2 = (V_A2 + V_CE2)/I_C2`` exactly in
 the hybrid-pi model.
+Examples
+--------
+>>> import kit
+>>> ev = kit.evaluate(kit.design("basic_mirror", "npn", i_ref="100 uA", n_area=2))
+>>> 1.9 < ev.i_out / 100e-6 < 2.2, ev.compliance.low.transistor
+(True, 'Q2')
 """
 
 from __future__ import annotations
@@ -83,35 +95,35 @@ DERIVED_EARLY = "derived here (Early law I_C = I_S e^(V_BE/V_T)(1 + V_CE/V_A))"
 
 SIMPLIFICATIONS_IDEAL = (
     Simplification("area_ratio", "ideal mirror, I_out = N·I_REF",
-                   ("base_current_neglected", "no_early"), GRAY_SEDRA),
+                   ("base_current_neglected", "no_early", "forward_active", "isothermal"), GRAY_SEDRA),
     Simplification("finite_beta", "finite β, N·I_REF/(1 + (1+N)/β)",
-                   ("no_early", "forward_active"), GRAY_SEDRA),
+                   ("no_early", "forward_active", "isothermal"), GRAY_SEDRA),
     Simplification("early_aware", "finite β and Early effect (V_B from the no-Early solution)",
-                   ("forward_active",), DERIVED_EARLY),
+                   ("forward_active", "isothermal"), DERIVED_EARLY),
 )
 
 SIMPLIFICATIONS_RREF = (
     Simplification("stiff_hand", "hand analysis, N·(V_CC − V_BE(on))/R_REF",
-                   ("base_current_neglected", "vbe_fixed", "no_early"),
+                   ("base_current_neglected", "vbe_fixed", "no_early", "isothermal"),
                    "hand analysis, common practice"),
     Simplification("fixed_vbe", "fixed V_BE with finite β",
-                   ("vbe_fixed", "no_early"), GRAY_SEDRA),
+                   ("vbe_fixed", "no_early", "isothermal"), GRAY_SEDRA),
     Simplification("exponential", "exponential junction, finite β (Wright ω form)",
-                   ("no_early", "forward_active"),
+                   ("no_early", "forward_active", "isothermal"),
                    "derived here; cf. Banwell & Jayakumar, Electron. Lett. 36 (2000)"),
     Simplification("early_aware", "ω form with Early effect (V_B from the no-Early solution)",
-                   ("forward_active",), DERIVED_EARLY),
+                   ("forward_active", "isothermal"), DERIVED_EARLY),
 )
 
 SIMPLIFICATIONS_MULTI = (
     Simplification("area_ratio", "ideal mirror, I_out = N·I_REF",
-                   ("base_current_neglected", "no_early"), GRAY_SEDRA),
+                   ("base_current_neglected", "no_early", "forward_active", "isothermal"), GRAY_SEDRA),
     Simplification("finite_beta", "finite β, N·I_REF/(1 + (1 + N + n_extra·N)/β)",
-                   ("no_early", "forward_active"),
+                   ("no_early", "forward_active", "isothermal"),
                    "Sedra & Smith, Microelectronic Circuits, mirror with several outputs "
                    "(from memory)"),
     Simplification("early_aware", "finite β and Early effect (V_B from the no-Early solution)",
-                   ("forward_active",), DERIVED_EARLY),
+                   ("forward_active", "isothermal"), DERIVED_EARLY),
 )
 
 EXTRAS = {"r_out_ro2": "R_out = r_o2 = (V_A2 + V_CE2)/I_C2 (exact in the hybrid-π model)"}
@@ -153,7 +165,7 @@ def _mirror(polarity, reference, extra_outputs=False):
         c.current_source(*(("b", "0") if npn else ("0", "b")), base_current)
     v_out, v_cc = c.voltages["out"], c.voltages["cc"]
     s["v_ce2"] = v_out if npn else v_cc - v_out
-    s["V_CC"], s["V_T"] = v_cc, c.v_t
+    s["V_CC"] = v_cc
     return c, s
 
 
@@ -176,8 +188,11 @@ def _ideal_closed_forms(s):
     import sympy as sp
 
     m, a = _gain_terms(s)
-    i_ref, v_t, q1, q2 = s["I_REF"], s["V_T"], s["Q1"], s["Q2"]
-    v_b = v_t * sp.log(i_ref / (a * q1["I_S"]))  # input voltage without the Early effect
+    i_ref, q1, q2 = s["I_REF"], s["Q1"], s["Q2"]
+    # Input voltage: the no-Early value, then one fixed-point step of
+    # I_REF = I_S1 e^(V_B/V_T) (a + V_B/V_A1).
+    v_b = q1["V_T"] * sp.log(i_ref / (a * q1["I_S"]))
+    v_b = q1["V_T"] * sp.log(i_ref / ((a + v_b / q1["V_A"]) * q1["I_S"]))
     return {
         "area_ratio": m * i_ref,
         "finite_beta": m * i_ref / a,
@@ -208,7 +223,8 @@ def build_rref(polarity):
         "V_BE_on", c.parameter("v_be_on") + c.parameter("v_be_tc") * (c.temp - c.t_ref))
     m, a = _gain_terms(s)
     omega = wright_omega_function()
-    r_ref, v_cc, v_t, q1, q2 = s["R_REF"], s["V_CC"], s["V_T"], s["Q1"], s["Q2"]
+    r_ref, v_cc, q1, q2 = s["R_REF"], s["V_CC"], s["Q1"], s["Q2"]
+    v_t = q1["V_T"]  # the reference loop runs through Q1's junction
 
     def reference_current(gain):
         # I R_REF + V_T ln(I/(gain I_S1)) = V_CC, solved with the Wright omega function
@@ -217,7 +233,8 @@ def build_rref(polarity):
     i_ref = reference_current(a)
     # Early: the input transistor carries (a + V_B/V_A1) I_S1 e^(V_B/V_T); take V_B
     # from the no-Early solution and solve the reference loop again with it.
-    a_early = a + v_t * sp.log(i_ref / (a * q1["I_S"])) / q1["V_A"]
+    # (the no-Early input voltage V_T ln(I_REF/(a I_S1)) is V_CC - I_REF R_REF exactly)
+    a_early = a + (v_cc - i_ref * r_ref) / q1["V_A"]
     i_ref_early = reference_current(a_early)
     closed_forms = {
         "stiff_hand": m * (v_cc - v_on) / r_ref,
@@ -242,12 +259,13 @@ def _input_current(model, q, key):
 def _guess_from(key):
     def guess(model, q):
         """Input node from the finite-beta closed form, kept near the output collector."""
-        i_s1, v_t = common.operating(model, q, "I_S_Q1", "V_T")
+        i_s1, v_t = common.operating(model, q, "I_S_Q1", "V_T_Q1")
         if "K" in model.operating_index:
             (count,) = common.operating(model, q, "K")
             common.require_whole_count(count, "n_extra", *N_EXTRA_RANGE)
-        drop = common.junction_drop(_input_current(model, q, key), i_s1, v_t)
-        v_b = common.clamp_to_output(model, q, common.from_emitter_rail(model, q, drop))
+        i_c1 = _input_current(model, q, key)
+        drop = common.junction_drop(i_c1, i_s1, v_t)
+        v_b = common.clamp_to_output(model, q, common.from_emitter_rail(model, q, drop), i_c1)
         return common.stack_unknowns(model, {"V_b": v_b})
     return guess
 
@@ -286,10 +304,10 @@ def _draw(design, d, *, resistor=None, extra=False):
         q3 = common.transistor(npn, facing_left=True, label=f"Q3\n{n_text}").anchor("base")
         common.emitter_return(design, d, q3.emitter, npn)
         count = int(design.values["n_extra"])
-        getattr(elm.Line().at(q3.collector), up)(common.LEAD)
-        elm.Dot(open=True).label(f"{count} output{'s' if count > 1 else ''} like Q3\n"
-                                 f"at V_X {format_quantity(design.values['v_extra'], 'V')}",
-                                 loc="left")
+        common.output_terminal(q3.collector, npn,
+                               f"{count} output{'s' if count > 1 else ''} like Q3\n"
+                               f"at V_X {format_quantity(design.values['v_extra'], 'V')}",
+                               side="left")
 
 
 def draw_ideal(design, d):
@@ -318,7 +336,7 @@ NOTES = (
     "Thermal coupling: keep Q1 and Q2 at one temperature; a 1 K difference moves "
     "the ratio by about 8 % when undegenerated.",
     "Check Q2's dissipation at the highest load voltage against its package rating.",
-)
+) + common.SAFETY_NOTES
 
 TOPOLOGIES = (
     Topology(
@@ -335,6 +353,7 @@ TOPOLOGIES = (
         build=build_ideal,
         guess=_guess_from("finite_beta"),
         draw=draw_ideal,
+        limits=common.reference_headroom("b"),
         extras=EXTRAS,
         hand_parameters=(),
         notes=NOTES,
@@ -372,14 +391,15 @@ TOPOLOGIES = (
         build=build_multi,
         guess=_guess_from("finite_beta"),
         draw=draw_multi,
+        limits=common.reference_headroom("b"),
         extras=EXTRAS,
         hand_parameters=(),
-        notes=NOTES[:3] + (
+        notes=NOTES + (
             "Q3 stands for one of the n_extra further outputs; its dissipation is per transistor.",
             "Every further output adds N/β to the base loading: with many outputs use a "
             "β-helper mirror.",
         ),
-        budget_labels={"I_REF": "reference current I_REF", "K": "output count"},
+        budget_labels={"I_REF": "reference current I_REF"},
     ),
 )
 
