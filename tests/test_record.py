@@ -166,7 +166,8 @@ def test_hash_changes_when_meaning_changes(path, value):
     ("title", 12, "title"),
     ("revision", ["A"], "revision"),
     ("colour", "red", "colour"),
-    ("spec", {"i_out": "1 mA"}, "spec"),
+    ("spec", {"i_out": "1 mA"}, "spec.i_out"),  # [spec] is known; i_out is not one of its keys
+    ("worst_case", {"i_out": "1 mA"}, "worst_case"),
     ("circuit", "divider_source", "circuit"),
     ("circuit", ..., "circuit"),
     ("circuit.topology", ..., "circuit.topology"),
@@ -243,14 +244,14 @@ def test_out_of_range_error_gives_the_valid_range():
 
 
 def test_unknown_section_lists_the_valid_ones():
-    err = error_of(text_of(changed("spec", {"i_out": "1 mA"})))
-    for section in ("circuit", "values", "conditions", "tcr", "hand", "devices"):
+    err = error_of(text_of(changed("worst_case", {"i_out": "1 mA"})))
+    for section in ("circuit", "values", "conditions", "tcr", "hand", "devices", "spec"):
         assert section in err.valid
 
 
 def test_newer_schema_is_reported_before_unknown_sections():
     # A newer record may carry sections this version does not know.
-    err = error_of(text_of(changed("biasbook_record", 2) | {"spec": {"i_out": "1 mA"}}))
+    err = error_of(text_of(changed("biasbook_record", 2) | {"worst_case": {"i_out": "1 mA"}}))
     assert err.parameter == "biasbook_record" and "newer" in err.message
 
 
