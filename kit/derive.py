@@ -123,7 +123,7 @@ def latex_name(name, transistors=()):
     """
     single = len(transistors) <= 1
     for prefix, symbol in (("betaR_", r"\beta_{R"), ("beta_", r"\beta"), ("I_S_", "I_{S"),
-                           ("V_A_", "V_{A")):
+                           ("V_A_", "V_{A"), ("V_T_", "V_{T")):
         if name.startswith(prefix):
             device = name[len(prefix):]
             if symbol == r"\beta":

@@ -42,25 +42,25 @@ import numpy as np
 from kit.topologies.base import Simplification, Topology, ValueSpec
 
 SATURATED_VBC_GUESS = 0.55  # V; forward bias of a saturated output collector junction
+SATURATED_VCE_GUESS = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
+LABEL_ROOM = 1.8  # drawing units beside the reference for its two-line label
 
 WIDLAR = "Widlar, IEEE Trans. Circuit Theory CT-12 (1965), from memory"
 LAMBERT = "Lambert-W solution (Wright ω form) derived here"
 
 
 def _values(reference):
-    head = (
-        ValueSpec("i_ref", "A", "reference current into the diode Q1", 1.2e-3, 1e-9, 0.1)
-        if reference == "ideal" else
-        ValueSpec("r_ref", "Ω", "reference resistor from the supply to the diode Q1", 10e3,
-                  1.0, 1e9, "resistor"),
-    )
+    from kit.topologies import mirrors_common as common
+
+    head = ((common.i_ref_spec(1.2e-3), common.I_REF_TC) if reference == "ideal" else
+            (ValueSpec("r_ref", "Ω", "reference resistor from the supply to the diode Q1", 10e3,
+                       1.0, 1e9, "resistor"),))
     return head + (
         ValueSpec("r_e", "Ω", "emitter resistor of the output transistor Q2", 4.7e3, 1e-2, 1e9,
                   "resistor"),
-        ValueSpec("n_area", "", "emitter-area ratio A_E2/A_E1 of Q2 to Q1", 1.0, 0.01, 100.0),
-        ValueSpec("v_supply", "V", "supply voltage", 12.0, 1.0, 1000.0, "supply"),
-        ValueSpec("v_load", "V", "output (load) voltage against 0 V", 6.0, -1000.0, 1000.0,
-                  "load"),
+        common.n_area_spec(1.0),
+        common.supply_spec(12.0, "supply voltage (emitter rail of a PNP source)"),
+        common.load_spec(6.0),
     )
 
 
@@ -140,7 +140,8 @@ def _build(polarity, reference):
     c.node("e")
     rail = "0" if npn else "cc"
     if reference == "ideal":
-        i_ref = c.operating_value("I_REF", c.parameter("i_ref"))
+        i_ref = c.operating_value(
+            "I_REF", c.parameter("i_ref") * (1 + c.parameter("i_ref_tc") * (c.temp - c.t_ref)))
         c.current_source(*(("cc", "b") if npn else ("b", "0")), i_ref)
     else:
         r_ref = c.resistor("R_REF", *(("cc", "b") if npn else ("b", "0")), "r_ref")
@@ -205,17 +206,19 @@ def degenerated_output_resistance(r_o, beta, r_pi, r_e, r_b):
     Examples
     --------
     >>> round(degenerated_output_resistance(1e5, 100.0, 2500.0, 1e3, 0.0) / 1e6, 4)
-    2.9578
+    2.9579
     """
     return r_o * (1 + beta * r_e / (r_e + r_pi + r_b)) + r_e * (r_pi + r_b) / (r_e + r_pi + r_b)
 
 
 def _small_signal(c, name):
+    """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of ``name`` (same model, own junction V_T)."""
     import sympy as sp
 
     j = c.transistors[name]
+    v_t = sp.Symbol(f"V_T_{name}", positive=True)
     v_a = sp.Symbol(f"V_A_{name}", positive=True)
-    return {"g_m": j["i_c"] / c.v_t, "r_pi": c.v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
+    return {"g_m": j["i_c"] / v_t, "r_pi": v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
             "beta": j["i_c"] / j["i_b"]}
 
 
@@ -240,7 +243,8 @@ def guess(model, q):
 
     npn = model.polarity == "npn"
     v_t, b1, b2 = op("V_T"), op("beta_Q1"), op("beta_Q2")
-    current = model.closed_forms(q)["first_order_beta"]
+    with np.errstate(invalid="ignore", divide="ignore"):  # far outside compliance the forms fail
+        current = model.closed_forms(q)["first_order_beta"]
     if "I_REF" in index:
         i_ref = op("I_REF")
         current = np.where(np.isfinite(current) & (current > 0), current, 1e-3 * i_ref)
@@ -251,13 +255,14 @@ def guess(model, q):
         i_c1 = v_t / k * np.real(wrightomega(v_cc / v_t + np.log(op("I_S_Q1") * k / v_t)))
         current = np.where(np.isfinite(current) & (current > 0), current, 1e-3 * i_c1)
     i_c1 = np.maximum(i_c1, 1e-3 * current)
-    h_b = v_t * np.log(i_c1 / op("I_S_Q1"))
+    h_b = op("V_T_Q1") * np.log(i_c1 / op("I_S_Q1"))
     h_e = current * (1 + 1 / b2) * op("R_E")
     rail = 0.0 if npn else op("V_CC")
     h_out = op("V_OUT") - rail if npn else rail - op("V_OUT")
-    # A saturated Q2 pulls its base towards its collector.
+    # A saturated Q2 pulls its base towards its collector, and in deep saturation
+    # its emitter follows the collector too.
     h_b = np.minimum(h_b, h_out + SATURATED_VBC_GUESS)
-    h_e = np.clip(h_e, 0.0, np.maximum(h_b - 0.5, 0.0))
+    h_e = np.minimum(h_e, h_out + SATURATED_VCE_GUESS)
     sign = 1.0 if npn else -1.0
     heights = {"V_b": h_b, "V_e": h_e}
     return np.stack([rail + sign * heights[name] for name in model.unknowns])
@@ -275,50 +280,32 @@ def reference_headroom(points):
 # schematic
 
 def _draw(design, d, reference):
+    """Q1 (diode, facing left) and Q2 on one base line; R_E under Q2; the reference above Q1.
+
+    The PNP picture is the NPN one mirrored top to bottom.
+    """
     import schemdraw.elements as elm
 
-    from kit.quantities import format_quantity
-    from kit.schematic import value_label
+    from kit.topologies import mirrors_common as common
 
     npn = design.polarity == "npn"
-    supply = f"V_CC {format_quantity(design.values['v_supply'], 'V')}"
-    up = 1.0 if npn else -1.0  # PNP: the NPN drawing upside down
-    bjt = elm.BjtNpn if npn else elm.BjtPnp
-
-    def part(element, right):
-        element = element(circle=True)
-        element = element if right else element.reverse()
-        return element.flip() if not npn else element
-
-    rail_y = 0.0
-    q1 = part(bjt, right=False).at((0.0, up * 1.6)).anchor("center").label("Q1", loc="left")
-    q2 = part(bjt, right=True).at((2.6, up * 2.4)).anchor("base").label(
-        f"Q2 (×{design.values['n_area']:g})", loc="right")
-    elm.Line().at(q1.base).to(q2.base)
-    elm.Dot().at(q1.base)
-    elm.Line().at(q1.collector).tox(q1.base[0] + 0.4)
-    elm.Line().toy(q2.base[1])
-    elm.Line().at(q1.emitter).toy(rail_y)
-    elm.Resistor().at(q2.emitter).toy(rail_y).label(value_label(design, "r_e", "R_E"),
-                                                     loc="bottom" if npn else "top")
-    elm.Line().at((q1.emitter[0], rail_y)).tox(q2.emitter[0])
-    if npn:
-        elm.Ground().at((q1.emitter[0], rail_y))
-    else:
-        elm.Vdd().at((q1.emitter[0], rail_y)).flip().label(supply, loc="bottom")
-    feed = (q1.base[0] + 0.4, q2.base[1])
-    elm.Dot().at(feed)
-    ref_end = (feed[0], feed[1] + up * 3.0)
-    if reference == "ideal":
-        elm.SourceI().at(ref_end).to(feed).label(value_label(design, "i_ref", "I_REF"), loc="left")
-    else:
-        elm.Resistor().at(ref_end).to(feed).label(value_label(design, "r_ref", "R_REF"), loc="top")
-    if npn:
-        elm.Vdd().at(ref_end).label(supply)
-    else:
-        elm.Ground().at(ref_end).flip()
-    elm.Line().at(q2.collector).toy(q2.collector[1] + up * 0.8)
-    elm.Dot(open=True).label("load (sink)" if npn else "load (source)", loc="right")
+    s = 1.0 if npn else -1.0
+    q1 = common.transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
+    common.emitter_return(design, d, q1.emitter, npn)
+    elm.Line().at(q1.base).right(common.GAP)
+    q2 = common.transistor(npn, label=f"Q2\nN = {design.values['n_area']:g}").anchor("base")
+    common.emitter_return(design, d, q2.emitter, npn, resistor="r_e", designator="R_E")
+    common.output_terminal(q2.collector, npn)
+    # Diode connection: Q1's collector strapped to the base line.
+    node = (q1.collector[0], q1.collector[1] + s * 0.6)
+    elm.Line().at(q1.collector).to(node)
+    elm.Dot().at(node)
+    elm.Line().at(node).tox(q1.base[0] + 0.8)
+    elm.Line().toy(q1.base[1])
+    elm.Dot()
+    common.reference_feed(design, d, node, npn, resistor="r_ref" if reference != "ideal" else None)
+    # schemdraw underestimates text width: leave room for the reference's label.
+    elm.Gap().at((node[0], node[1] + s * 1.5)).left(LABEL_ROOM)
 
 
 def draw_ideal(design, d):
@@ -359,6 +346,7 @@ TOPOLOGIES = (
         limits=reference_headroom,
         extras=EXTRAS,
         notes=NOTES,
+        budget_labels={"I_REF": "reference current I_REF"},
     ),
     Topology(
         key="widlar_resistor_reference",

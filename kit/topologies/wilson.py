@@ -41,9 +41,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from kit.topologies.base import Simplification, Topology, ValueSpec
+from kit.topologies.base import Simplification, Topology
 
 SATURATED_VBC_GUESS = 0.55  # V; forward bias of a saturated output collector junction
+LABEL_ROOM = 1.8  # drawing units left of the reference source for its two-line label
 
 NOTES = (
     "The mirror closes a local feedback loop through Q3 and Q1: with a capacitive load it "
@@ -55,13 +56,12 @@ NOTES = (
 
 
 def _values(default_i_ref, default_supply, default_load):
-    return (
-        ValueSpec("i_ref", "A", "reference current into the input node", default_i_ref, 1e-9, 0.1),
-        ValueSpec("v_supply", "V", "supply voltage feeding the reference current", default_supply,
-                  1.0, 1000.0, "supply"),
-        ValueSpec("v_load", "V", "output (load) voltage against 0 V", default_load,
-                  -1000.0, 1000.0, "load"),
-    )
+    from kit.topologies import mirrors_common as common
+
+    return (common.i_ref_spec(default_i_ref), common.I_REF_TC,
+            common.supply_spec(default_supply, "supply voltage feeding the reference current "
+                                               "(emitter rail of a PNP mirror)"),
+            common.load_spec(default_load))
 
 
 WILSON_SOURCE = ("Wilson, IEEE J. Solid-State Circuits SC-3 (1968); Gray, Hurst, Lewis & Meyer, "
@@ -130,13 +130,12 @@ def hybrid_pi_output_resistance(nodes, output, resistors=(), transistors=()):
     import sympy as sp
 
     index = {n: k for k, n in enumerate(nodes)}
-    size = len(nodes)
-    conductance = sp.zeros(size, size)
-    drive = sp.zeros(size, 1)  # currents injected into the floating nodes by v_out = 1
-    into_output = [sp.Integer(0), sp.Integer(0)]  # [constant part, unused]
+    conductance = sp.zeros(len(nodes), len(nodes))
+    drive = sp.zeros(len(nodes), 1)  # currents forced into the floating nodes by v_test = 1
+    test_current = []  # (floating node or None, coefficient) of the current leaving the output
 
     def stamp(a, b, c, d, g):
-        """Current g (v_c - v_d) flowing from node a to node b (leaving a)."""
+        """A current g (v_c - v_d) leaving node a and entering node b."""
         for node, sign in ((a, 1), (b, -1)):
             for ctrl, csign in ((c, 1), (d, -1)):
                 value = sign * csign * g
@@ -144,34 +143,34 @@ def hybrid_pi_output_resistance(nodes, output, resistors=(), transistors=()):
                     conductance[index[node], index[ctrl]] += value
                 elif node in index and ctrl == output:
                     drive[index[node]] -= value
-                elif node == output and ctrl in index:
-                    pending.append((ctrl, value))
-                elif node == output and ctrl == output:
-                    into_output[0] += value
+                elif node == output and (ctrl in index or ctrl == output):
+                    test_current.append((ctrl if ctrl in index else None, value))
 
-    pending = []
     for a, b, r in resistors:
         stamp(a, b, a, b, 1 / r)
     for base, collector, emitter, g_m, r_pi, r_o in transistors:
         stamp(base, emitter, base, emitter, 1 / r_pi)
         stamp(collector, emitter, base, emitter, g_m)
         stamp(collector, emitter, collector, emitter, 1 / r_o)
-    if size:
-        voltages = conductance.LUsolve(drive)
-    else:
-        voltages = []
-    current = into_output[0] + sum((value * voltages[index[ctrl]] for ctrl, value in pending),
-                                   sp.Integer(0))
+    voltages = conductance.LUsolve(drive) if nodes else []
+    current = sum((value * (1 if ctrl is None else voltages[index[ctrl]])
+                   for ctrl, value in test_current), sp.Integer(0))
     return 1 / current
 
 
 def _small_signal(c, name):
-    """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of transistor ``name`` at the exact point."""
+    """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of transistor ``name`` at the exact point.
+
+    Built from the same model as the exact equations (M-CE Early form):
+    ``g_m = I_C/V_T``, ``r_π = V_T/I_B``, ``r_o = (V_A + V_CE)/I_C``, each with
+    the transistor's own junction V_T.
+    """
     import sympy as sp
 
     j = c.transistors[name]
+    v_t = sp.Symbol(f"V_T_{name}", positive=True)
     v_a = sp.Symbol(f"V_A_{name}", positive=True)
-    return {"g_m": j["i_c"] / c.v_t, "r_pi": c.v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
+    return {"g_m": j["i_c"] / v_t, "r_pi": v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
             "beta": j["i_c"] / j["i_b"]}
 
 
@@ -218,7 +217,8 @@ def _build(polarity, four):
     for node in ("x", "y") + (("w",) if four else ()):
         c.node(node)
     rail = "0" if npn else "cc"
-    i_ref = c.operating_value("I_REF", c.parameter("i_ref"))
+    i_ref = c.operating_value(
+        "I_REF", c.parameter("i_ref") * (1 + c.parameter("i_ref_tc") * (c.temp - c.t_ref)))
     if npn:
         c.current_source("cc", "x", i_ref)
     else:
@@ -277,90 +277,93 @@ def guess(model, q):
         return q[index[name]]
 
     npn = model.polarity == "npn"
-    v_t = op("V_T")
-    current = model.closed_forms(q)["finite_beta"]
+    with np.errstate(invalid="ignore", divide="ignore"):  # far outside compliance the forms fail
+        current = model.closed_forms(q)["finite_beta"]
     current = np.where(np.isfinite(current) & (current > 0), current, op("I_REF"))
     b1, b2, b3 = op("beta_Q1"), op("beta_Q2"), op("beta_Q3")
     a = op("I_S_Q1") / op("I_S_Q2")
     i_c2 = current * (b3 + 1) / b3 / (1 + 1 / b2 + a / b1)
-    h_y = v_t * np.log(i_c2 / op("I_S_Q2"))
-    h_x = h_y + v_t * np.log(current / op("I_S_Q3"))
+    h_y = op("V_T_Q2") * np.log(i_c2 / op("I_S_Q2"))
+    h_x = h_y + op("V_T_Q3") * np.log(current / op("I_S_Q3"))
     rail = 0.0 if npn else op("V_CC")
     h_out = op("V_OUT") - rail if npn else rail - op("V_OUT")
-    # A saturated Q3 clamps the input node a junction drop beyond its collector.
+    # A saturated Q3 clamps the input node a junction drop beyond its collector;
+    # once the output falls below node y, Q3 drags y down with it.
     h_x = np.minimum(h_x, h_out + SATURATED_VBC_GUESS)
-    h_y = np.minimum(h_y, h_x - 0.3)
+    h_y = np.minimum(h_y, np.minimum(h_x - 0.3, h_out))
     heights = {"V_x": h_x, "V_y": h_y}
     if "V_w" in model.unknowns:
         i_c4 = a * i_c2 * op("beta_Q4") / (op("beta_Q4") + 1)
-        heights["V_w"] = h_x - v_t * np.log(i_c4 / op("I_S_Q4"))
+        heights["V_w"] = h_x - op("V_T_Q4") * np.log(i_c4 / op("I_S_Q4"))
     sign = 1.0 if npn else -1.0
     return np.stack([rail + sign * heights[name] for name in model.unknowns])
+
+
+def reference_headroom(points):
+    """Margin of the ideal reference current: the input node must stay inside the supply.
+
+    Returns ``{("I_REF", "has_no_headroom"): volts}`` (>= 0 inside), for
+    :func:`kit.compliance.margins`.
+    """
+    m = points.model
+    v_x = points.x[m.unknowns.index("V_x")]
+    v_cc = points.q[m.operating_index["V_CC"]]
+    return {("I_REF", "has_no_headroom"): v_cc - v_x if m.polarity == "npn" else v_x}
 
 
 # ---------------------------------------------------------------------------
 # schematic
 
 def _draw(design, d, four):
+    """Q1 (facing left) and diode Q2 on one base line, Q3 above Q2, I_REF above Q1.
+
+    The PNP picture is the NPN one mirrored top to bottom (``s`` = -1).
+    """
     import schemdraw.elements as elm
 
-    from kit.quantities import format_quantity
-    from kit.schematic import value_label
+    from kit.topologies import mirrors_common as common
 
     npn = design.polarity == "npn"
-    bjt = elm.BjtNpn if npn else elm.BjtPnp
-    flip = not npn  # PNP drawing is the NPN one upside down
-    supply = format_quantity(design.values["v_supply"], "V")
-    i_ref = value_label(design, "i_ref", "I_REF")
-
-    # Q2 (diode) on the left, Q1 beside it facing left, Q3 above Q1 facing right.
-    q2 = bjt(circle=True).reverse().flip() if flip else bjt(circle=True).reverse()
-    q2 = q2.at((0, 0)).anchor("center").label("Q2", loc="left")
-    q1 = (bjt(circle=True).flip() if flip else bjt(circle=True))
-    q1 = q1.at((2.6, 0)).anchor("center").label("Q1", loc="right")
-    elm.Wire("-|").at(q2.base).to(q1.base)
-    elm.Line().at(q2.collector).tox(q2.base)
-    elm.Dot().at(q2.base)
-    step = 1.0 if npn else -1.0
-    rail_y = q1.emitter[1] - step * 0.6
-    elm.Line().at(q2.emitter).toy(rail_y)
-    elm.Line().at(q1.emitter).toy(rail_y)
-    elm.Line().at((q2.emitter[0], rail_y)).tox(q1.emitter[0])
-    if npn:
-        elm.Ground().at((q1.emitter[0], rail_y))
-    else:
-        elm.Vdd().at((q1.emitter[0], rail_y)).flip().label(f"V_CC {supply}", loc="bottom")
+    s = 1.0 if npn else -1.0
+    q1 = common.transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
+    common.emitter_return(design, d, q1.emitter, npn)
+    elm.Line().at(q1.base).right(common.GAP)
+    q2 = common.transistor(npn, label="Q2").anchor("base")
+    common.emitter_return(design, d, q2.emitter, npn)
+    # Q2 diode: collector strapped to the base line; this is node y.
+    y_node = (q2.collector[0], q2.collector[1] + s * 0.5)
+    elm.Line().at(q2.collector).to(y_node)
+    strap = (q2.base[0] - 0.6, y_node[1])
+    elm.Line().at(y_node).to(strap)
+    elm.Line().at(strap).toy(q2.base[1])
+    elm.Dot().at((strap[0], q2.base[1]))
+    elm.Dot().at(y_node)
+    # Q3 above node y; its emitter comes down to y.
+    q3 = common.transistor(npn, label="Q3").anchor("emitter").at(
+        (y_node[0], y_node[1] + s * 1.4))
+    elm.Line().at(q3.emitter).to(y_node)
+    common.output_terminal(q3.collector, npn)
     top = q1.collector
     if four:
-        q4 = (bjt(circle=True).reverse().flip() if flip else bjt(circle=True).reverse())
-        q4 = q4.at((q1.collector[0] + 0.55, q1.collector[1] + step * 1.6)).anchor("center")
-        q4.label("Q4", loc="left")
+        # Q4 diode between Q1's collector (w) and the input node x, strapped on its left.
+        q4 = common.transistor(npn, label="Q4").anchor("emitter").at(
+            (q1.collector[0], q1.collector[1] + s * 0.5))
         elm.Line().at(q1.collector).to(q4.emitter)
-        elm.Line().at(q4.collector).tox(q4.base)
-        elm.Dot().at(q4.base)
-        top = q4.collector
-    x_node = (top[0], top[1] + step * 0.7)
-    elm.Line().at(top).to(x_node)
-    elm.Dot().at(x_node)
-    q3 = bjt(circle=True).flip() if flip else bjt(circle=True)
-    q3 = q3.at((x_node[0] + 1.6, x_node[1] + step * 0.6)).anchor("base").label("Q3", loc="right")
-    elm.Line().at(x_node).to(q3.base)
-    # Q3's emitter returns to node y (the bases of Q1 and Q2).
-    y_node = (q2.base[0] + (q1.base[0] - q2.base[0]) / 2 + 0.6, q2.base[1])
-    elm.Wire("|-").at(q3.emitter).to((q3.emitter[0], q1.base[1] + step * 0.0)).linewidth(0)
-    elm.Line().at(q3.emitter).toy(q1.base[1] - step * 0.9)
-    elm.Line().tox(y_node[0])
-    elm.Line().toy(q1.base[1])
-    elm.Dot().at((y_node[0], q1.base[1]))
-    # Reference current into x from the supply (PNP: out of x to 0 V).
-    src_top = (x_node[0], x_node[1] + step * 2.6)
-    elm.SourceI().at(src_top).to(x_node).label(i_ref, loc="left" if npn else "right")
-    if npn:
-        elm.Vdd().at(src_top).label(f"V_CC {supply}")
+        top = (q4.collector[0], q3.base[1])
+        elm.Line().at(q4.collector).to(top)
+        knee = (q4.base[0] - 0.4, q4.base[1])
+        elm.Line().at(q4.base).to(knee)
+        elm.Line().at(knee).toy(top[1] - s * 0.3)
+        elm.Line().tox(top[0])
+        elm.Dot().at((top[0], top[1] - s * 0.3))
     else:
-        elm.Ground().at(src_top).flip()
-    elm.Line().at(q3.collector).toy(q3.collector[1] + step * 0.8)
-    elm.Dot(open=True).label("load (sink)" if npn else "load (source)", loc="right")
+        top = (q1.collector[0], q3.base[1])
+        elm.Line().at(q1.collector).to(top)
+    elm.Dot().at(top)
+    elm.Line().at(top).to(q3.base)
+    common.reference_feed(design, d, top, npn)
+    # schemdraw underestimates text width: leave room for the I_REF label.
+    elm.Gap().at((top[0], top[1] + s * 1.5)).left(LABEL_ROOM)
 
 
 def draw_wilson(design, d):
@@ -377,6 +380,8 @@ EXTRAS = {
     "r_out_hybrid_pi": "R_out, exact hybrid-π nodal analysis of the mirror (derived here)",
     "r_out_beta_ro_half": "R_out ≈ β r_o3 / 2 (Gray et al., ch. 4, from memory)",
 }
+
+BUDGET_LABELS = {"I_REF": "reference current I_REF"}
 
 TOPOLOGIES = (
     Topology(
@@ -396,6 +401,8 @@ TOPOLOGIES = (
         draw=draw_wilson,
         extras=EXTRAS,
         notes=NOTES,
+        limits=reference_headroom,
+        budget_labels=BUDGET_LABELS,
     ),
     Topology(
         key="improved_wilson_mirror",
@@ -414,5 +421,7 @@ TOPOLOGIES = (
         draw=draw_improved,
         extras=EXTRAS,
         notes=NOTES,
+        limits=reference_headroom,
+        budget_labels=BUDGET_LABELS,
     ),
 )

@@ -1,0 +1,305 @@
+"""What the design panel draws: columns of numbers from the kit's own sweeps.
+
+No physics here.  Every current comes from :func:`kit.evaluation.sweep` (one
+call for the load-voltage, gain and temperature curves together, its
+parameter overrides broadcast as arrays) or, for the self-heated curve,
+:func:`kit.analysis.temperature.temperature_sweep`; operating regions and
+closed forms come from the returned :class:`kit.solve.OperatingPoints`.
+This module only picks the ranges, slices the result and scales it for the
+axes.  It imports no Bokeh, so benchmarks and tests can call it alone.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from kit.analysis.temperature import temperature_sweep
+from kit.devices import KINDS
+from kit.evaluation import sweep
+from kit.quantities import kelvin_to_celsius
+from kit.panels import theme
+
+POINTS = 200
+HEATED_POINTS = 41  # the self-heated sweep iterates per point: fewer points
+BETA_SPAN = 0.5  # ±50 % of nominal when no spec gives a gain range
+SPEC_MARGIN = 0.25  # the gain axis reaches this fraction of the spec range beyond each end
+LOAD_HEADROOM = 0.12  # space above the curves for the edge labels
+DEFAULT_TEMPS = (233.15, 398.15)  # K: -40 … 125 °C, a common rated range (no source)
+LOAD_PAD = 0.08  # fraction of the compliance span drawn beyond each edge ...
+LOAD_PAD_LIMITS = (0.5, 2.0)  # V: ... at least and at most; deep saturation only squashes the plot
+
+SOURCES = ("load", "load_forms", "load_outside", "load_edges", "load_point",
+           "beta", "beta_point", "beta_band",
+           "temp", "temp_heated", "temp_point", "temp_band",
+           "sensitivity", "tempco")
+
+
+@dataclass(frozen=True)
+class Settings:
+    """How the panel draws (none of it changes the design).
+
+    common_beta : one gain slider for every bipolar transistor; the gain curve
+        then scales every transistor's β_F together.
+    self_heating : add the self-heated curve to the temperature plot (slower).
+    points : points per swept curve.
+    """
+
+    common_beta: bool = True
+    self_heating: bool = False
+    points: int = POINTS
+
+
+@dataclass
+class PlotData:
+    """Source name -> columns, plus the axis texts and category orders."""
+
+    columns: dict
+    labels: dict = field(default_factory=dict)  # figure -> {"title", "x", "y"}
+    factors: dict = field(default_factory=dict)  # bar figure -> categories, bottom first
+    scale: tuple = (1.0, "A")
+
+
+def gain_transistors(design):
+    """Transistors that have a forward current gain β_F, in topology order."""
+    return [name for name, model in design.devices.items() if "beta_f" in model.numbers()]
+
+
+def swept_gains(design, settings):
+    """``(shown, varied)``: the transistor on the gain axis and those that move with it."""
+    gains = gain_transistors(design)
+    if not gains:
+        return None, []
+    out = design.spec.output_transistor
+    shown = out if out in gains else gains[0]
+    return shown, (gains if settings.common_beta else [shown])
+
+
+def load_range(evaluation):
+    """Load voltages across compliance and a margin beyond each edge."""
+    low, high = evaluation.compliance.low.voltage, evaluation.compliance.high.voltage
+    pad = min(max(LOAD_PAD * (high - low), LOAD_PAD_LIMITS[0]), LOAD_PAD_LIMITS[1])
+    v_load = evaluation.design.values["v_load"]
+    return min(low - pad, v_load), max(high + pad, v_load)
+
+
+def beta_range(design, spec, name):
+    """``(low, high, spec bounds or None)`` of the gain axis for transistor ``name``.
+
+    The spec's range with a quarter of it beyond each end (so its band shows
+    where it stops), else ±50 % of nominal; always holding the nominal gain.
+    """
+    nominal = design.devices[name].beta_f
+    bounds = None
+    if spec is not None:
+        bounds = spec.beta.get(name) or spec.beta.get(design.devices[name].polarity)
+    if bounds is None:
+        return nominal * (1 - BETA_SPAN), nominal * (1 + BETA_SPAN), None
+    reach = SPEC_MARGIN * (bounds[1] - bounds[0])
+    return max(min(bounds[0] - reach, nominal), 1.0), max(bounds[1] + reach, nominal), tuple(bounds)
+
+
+def temp_range(design, spec):
+    """``(low, high, spec bounds or None)`` in K: -40 … 125 °C, widened to the spec's range and the design's."""
+    bounds = tuple(spec.temp) if spec is not None and spec.temp is not None else None
+    low, high = DEFAULT_TEMPS if bounds is None else (min(bounds[0], DEFAULT_TEMPS[0]), max(bounds[1], DEFAULT_TEMPS[1]))
+    return min(low, design.temp), max(high, design.temp), bounds
+
+
+def _exact(points, block):
+    current = np.where(points.converged, points.i_out, np.nan)[block]
+    return np.where(np.isfinite(current), current, np.nan)
+
+
+def _runs(mask):
+    """(start, stop) index pairs of the True stretches of ``mask`` (stop exclusive)."""
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], mask.astype(int), [0]])))
+    return list(zip(edges[::2], edges[1::2]))
+
+
+def _outside(design, evaluation, points, block, x):
+    """Stretches of load voltage where a transistor leaves the region it needs."""
+    good = points.in_good_region(evaluation.edge, design.devices)[block] & points.converged[block]
+    regions = {n: r[block] for n, r in points.regions(evaluation.edge, design.devices).items()}
+    spans = []
+    for start, stop in _runs(~good):
+        what = set()
+        for k in range(start, stop):
+            if not points.converged[block][k]:
+                what.add("no converged solve")
+                continue
+            for name, region in regions.items():
+                if region[k] != KINDS[design.spec.kind_of(name)].GOOD_REGION:
+                    what.add(f"{name} {region[k]}")
+        left = x[start] if start == 0 else 0.5 * (x[start - 1] + x[start])
+        right = x[stop - 1] if stop == len(x) else 0.5 * (x[stop - 1] + x[stop])
+        spans.append((left, right, ", ".join(sorted(what))))
+    return spans
+
+
+def _extent(*arrays):
+    values = np.concatenate([np.ravel(a) for a in arrays if np.size(a)] or [np.zeros(1)])
+    values = values[np.isfinite(values)]
+    if values.size == 0:
+        return 0.0, 1.0
+    low, high = float(values.min()), float(values.max())
+    pad = 0.04 * (high - low) if high > low else max(abs(high), 1.0) * 0.05
+    return low - pad, high + pad
+
+
+def plot_data(design, evaluation, spec=None, settings=Settings()):
+    """Columns for every panel source, from one batched exact sweep.
+
+    Parameters
+    ----------
+    design : kit.designs.Design
+    evaluation : kit.evaluation.Evaluation
+        ``kit.evaluate(design)``; its compliance sets the load-voltage axis.
+    spec : kit.analysis.spec.Spec, optional
+        Gives the gain and temperature ranges.
+    settings : Settings
+
+    Returns
+    -------
+    PlotData
+
+    Examples
+    --------
+    >>> import kit
+    >>> d = kit.design("divider_source")
+    >>> data = plot_data(d, kit.evaluate(d), settings=Settings(points=20))
+    >>> len(data.columns["load"]["i_out"]), data.scale[1]
+    (20, 'µA')
+    """
+    n = settings.points
+    params = design.parameters()
+    factor, unit = scale = theme.current_scale(evaluation.i_out)
+    v_axis = np.linspace(*load_range(evaluation), n)
+    t_low, t_high, t_spec = temp_range(design, spec)
+    t_axis = np.linspace(t_low, t_high, n)
+    shown, varied = swept_gains(design, settings)
+    blocks = 3 if shown else 2
+    # One solve for all curves: block 0 sweeps the load, block 1 the gain, the last the temperature.
+    v_column = np.concatenate([v_axis, np.full((blocks - 1) * n, params["v_load"])])
+    overrides = {"temp": np.concatenate([np.full((blocks - 1) * n, params["temp"]), t_axis])}
+    if shown:
+        b_low, b_high, b_spec = beta_range(design, spec, shown)
+        b_axis = np.linspace(b_low, b_high, n)
+        ratio = b_axis / params[f"{shown}.beta_f"]
+        for name in gain_transistors(design):
+            nominal = params[f"{name}.beta_f"]
+            column = np.full(blocks * n, nominal)
+            if name in varied:
+                column[n:2 * n] = nominal * ratio  # moved in proportion to the one on the axis
+            overrides[f"{name}.beta_f"] = column
+    points = sweep(design, "v_load", v_column, **overrides)
+    load, temp = slice(0, n), slice((blocks - 1) * n, blocks * n)
+    columns, labels, factors = {}, {}, {}
+
+    # 1. load voltage, with every closed form of the ledger
+    i_load = _exact(points, load)
+    forms = points.model.closed_forms(points.q)
+    simplifications = design.spec.simplifications
+    form_ys = [np.where(np.isfinite(forms[s.key][load]), forms[s.key][load], np.nan) for s in simplifications]
+    columns["load"] = {"v_load": v_axis, "i_out": i_load, "y": i_load / factor}
+    columns["load_forms"] = {
+        "xs": [v_axis] * len(form_ys), "ys": [y / factor for y in form_ys],
+        "i_out": form_ys, "key": [s.key for s in simplifications],
+        "label": [s.label for s in simplifications],
+        "colour": [theme.FORMS[k % len(theme.FORMS)] for k in range(len(form_ys))],
+        "dash": [theme.DASHES[k % len(theme.DASHES)] for k in range(len(form_ys))]}
+    # The plot's vertical range (set by the edge segments) follows the curves inside compliance
+    # and zero: beyond the low edge a saturated transistor may reverse the current, which
+    # would squash the plateau.
+    inside = (v_axis >= evaluation.compliance.low.voltage) & (v_axis <= evaluation.compliance.high.voltage)
+    y_low, y_high = _extent(np.zeros(1), i_load[inside] / factor, *(y[inside] / factor for y in form_ys))
+    y_high += LOAD_HEADROOM * (y_high - y_low)
+    spans = _outside(design, evaluation, points, load, v_axis)
+    columns["load_outside"] = {"left": [s[0] for s in spans], "right": [s[1] for s in spans],
+                               "bottom": [y_low] * len(spans), "top": [y_high] * len(spans),
+                               "what": [s[2] for s in spans]}
+    c = evaluation.compliance
+    columns["load_edges"] = {"x": [c.low.voltage, c.high.voltage], "y0": [y_low, y_low],
+                             "y1": [y_high, y_high], "y_text": [y_low, y_low],
+                             "text": [f"low edge: {c.low.describe()}", f"high edge: {c.high.describe()}"],
+                             "align": ["left", "right"], "offset": [4, -4]}
+    columns["load_point"] = {"x": [params["v_load"]], "y": [evaluation.i_out / factor],
+                             "i_out": [evaluation.i_out]}
+    labels["load"] = {"title": "Output current against load voltage, across and beyond compliance",
+                      "x": "load voltage V_load (V)", "y": f"I_out ({unit})"}
+
+    # 2. forward gain
+    if shown:
+        i_beta = _exact(points, slice(n, 2 * n))
+        columns["beta"] = {"beta": b_axis, "i_out": i_beta, "y": i_beta / factor}
+        columns["beta_point"] = {"x": [params[f"{shown}.beta_f"]], "y": [evaluation.i_out / factor],
+                                 "i_out": [evaluation.i_out]}
+        others = [t for t in varied if t != shown]
+        how = f"{', '.join(others)} scaled alike" if others else \
+            ("others fixed" if len(gain_transistors(design)) > 1 else "")
+        labels["beta"] = {"title": "Output current against forward gain" + (" (spec range shaded)" if b_spec else ""),
+                          "x": f"β_F of {shown}" + (f" ({how})" if how else ""), "y": f"I_out ({unit})"}
+        band = b_spec
+    else:
+        columns["beta"] = {"beta": np.zeros(0), "i_out": np.zeros(0), "y": np.zeros(0)}
+        columns["beta_point"] = {"x": [], "y": [], "i_out": []}
+        labels["beta"] = {"title": "No bipolar transistor here: β_F does not apply",
+                          "x": "β_F", "y": f"I_out ({unit})"}
+        band = None
+    b_low_y, b_high_y = _extent(columns["beta"]["y"])
+    columns["beta_band"] = _band(band, b_low_y, b_high_y)
+
+    # 3. temperature
+    i_temp = _exact(points, temp)
+    t_celsius = kelvin_to_celsius(t_axis)
+    columns["temp"] = {"temp_c": t_celsius, "temp": t_axis, "i_out": i_temp, "y": i_temp / factor}
+    if settings.self_heating:
+        heated = temperature_sweep(design, (t_low, t_high), points=HEATED_POINTS)
+        columns["temp_heated"] = {"temp_c": kelvin_to_celsius(heated.temps), "temp": heated.temps,
+                                  "i_out": heated.i_out_heated, "y": heated.i_out_heated / factor}
+    else:
+        columns["temp_heated"] = {"temp_c": np.zeros(0), "temp": np.zeros(0), "i_out": np.zeros(0),
+                                  "y": np.zeros(0)}
+    columns["temp_point"] = {"x": [kelvin_to_celsius(design.temp)], "y": [evaluation.i_out / factor],
+                             "i_out": [evaluation.i_out]}
+    t_low_y, t_high_y = _extent(columns["temp"]["y"], columns["temp_heated"]["y"])
+    columns["temp_band"] = _band(None if t_spec is None else tuple(kelvin_to_celsius(np.array(t_spec))),
+                                 t_low_y, t_high_y)
+    labels["temp"] = {"title": "Output current against temperature" + (" (spec range shaded)" if t_spec else ""),
+                      "x": "temperature (°C)", "y": f"I_out ({unit})"}
+
+    # 4. normalised sensitivities, largest on top
+    ranked = sorted((s for s in evaluation.sensitivities if s.parameter != "temp"),
+                    key=lambda s: abs(s.normalised))
+    columns["sensitivity"] = {
+        "name": [s.parameter for s in ranked], "value": [s.normalised for s in ranked],
+        "text": [f"{s.normalised:+.3f}" for s in ranked],
+        "colour": [theme.RAISES if s.normalised >= 0 else theme.LOWERS for s in ranked],
+        "anchor": ["left" if s.normalised >= 0 else "right" for s in ranked],
+        "offset": [4 if s.normalised >= 0 else -4 for s in ranked]}
+    factors["sensitivity"] = [s.parameter for s in ranked]
+    labels["sensitivity"] = {"title": "Normalised sensitivities S = (p / I_out) · dI_out/dp (exact)",
+                             "x": "S (dimensionless: % change of I_out per % change of p)", "y": "parameter p"}
+
+    # 5. tempco budget, total at the bottom
+    budget = sorted(evaluation.tempco_budget, key=lambda item: abs(item[1]))
+    names = ["total (exact)"] + [label for label, _ in budget]
+    ppm = [evaluation.tempco * 1e6] + [value * 1e6 for _, value in budget]
+    columns["tempco"] = {
+        "name": names, "value": ppm, "text": [f"{v:+.4g}" for v in ppm],
+        "colour": [theme.TOTAL] + [theme.RAISES if v >= 0 else theme.LOWERS for v in ppm[1:]],
+        "anchor": ["left" if v >= 0 else "right" for v in ppm],
+        "offset": [4 if v >= 0 else -4 for v in ppm]}
+    factors["tempco"] = names
+    labels["tempco"] = {"title": "Tempco budget: (1/I_out) dI_out/dT by mechanism",
+                        "x": "contribution (ppm/K)", "y": "mechanism"}
+    for name in SOURCES:
+        columns.setdefault(name, {})
+    return PlotData(columns, labels, factors, scale)
+
+
+def _band(bounds, low, high):
+    if bounds is None:
+        return {"left": [], "right": [], "bottom": [], "top": []}
+    return {"left": [bounds[0]], "right": [bounds[1]], "bottom": [low], "top": [high]}

@@ -1,0 +1,412 @@
+"""The design panel: every value of a design, live numbers, schematic and plots.
+
+:class:`DesignPanel` is built from the topology's value specs, so it serves
+any registered topology.  A change — typed, stepped, slid, or passed to
+:meth:`DesignPanel.update` by a script — goes one way: read and validate,
+build the new design, evaluate it with the kit, compute every plot column,
+and only when all of that succeeded show it.  A refused change leaves the
+design, the numbers and the plots as they were and says why in the message
+line.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, replace
+
+import ipywidgets as widgets
+
+import kit
+from kit import display
+from kit.analysis import eseries
+from kit.errors import DesignError, ParameterError
+from kit.panels import curves, inputs, plots, theme, views
+from kit.panels.ledger import ledger_html
+from kit.quantities import celsius_to_kelvin, kelvin_to_celsius, parse_quantity
+
+TEMP_SLIDER = (-55.0, 150.0)  # °C
+BETA_SLIDER = (10.0, 2000.0)
+SUPPLY_SLIDER = (0.25, 2.5)  # multiples of the supply the panel opened with
+
+
+@dataclass(frozen=True)
+class _State:
+    """Everything one design point shows; computed in full before anything is displayed."""
+
+    design: object
+    evaluation: object
+    data: object
+    headline: dict
+    schematic: str
+    ledger: str
+
+
+class DesignPanel:
+    """An interactive panel for one design (a bare ``panel`` in a cell shows it).
+
+    Parameters
+    ----------
+    design : kit.designs.Design
+        The starting point; it must evaluate (a script error raises here).
+    spec : kit.analysis.spec.Spec, optional
+        Gives the gain and temperature ranges of the plots, the E-series (from
+        its resistor tolerance) and adds the worst-case and standard-value views.
+    series : str, optional
+        E-series of the steppers (default from the spec, else E24).
+    settings : kit.panels.curves.Settings, optional
+    search : dict, optional
+        ``topologies=`` and ``polarities=`` for the standard-value search
+        (default: this design's topology and polarity).
+
+    Attributes
+    ----------
+    design, evaluation : the present (last good) design and its evaluation
+    sources : dict of name -> bokeh ColumnDataSource
+    figures : dict of name -> bokeh figure (the live ones)
+    message : str
+        Why the last change was refused ("" when it was applied).
+    timings : dict
+        Seconds taken by the phases of the last applied change.
+    widget : ipywidgets.VBox
+        The whole panel.
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.panels import DesignPanel
+    >>> panel = DesignPanel(kit.design("divider_source"))
+    >>> panel.update(r_e="2k0")
+    True
+    >>> panel.headline_text()["I_out"] == kit.evaluate(panel.design).headline()["I_out"]
+    True
+    >>> panel.update(r_e="abc"), panel.design.values["r_e"]
+    (False, 2000.0)
+    """
+
+    def __init__(self, design, spec=None, *, series=None, settings=None, search=None):
+        self.spec = spec
+        if series is None:
+            series = eseries.series_for_tolerance(spec.resistor_tolerance) \
+                if spec is not None and spec.resistor_tolerance else "E24"
+        eseries.decade_values(series)  # refuses an unknown series by name
+        self.series = series.upper()
+        self.settings = settings or curves.Settings()
+        self.message = ""
+        self.timings = {}
+        self.last_error = None
+        self._listeners = []
+        self._layout_key = None
+        self._state = state = self._compute(design, self.settings)
+        # Filled before the BokehModels wrap them: a model's first drawing is what it was built with.
+        self.figures, self.sources = plots.build(state.data)
+        self._build_widgets()
+        self._drawn = state  # what the BokehModels were built with
+        self.worst = self.search = None
+        if spec is not None:
+            from kit.panels.worst import SynthesisView, WorstCaseView
+
+            self.worst = WorstCaseView(self, spec)
+            self.search = SynthesisView(self, spec, **(search or {}))
+        self._build_tabs()
+        self._commit(state)
+
+    # -- public API -------------------------------------------------------------
+    @property
+    def design(self):
+        return self._state.design
+
+    @property
+    def evaluation(self):
+        return self._state.evaluation
+
+    @property
+    def plot_data(self):
+        """The :class:`kit.panels.curves.PlotData` the plots show now (columns, axis texts, current scale)."""
+        return self._state.data
+
+    def headline_text(self):
+        """Label -> text of the headline numbers, as :meth:`kit.evaluation.Evaluation.headline` gives them."""
+        return dict(self._state.headline)
+
+    def update(self, **changes):
+        """Change values the way the widgets do; returns True if the change was applied.
+
+        Keys are the topology's value names (``r_e="2k0"``, ``v_load=6``), ``temp``
+        (K, or text such as ``"85 degC"``), ``beta`` (β_F of every bipolar
+        transistor) and flat parameter names (``**{"Q1.beta_f": 150}``).  Text is
+        read by :func:`kit.quantities.parse_quantity`; numbers are SI.
+        """
+        return self._apply(lambda: self._changed(changes), changes)
+
+    def load(self, design):
+        """Show another design (any topology); returns True if it evaluates."""
+        return self._apply(lambda: design, {"design": f"{design.topology} ({design.polarity})"})
+
+    def step(self, name, direction):
+        """Move resistor ``name`` to the next standard value up (+1) or down (-1)."""
+        value = self.design.values[name]
+        near = eseries.neighbours(value, self.series, count=1)
+        if direction > 0:
+            target = min(v for v in near if v > value * (1 + 1e-9))
+        else:
+            target = max(v for v in near if v < value * (1 - 1e-9))
+        return self.update(**{name: float(target)})
+
+    def configure(self, *, series=None, common_beta=None, self_heating=None):
+        """Change how the panel draws (E-series of the steppers, gain sliders, self-heating curve)."""
+        if series is not None:
+            try:
+                eseries.decade_values(series)
+            except DesignError as err:
+                self._refuse(err, {"series": series})
+                return False
+            self.series = series.upper()  # only the steppers use it: nothing to recompute
+            self._show_values()
+        changes = {k: v for k, v in (("common_beta", common_beta), ("self_heating", self_heating))
+                   if v is not None and v != getattr(self.settings, k)}
+        if not changes:
+            return True
+        return self._apply(lambda: self.design, {}, settings=replace(self.settings, **changes), force=True)
+
+    def on_change(self, callback):
+        """Call ``callback(panel)`` after every applied change."""
+        self._listeners.append(callback)
+
+    def final_figures(self):
+        """Fresh static Bokeh figures of the present state (self-heated curve included), for reports.
+
+        An exported page keeps a live widget's first drawing, so a report draws these.
+        """
+        settings = replace(self.settings, self_heating=True)
+        data = curves.plot_data(self.design, self.evaluation, self.spec, settings)
+        figures, _ = plots.build(data)
+        return figures
+
+    @property
+    def ledger_html(self):
+        """The derivation and ledger view as HTML with LaTeX."""
+        return self._state.ledger
+
+    def _ipython_display_(self):
+        from IPython.display import display as show
+
+        from kit.panels.notebook import load_bokeh
+
+        load_bokeh()
+        self.refresh_drawings()
+        show(self.widget)
+
+    def refresh_drawings(self, force=False):
+        """Re-send the Bokeh drawings whole if they changed since they were last sent.
+
+        A view opened later starts from a BokehModel's stored drawing; changes made
+        before any view existed reach no view.
+        """
+        if force or self._drawn is not self._state:
+            for name, model in self.bokeh.items():
+                model.update_from_model(self.figures[name])
+            self._drawn = self._state
+        if self.worst is not None:
+            self.worst.refresh_drawings(force)
+
+    def _repr_mimebundle_(self, **kwargs):
+        return self.widget._repr_mimebundle_(**kwargs)
+
+    # -- one way through: read, validate, compute, then show ----------------------
+    def _apply(self, make_design, changes, *, settings=None, force=False):
+        settings = settings or self.settings
+        try:
+            design = make_design()
+            if design == self.design and not force:
+                self._clear_message()
+                return True
+            state = self._compute(design, settings)
+        except DesignError as err:
+            self._refuse(err, changes)
+            return False
+        except Exception as err:  # noqa: BLE001 -- the designer gets a message, never a traceback
+            self.last_error = err
+            self._refuse(err, changes)
+            return False
+        self.settings = settings
+        self._commit(state)
+        return True
+
+    def _changed(self, changes):
+        """The design with ``changes`` applied (validated by the kit); nothing is changed here."""
+        design = self.design
+        units = {v.name: v.unit for v in design.spec.values}
+        values, flat = {}, {}
+        for name, raw in changes.items():
+            if name in units:
+                values[name] = parse_quantity(raw, units[name], name=name)
+            elif name == "temp":
+                flat["temp"] = parse_quantity(raw, "K", name="temp")
+            elif name == "beta":
+                gains = curves.gain_transistors(design)
+                if not gains:
+                    raise ParameterError("this topology has no bipolar transistor", parameter="beta",
+                                         value=raw, valid="no β_F to set here")
+                beta = parse_quantity(raw, "", name="beta")
+                flat.update({f"{t}.beta_f": beta for t in gains})
+            elif name in design.parameters():
+                flat[name] = parse_quantity(raw, None, name=name)
+            else:
+                raise ParameterError(f"not a value of {design.topology}", parameter=name, value=raw,
+                                     valid=", ".join([*units, "temp", "beta", "or a parameter such as "
+                                                      f"{design.spec.transistors[0]}.v_a"]))
+        if values:
+            design = design.with_values(**values)
+        for name, value in flat.items():
+            design = design.with_parameter(name, value)
+        return design
+
+    def _compute(self, design, settings):
+        start = time.perf_counter()
+        evaluation = kit.evaluate(design)
+        headline = evaluation.headline()
+        evaluated = time.perf_counter()
+        data = curves.plot_data(design, evaluation, self.spec, settings)
+        swept = time.perf_counter()
+        schematic = views.schematic_html(design)
+        ledger = ledger_html(evaluation)
+        self._pending_timings = {"evaluate": evaluated - start, "sweeps": swept - evaluated,
+                                 "views": time.perf_counter() - swept}
+        return _State(design, evaluation, data, headline, schematic, ledger)
+
+    def _commit(self, state):
+        start = time.perf_counter()
+        self._state = state
+        key = (state.design.topology, state.design.polarity, self.settings.common_beta)
+        if key != self._layout_key:
+            self._build_inputs()
+            self._layout_key = key
+        plots.fill(self.figures, self.sources, state.data)
+        self.title.value = views.title_html(state.design)
+        self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
+        self.schematic.value = state.schematic
+        self.ledger.value = state.ledger
+        self._show_values()
+        self._clear_message()
+        self.timings = dict(self._pending_timings, widgets=time.perf_counter() - start)
+        self.timings["total"] = sum(self.timings.values())
+        for callback in self._listeners:
+            callback(self)
+
+    # -- messages -------------------------------------------------------------------
+    def _refuse(self, err, changes):
+        attempt = ", ".join(f"{k} = {v!r}" for k, v in changes.items())
+        what = str(err) if isinstance(err, DesignError) else f"{type(err).__name__}: {err}"
+        self.message = (f"Not applied{': ' + attempt if attempt else ''}. {what}. "
+                        "The panel still shows the last good design.")
+        self.message_line.value = (
+            f'<div style="background:#f7e3e1;border-left:4px solid {theme.FAIL_COLOUR};padding:4px 8px;'
+            f'color:#5a1a1a;font-size:13px;line-height:1.35;white-space:normal">{display.escape(self.message)}</div>')
+        self._show_values()  # undo what the widget shows
+
+    def _clear_message(self):
+        self.message = ""
+        self.message_line.value = ""
+
+    # -- widgets ----------------------------------------------------------------------
+    def _build_widgets(self):
+        from jupyter_bokeh.widgets import BokehModel
+
+        f = self.figures
+        self.title = widgets.HTML()
+        self.headline = widgets.HTML()
+        self.message_line = widgets.HTML()
+        self.schematic = widgets.HTML(layout=widgets.Layout(width="300px", min_width="240px"))
+        self.ledger = widgets.HTMLMath()
+        self.values_box = widgets.VBox()
+        self.conditions_box = widgets.VBox()
+        self.series_choice = inputs.Echo(widgets.Dropdown(
+            options=list(eseries.SERIES), value=self.series, description="stepper series",
+            style={"description_width": inputs.LABEL_WIDTH}, layout=widgets.Layout(width="290px")),
+            lambda value: self.configure(series=value))
+        self.common_choice = inputs.Echo(widgets.Checkbox(
+            value=self.settings.common_beta, description="one β_F slider for all transistors", indent=False),
+            lambda value: self.configure(common_beta=value))
+        self.heating_choice = inputs.Echo(widgets.Checkbox(
+            value=self.settings.self_heating, description="add the self-heated curve (slower)",
+            indent=False), lambda value: self.configure(self_heating=value))
+        # One BokehModel per figure: each patch is serialised against its own small
+        # document, several times faster than against one document of all five.
+        self.bokeh = {name: BokehModel(fig) for name, fig in f.items()}
+        self.plots = widgets.VBox([widgets.HBox([self.bokeh["load"], self.bokeh["sensitivity"]]),
+                                   widgets.HBox([self.bokeh["beta"], self.bokeh["temp"]]),
+                                   widgets.HBox([self.bokeh["tempco"]])])
+        heading = '<div style="font-weight:600;color:{c};margin:6px 0 2px">{t}</div>'
+        left = widgets.VBox([widgets.HTML(heading.format(c=theme.INK, t="Values")), self.values_box,
+                             widgets.HTML(heading.format(c=theme.INK, t="Conditions")), self.conditions_box,
+                             widgets.HTML(heading.format(c=theme.INK, t="Panel settings")),
+                             self.series_choice.widget, self.common_choice.widget, self.heating_choice.widget],
+                            layout=widgets.Layout(width="420px", min_width="420px"))
+        right = widgets.VBox([self.headline, self.message_line],
+                             layout=widgets.Layout(flex="1 1 0%", min_width="300px"))
+        self.top = widgets.HBox([left, self.schematic, right])
+        self.tabs = widgets.Tab()
+        self.widget = widgets.VBox([self.title, self.top, self.plots, self.tabs])
+
+    def _build_tabs(self):
+        children, titles = [self.ledger], ["Ledger"]
+        if self.worst is not None:
+            children += [self.worst.widget, self.search.widget]
+            titles += ["Worst case", "Standard values"]
+        self.tabs.children = children
+        self.tabs.titles = titles
+
+    def _build_inputs(self):
+        design = self.design
+        self.fields = {}
+        for spec in design.spec.values:
+            stepper = self.step if spec.kind == "resistor" else None
+            self.fields[spec.name] = inputs.ValueField(
+                spec, lambda name, text: self.update(**{name: text}), stepper)
+        self.values_box.children = [f.widget for f in self.fields.values()]
+        self.sliders = {}
+        gains = curves.gain_transistors(design)
+        if gains and self.settings.common_beta:
+            shown, _ = curves.swept_gains(design, self.settings)
+            self.sliders["beta"] = inputs.slider("β_F (all)", design.devices[shown].beta_f, *BETA_SLIDER,
+                                                 lambda v: self.update(beta=v), log=True)
+        else:
+            for name in gains:
+                self.sliders[f"{name}.beta_f"] = inputs.slider(
+                    f"β_F of {name}", design.devices[name].beta_f, *BETA_SLIDER,
+                    lambda v, key=f"{name}.beta_f": self.update(**{key: v}), log=True)
+        self.sliders["temp"] = inputs.slider(
+            "temperature (°C)", kelvin_to_celsius(design.temp), *TEMP_SLIDER,
+            lambda v: self.update(temp=celsius_to_kelvin(v)), step=0.5)
+        for spec in design.spec.values:
+            if spec.kind in ("supply", "load"):
+                value = design.values[spec.name]
+                if spec.kind == "supply":
+                    low, high = (max(spec.low, SUPPLY_SLIDER[0] * value), min(spec.high, SUPPLY_SLIDER[1] * value))
+                else:
+                    low, high = curves.load_range(self.evaluation)
+                self.sliders[spec.name] = inputs.slider(
+                    f"{spec.name} ({spec.unit})", value, low, high,
+                    lambda v, key=spec.name: self.update(**{key: v}))
+        self.conditions_box.children = [s.widget for s in self.sliders.values()]
+
+    def _show_values(self):
+        """Make every input show the present (last good) design."""
+        design, evaluation = self.design, self.evaluation
+        for name, field in self.fields.items():
+            field.show(design.values[name], self.series)
+        for key, echo in self.sliders.items():
+            if key == "beta":
+                shown, _ = curves.swept_gains(design, self.settings)
+                inputs.show_slider(echo, design.devices[shown].beta_f, log=True)
+            elif key.endswith(".beta_f"):
+                inputs.show_slider(echo, design.devices[key.split(".")[0]].beta_f, log=True)
+            elif key == "temp":
+                inputs.show_slider(echo, kelvin_to_celsius(design.temp))
+            elif design.spec.value_spec(key).kind == "load":
+                inputs.show_slider(echo, design.values[key], *curves.load_range(evaluation))
+            else:
+                inputs.show_slider(echo, design.values[key])
+        self.series_choice.show(self.series)
+        self.common_choice.show(self.settings.common_beta)
+        self.heating_choice.show(self.settings.self_heating)

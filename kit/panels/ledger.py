@@ -1,0 +1,83 @@
+"""The derivation and ledger view: exact equations, each named simplification,
+its closed form and what it costs at the present design point.
+
+HTML with ``$$ … $$`` LaTeX, shown in an ipywidgets ``HTMLMath`` so
+JupyterLab typesets it with MathJax.  The equations come from
+:func:`kit.derivation.derivation`, the numbers from the design's
+:class:`kit.evaluation.Evaluation`.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+from kit import display
+from kit.derivation import derivation
+from kit.derive import latex
+from kit.quantities import format_quantity, format_temperature
+
+CELL = "padding:3px 10px;border-bottom:1px solid #d8d8d8;text-align:left;vertical-align:middle"
+HEAD = CELL + ";background:#eef2f5;font-weight:600"
+NUMBER = CELL + ";text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap"
+
+
+def _table(headers, rows, numeric=()):
+    head = "".join(f'<th style="{HEAD}">{display.escape(h)}</th>' for h in headers)
+    body = "".join(
+        "<tr>" + "".join(f'<td style="{NUMBER if k in numeric else CELL}">{cell}</td>'
+                         for k, cell in enumerate(row)) + "</tr>" for row in rows)
+    return f'<table style="border-collapse:collapse;margin:4px 0 10px">{head and "<tr>" + head + "</tr>"}{body}</table>'
+
+
+@lru_cache(maxsize=64)
+def _equations_html(topology, polarity):
+    """The exact equations of one topology and polarity (they do not depend on values)."""
+    from kit import topologies
+
+    der = derivation(topologies.get(topology), polarity)
+    unknowns = ", ".join(latex(u, der.equations.transistors) for u in der.equations.unknowns)
+    lines = "".join(f"<div>$${r}$$</div>" for r in der.residuals_latex)
+    return (f"<p>Unknown node voltages ${unknowns}$. One current balance per unknown node, "
+            "with the full large-signal device laws:</p>" + lines
+            + "<p>The exact sensitivities are those of the solved point, by implicit differentiation "
+              "of the balances above:</p>"
+              r"<div>$$\frac{\partial x}{\partial p} = -J_x^{-1}\,\frac{\partial F}{\partial p},\qquad "
+              r"\frac{dI_{out}}{dp} = \frac{\partial I_{out}}{\partial p} + "
+              r"\frac{\partial I_{out}}{\partial x}\,\frac{\partial x}{\partial p}$$</div>")
+
+
+def ledger_html(evaluation):
+    """The whole view for one evaluation, as HTML with LaTeX.
+
+    Examples
+    --------
+    >>> import kit
+    >>> html = ledger_html(kit.evaluate(kit.design("divider_source")))
+    >>> "stiff divider" in html and "$$" in html
+    True
+    """
+    design = evaluation.design
+    top = design.spec
+    exact = evaluation.i_out
+    rows = [["<b>exact solve</b>", "the equations above, solved numerically",
+             format_quantity(exact, "A", 5), "—", format_quantity(evaluation.tempco, "ppm/K"), "none"]]
+    for entry in evaluation.ledger:
+        rows.append([display.escape(entry.label), f"$${entry.latex}$$", format_quantity(entry.value, "A", 5),
+                     f"{entry.error:+.3%}", format_quantity(entry.tempco, "ppm/K"),
+                     display.escape("; ".join(entry.assumptions))
+                     + f'<br><span style="color:#666;font-size:11px">{display.escape(entry.source)}</span>'])
+    ledger = _table(["simplification", "closed form for I_out", "value here", "error vs exact", "tempco",
+                     "what it assumes"], rows, numeric=(2, 3, 4))
+    r_rows = [["exact, from dI_out/dV_load", format_quantity(evaluation.r_out, "Ω", 4), "—"]]
+    for key, value in evaluation.r_out_forms.items():
+        error = (value - evaluation.r_out) / evaluation.r_out if evaluation.r_out else float("nan")
+        r_rows.append([display.escape(top.extras.get(key, key)), format_quantity(value, "Ω", 4), f"{error:+.2%}"])
+    r_table = _table(["output resistance", "value here", "error vs exact"], r_rows, numeric=(1, 2))
+    point = (f"{format_temperature(design.temp)}, "
+             + ", ".join(f"{v.name} = {format_quantity(design.values[v.name], v.unit, 4) if v.unit else design.values[v.name]}"
+                         for v in top.values))
+    return (f'<div style="font-family:Helvetica,Arial,sans-serif;font-size:13px;max-width:72em">'
+            f'<h4 style="margin:6px 0">{display.escape(top.title)} ({design.polarity.upper()}): exact equations</h4>'
+            + _equations_html(design.topology, design.polarity)
+            + f'<h4 style="margin:10px 0 4px">Ledger at the present point</h4>'
+              f'<p style="color:#444">{display.escape(point)}</p>' + ledger + r_table + "</div>")

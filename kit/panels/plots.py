@@ -1,0 +1,175 @@
+"""The five Bokeh figures of the design panel, built once and refilled in place.
+
+:func:`build` makes the figures and their ColumnDataSources; :func:`fill`
+assigns new columns to the existing sources (``source.data = {...}``) and
+updates axis texts and category orders, so a live BokehModel redraws
+without re-creating anything.  :func:`build` with data also serves the
+static copies a report draws.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from bokeh.models import ColumnDataSource, DataRange1d, FactorRange, HoverTool, LabelSet, Span
+from bokeh.plotting import figure
+
+from kit.panels import theme
+from kit.panels.curves import SOURCES
+
+FIGURES = ("load", "beta", "temp", "sensitivity", "tempco")
+TOOLS = "pan,box_zoom,wheel_zoom,reset,save"
+
+
+def _empty_sources():
+    return {name: ColumnDataSource(data={}) for name in SOURCES}
+
+
+def _curve_figure(height=theme.PLOT_HEIGHT, **kwargs):
+    fig = figure(width=theme.PLOT_WIDTH, height=height, tools=TOOLS, **kwargs)
+    return theme.style_figure(fig)
+
+
+def _point(fig, source, label="design point"):
+    fig.scatter("x", "y", source=source, size=9, marker="circle", fill_color="white",
+                line_color=theme.INK, line_width=2.5, legend_label=label)
+
+
+def _band(fig, source, label):
+    fig.quad(left="left", right="right", bottom="bottom", top="top", source=source,
+             fill_color=theme.SPEC_BAND, fill_alpha=0.6, line_color=None, legend_label=label,
+             level="underlay")
+
+
+def _load_figure(src):
+    # The vertical range follows the compliance-edge segments, whose ends the data
+    # module sets from the curves inside compliance: no range message per update.
+    fig = _curve_figure(theme.LOAD_HEIGHT, y_range=DataRange1d(range_padding=0))
+    fig.quad(left="left", right="right", bottom="bottom", top="top", source=src["load_outside"],
+             fill_color=theme.OUTSIDE, fill_alpha=0.25, hatch_pattern="/", hatch_color=theme.OUTSIDE,
+             hatch_alpha=0.8, line_color=None, legend_label="a transistor leaves forward active",
+             level="underlay")
+    edges = fig.segment(x0="x", x1="x", y0="y0", y1="y1", source=src["load_edges"], line_color=theme.EDGE,
+                        line_dash="dashed", line_width=1.5, legend_label="compliance edges")
+    fig.y_range.renderers = [edges]
+    fig.add_layout(LabelSet(x="x", y="y_text", text="text", source=src["load_edges"], x_offset="offset",
+                            y_offset=4, text_align="align", text_font_size="10px", text_color=theme.EDGE))
+    fig.multi_line(xs="xs", ys="ys", source=src["load_forms"], line_color="colour", line_dash="dash",
+                   line_width=2, legend_field="label")
+    exact = fig.line("v_load", "y", source=src["load"], line_color=theme.INK, line_width=3,
+                     legend_label="exact solve")
+    fig.add_tools(HoverTool(renderers=[exact], tooltips=[("V_load", "@v_load{0.000} V"),
+                                                         ("I_out", "@i_out{0.0000e}")]))
+    _point(fig, src["load_point"])
+    theme.style_legend(fig)
+    legend = fig.legend[0]
+    fig.center.remove(legend)  # below the plot: seven entries would hide the curves
+    legend.ncols = 2
+    legend.location = "top_left"
+    fig.add_layout(legend, "below")
+    return fig
+
+
+def _beta_figure(src):
+    fig = _curve_figure()
+    _band(fig, src["beta_band"], "spec range")
+    fig.line("beta", "y", source=src["beta"], line_color=theme.INK, line_width=3, legend_label="exact solve")
+    _point(fig, src["beta_point"])
+    theme.style_legend(fig, "bottom_right")
+    return fig
+
+
+def _temp_figure(src):
+    fig = _curve_figure()
+    _band(fig, src["temp_band"], "spec range")
+    fig.line("temp_c", "y", source=src["temp"], line_color=theme.INK, line_width=3,
+             legend_label="exact, junctions at ambient")
+    fig.line("temp_c", "y", source=src["temp_heated"], line_color=theme.HEATED, line_width=2,
+             line_dash="dashed", legend_label="exact, with self-heating")
+    _point(fig, src["temp_point"])
+    theme.style_legend(fig, "top_left")
+    return fig
+
+
+def _bar_figure(source, factors):
+    fig = figure(width=theme.PLOT_WIDTH, height=theme.BAR_HEIGHT, tools="save,reset",
+                 y_range=FactorRange(factors=list(factors)), x_axis_label="", y_axis_label="")
+    theme.style_figure(fig)
+    fig.hbar(y="name", right="value", left=0, height=0.65, source=source, fill_color="colour",
+             line_color=None)
+    fig.add_layout(Span(location=0, dimension="height", line_color="#555555", line_width=1))
+    fig.add_layout(LabelSet(x="value", y="name", text="text", source=source, x_offset="offset",
+                            y_offset=-5, text_align="anchor", text_font_size="10px", text_color="#333333"))
+    fig.ygrid.grid_line_color = None
+    fig.x_range.range_padding = 0.35  # room for the value labels beside the bars
+    return fig
+
+
+def build(data=None):
+    """New figures and sources; filled with ``data`` (a :class:`PlotData`) if given.
+
+    Returns
+    -------
+    figures : dict
+        Name (one of :data:`FIGURES`) -> bokeh figure.
+    sources : dict
+        Source name -> ColumnDataSource.
+    """
+    sources = _empty_sources()
+    figures = {"load": _load_figure(sources), "beta": _beta_figure(sources), "temp": _temp_figure(sources),
+               "sensitivity": _bar_figure(sources["sensitivity"], []),
+               "tempco": _bar_figure(sources["tempco"], [])}
+    if data is not None:
+        fill(figures, sources, data)
+    return figures, sources
+
+
+def fill(figures, sources, data):
+    """Put ``data`` into the existing sources and axis texts (in place)."""
+    for name, source in sources.items():
+        columns = data.columns.get(name, {})
+        if not _same(source.data, columns):  # an unchanged source costs a patch message too
+            source.data = {key: _binary(value) for key, value in columns.items()}
+    for name, texts in data.labels.items():
+        fig = figures[name]
+        fig.title.text = texts["title"]
+        fig.xaxis.axis_label = texts["x"]
+        fig.yaxis.axis_label = texts["y"]
+    for name, factors in data.factors.items():
+        figures[name].y_range.factors = list(factors)
+    for fig in figures.values():
+        for legend in fig.legend:
+            for item in legend.items:
+                # An empty curve (no spec band, no self-heating) keeps no legend entry.
+                item.visible = any(_size(r.data_source) for r in item.renderers)
+
+
+def _same(old, new):
+    if old.keys() != new.keys():
+        return False
+    for key, value in new.items():
+        a, b = old[key], value
+        if len(a) != len(b):
+            return False
+        try:
+            if not np.array_equal(np.asarray(a), np.asarray(b), equal_nan=True):
+                return False
+        except (TypeError, ValueError):  # ragged (multi-line) or text columns
+            if list(map(_plain, a)) != list(map(_plain, b)):
+                return False
+    return True
+
+
+def _binary(column):
+    """Numbers as a float array (sent to the browser as a binary buffer, not JSON)."""
+    if isinstance(column, list) and column and all(isinstance(v, (int, float, np.number)) and not
+                                                     isinstance(v, bool) for v in column):
+        return np.asarray(column, dtype=float)
+    return column
+
+
+def _plain(value):
+    return value.tolist() if isinstance(value, np.ndarray) else value
+
+
+def _size(source):
+    return max((len(column) for column in source.data.values()), default=0)

@@ -1,0 +1,69 @@
+"""How long a panel takes to show a change, kernel side (for ``benchmarks/run.py``).
+
+One change = a value typed into the panel until every plot source and the
+headline numbers hold the new design's data; the browser's redraw is not
+counted.  Each change uses a different standard value, so no cache helps.
+"""
+
+from __future__ import annotations
+
+import gc
+import statistics
+import time
+
+PHASES = ("evaluate", "sweeps", "views", "widgets")
+
+
+def measure_update(topology="divider_source", polarity="npn", changes=20, points=200, series="E24"):
+    """Median seconds of ``changes`` panel updates, in total and by phase.
+
+    The value changed is the topology's first resistor, stepped through its
+    standard values around the default (a new design each time).  Phases:
+    ``evaluate`` (:func:`kit.evaluate` and its headline), ``sweeps`` (the plot
+    columns), ``views`` (schematic, ledger HTML), ``widgets`` (sources, axis
+    texts and input widgets updated in place).
+
+    Returns
+    -------
+    dict
+        ``panel_update_s`` and ``panel_update_<phase>_s`` (medians),
+        ``panel_update_over_evaluate`` (median of total / evaluate per change),
+        ``panel_updates`` (changes applied) and ``panel_points`` (points per curve).
+
+    Examples
+    --------
+    >>> figures = measure_update(changes=2, points=20)
+    >>> figures["panel_updates"], figures["panel_update_s"] > 0
+    (2, True)
+    """
+    import kit
+    from kit.analysis.eseries import neighbours
+    from kit.panels.curves import Settings
+    from kit.panels.design import DesignPanel
+
+    design = kit.design(topology, polarity)
+    name = design.spec.resistors[0]
+    values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
+    values = [v for v in values if v != design.values[name]]
+    panel = DesignPanel(design, settings=Settings(points=points))
+    totals, phases = [], {phase: [] for phase in PHASES}
+    enabled = gc.isenabled()
+    for value in values[:changes]:
+        gc.disable()  # as timeit does: a collection mid-change is not the panel's cost
+        try:
+            start = time.perf_counter()
+            applied = panel.update(**{name: value})
+            elapsed = time.perf_counter() - start
+        finally:
+            if enabled:
+                gc.enable()
+        if not applied:
+            continue
+        totals.append(elapsed)
+        for phase in PHASES:
+            phases[phase].append(panel.timings[phase])
+    out = {"panel_update_s": statistics.median(totals), "panel_updates": len(totals), "panel_points": points}
+    out.update({f"panel_update_{phase}_s": statistics.median(v) for phase, v in phases.items()})
+    # What the panel adds to the kit's own evaluation, as a ratio measured in this run.
+    out["panel_update_over_evaluate"] = statistics.median(t / e for t, e in zip(totals, phases["evaluate"]))
+    return out

@@ -1,0 +1,72 @@
+"""Small HTML views of the design panel: title, headline numbers, schematic.
+
+The numbers are the kit's own formatted texts
+(:meth:`kit.evaluation.Evaluation.headline`); the schematic is
+:func:`kit.schematic.render`, cached per set of values because drawing it is
+the slowest of these (temperature, gain and load changes redraw nothing).
+"""
+
+from __future__ import annotations
+
+from kit import display
+from kit.errors import DesignError
+from kit.panels import theme
+from kit.quantities import format_quantity, format_temperature
+
+HEADLINE_LABELS = {"I_out": "output current I_out", "compliance": "compliance (load voltage)",
+                   "R_out": "output resistance R_out", "tempco": "tempco of I_out",
+                   "dissipation": "dissipation"}
+
+
+def title_html(design):
+    name = f"{display.escape(design.spec.title)} ({design.polarity.upper()})"
+    if design.title:
+        name = f"{display.escape(design.title)} — {name}"
+    return (f'<div style="font-family:{theme.FONT};font-size:17px;font-weight:600;color:{theme.INK};'
+            f'border-bottom:2px solid {theme.FORMS[0]};padding-bottom:3px">{name}</div>')
+
+
+def headline_html(evaluation, headline, spec=None):
+    """The headline numbers (``headline`` as the kit formats them), regions, edges and the spec band."""
+    rows = []
+    for key, text in headline.items():
+        size = "20px" if key == "I_out" else "14px"
+        rows.append(f'<tr><td style="padding:2px 10px 2px 0;color:#555">{HEADLINE_LABELS.get(key, key)}</td>'
+                    f'<td style="padding:2px 0;font-size:{size};font-weight:600;color:{theme.INK};'
+                    f'font-variant-numeric:tabular-nums">{display.escape(text)}</td></tr>')
+    c = evaluation.compliance
+    regions = ", ".join(f"{n} {r}" for n, r in evaluation.regions.items())
+    notes = [display.escape(f"at {format_temperature(evaluation.design.temp)}; {regions}"),
+             display.escape(f"low edge: {c.low.describe()}; high edge: {c.high.describe()}")]
+    if spec is not None:
+        low, high = spec.limits
+        inside = low <= evaluation.i_out <= high
+        colour = theme.PASS_COLOUR if inside else theme.FAIL_COLOUR
+        notes.append(f'<span style="color:{colour};font-weight:600">spec {format_quantity(low, "A", 4)} … '
+                     f'{format_quantity(high, "A", 4)}: nominal {"inside" if inside else "outside"}</span>')
+    return (f'<div style="font-family:{theme.FONT};font-size:13px;line-height:1.35;white-space:normal">'
+            f'<table>{"".join(rows)}</table>'
+            + "".join(f'<div style="color:#444;margin-top:3px">{n}</div>' for n in notes) + "</div>")
+
+
+_SCHEMATICS = {}  # (topology, polarity, values) -> HTML
+_SCHEMATICS_KEPT = 64
+
+
+def schematic_html(design):
+    """The design's schematic as inline SVG that scales to its box (cached per set of values)."""
+    key = (design.topology, design.polarity, tuple(design.values.items()))
+    if key not in _SCHEMATICS:
+        from kit.schematic import render
+
+        try:
+            svg = render(design).svg
+        except DesignError as err:  # a topology without a drawing yet
+            svg = f"<p>{display.escape(err.message)}</p>"
+        if svg.startswith("<?xml"):
+            svg = svg[svg.index("?>") + 2:]
+        svg = svg.replace("<svg ", '<svg style="max-width:100%;height:auto" ', 1)
+        if len(_SCHEMATICS) >= _SCHEMATICS_KEPT:
+            _SCHEMATICS.pop(next(iter(_SCHEMATICS)))  # the oldest
+        _SCHEMATICS[key] = f'<div style="padding:4px">{svg}</div>'
+    return _SCHEMATICS[key]

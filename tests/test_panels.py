@@ -1,0 +1,353 @@
+"""Kernel-side tests of the interactive panels (kit.panels), driven through their widgets.
+
+Every check compares what the panel shows with what the kit itself computes
+for the new input (kit.evaluate, kit.evaluation.sweep, the analyses), so a
+panel that drew stale data, the wrong design or its own physics would fail.
+E-series values are those of IEC 60063:2015 (E12 and E24 tables).  The
+designs and specs are scenarios of our own.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+pytest.importorskip("ipywidgets")
+pytest.importorskip("jupyter_bokeh")
+
+import kit  # noqa: E402
+from kit.analysis.spec import Spec  # noqa: E402
+from kit.analysis.temperature import temperature_sweep  # noqa: E402
+from kit.errors import DesignError, OperatingPointError  # noqa: E402
+from kit.evaluation import sweep  # noqa: E402
+from kit.panels import DesignPanel  # noqa: E402
+from kit.panels.curves import HEATED_POINTS  # noqa: E402
+from kit.quantities import celsius_to_kelvin, format_quantity  # noqa: E402
+
+# A 1 mA sink for a resistive bridge, collector at 4-10 V (our own scenario).
+BASE = dict(r1="33k", r2="10k", r_e="2k2", v_supply="12 V", v_load="8 V")
+
+
+@pytest.fixture(scope="module")
+def base():
+    return kit.design("divider_source", "npn", **BASE)
+
+
+@pytest.fixture(scope="module")
+def shared(base):
+    return DesignPanel(base)
+
+
+@pytest.fixture
+def panel(shared, base):
+    """The shared divider panel, put back to the base design and default settings."""
+    assert shared.load(base)
+    assert shared.configure(series="E24", common_beta=True, self_heating=False)
+    assert shared.design == base and shared.message == ""
+    return shared
+
+
+def exact(points):
+    """The exact current as a panel draws it: a gap where the solve did not converge."""
+    return np.where(points.converged, points.i_out, np.nan)
+
+
+def snapshot(panel):
+    return (panel.design, panel.headline_text(),
+            {name: {k: np.array(v, dtype=object) for k, v in s.data.items()} for name, s in panel.sources.items()})
+
+
+def assert_same_snapshot(before, after):
+    assert after[0] == before[0]
+    assert after[1] == before[1]
+    for name, columns in before[2].items():
+        assert after[2][name].keys() == columns.keys(), name
+        for key, value in columns.items():
+            assert len(after[2][name][key]) == len(value), (name, key)
+            for a, b in zip(after[2][name][key], value):
+                np.testing.assert_array_equal(np.asarray(a), np.asarray(b), err_msg=f"{name}.{key}")
+
+
+def assert_plots_match_kit(panel, design):
+    """Every curve source equals the kit's own sweep of ``design`` over the source's x values."""
+    src = panel.sources
+    scale = panel.plot_data.scale[0]
+    ev = kit.evaluate(design)
+    v = src["load"].data["v_load"]
+    assert v[0] < ev.compliance.low.voltage and v[-1] > ev.compliance.high.voltage  # across and beyond
+    points = sweep(design, "v_load", v)
+    np.testing.assert_array_equal(src["load"].data["i_out"], exact(points))
+    np.testing.assert_array_equal(src["load"].data["y"], exact(points) / scale)
+    forms = points.model.closed_forms(points.q)
+    assert list(src["load_forms"].data["key"]) == [s.key for s in design.spec.simplifications]
+    for key, ys in zip(src["load_forms"].data["key"], src["load_forms"].data["i_out"]):
+        np.testing.assert_array_equal(ys, forms[key])
+    np.testing.assert_array_equal(src["load_edges"].data["x"], [ev.compliance.low.voltage, ev.compliance.high.voltage])
+    assert src["load_point"].data["i_out"][0] == ev.i_out
+    gains = [n for n, m in design.devices.items() if "beta_f" in m.numbers()]
+    if gains:
+        shown = design.spec.output_transistor
+        b = src["beta"].data["beta"]
+        ratio = b / design.devices[shown].beta_f
+        overrides = {f"{n}.beta_f": design.devices[n].beta_f * ratio for n in gains}
+        np.testing.assert_array_equal(src["beta"].data["i_out"],
+                                      exact(sweep(design, "v_load", np.full(b.size, design.values["v_load"]),
+                                                  **overrides)))
+    t = src["temp"].data["temp"]
+    np.testing.assert_array_equal(src["temp"].data["i_out"], exact(sweep(design, "temp", t)))
+    ranked = sorted((s for s in ev.sensitivities if s.parameter != "temp"), key=lambda s: abs(s.normalised))
+    assert list(src["sensitivity"].data["name"]) == [s.parameter for s in ranked]
+    np.testing.assert_array_equal(src["sensitivity"].data["value"], [s.normalised for s in ranked])
+    assert panel.figures["sensitivity"].y_range.factors == [s.parameter for s in ranked]
+    budget = sorted(ev.tempco_budget, key=lambda item: abs(item[1]))
+    np.testing.assert_array_equal(src["tempco"].data["value"], [ev.tempco * 1e6] + [v * 1e6 for _, v in budget])
+    return ev
+
+
+# -- typing values ---------------------------------------------------------------------
+
+def test_typing_an_rkm_resistor_updates_numbers_plots_and_ledger(panel, base):
+    before = panel.headline_text()
+    panel.fields["r_e"].text.value = "2k0"  # as typed into the field (observer fires)
+    new = base.with_values(r_e=2000.0)
+    assert panel.message == ""
+    assert panel.design == new
+    ev = kit.evaluate(new)
+    text = panel.headline_text()
+    assert text["I_out"] == format_quantity(ev.i_out, "A", 4) == ev.headline()["I_out"]
+    assert text == ev.headline() and text != before
+    assert text["I_out"] in panel.headline.value and text["compliance"] in panel.headline.value
+    assert panel.fields["r_e"].text.value == "2 kΩ"
+    assert_plots_match_kit(panel, new)
+    for entry in ev.ledger:
+        assert format_quantity(entry.value, "A", 5) in panel.ledger.value
+        assert f"{entry.error:+.3%}" in panel.ledger.value
+    assert "R_{E}" in panel.ledger.value and "$$" in panel.ledger.value
+    assert "2 kΩ" in panel.schematic.value
+
+
+def test_update_takes_text_and_numbers_through_the_same_path(panel, base):
+    assert panel.update(r1="39 kΩ", v_supply=15)
+    new = base.with_values(r1=39e3, v_supply=15.0)
+    assert panel.design == new
+    assert panel.headline_text() == kit.evaluate(new).headline()
+    assert panel.fields["r1"].text.value == "39 kΩ" and panel.sliders["v_supply"].widget.value == 15.0
+
+
+# -- E-series steppers ---------------------------------------------------------------------
+
+def test_steppers_move_to_neighbouring_iec_60063_values(panel):
+    field = panel.fields["r_e"]
+    field.up.click()  # E24 (IEC 60063): 2.2 -> 2.4
+    assert panel.design.values["r_e"] == 2400.0
+    assert panel.headline_text() == kit.evaluate(panel.design).headline()
+    field.down.click()
+    field.down.click()  # 2.4 -> 2.2 -> 2.0
+    assert panel.design.values["r_e"] == 2000.0
+    field.down.click()  # 2.0 -> 1.8
+    assert panel.design.values["r_e"] == 1800.0
+    assert panel.update(r_e="2k3")  # off the series: the next values either side
+    field.up.click()
+    assert panel.design.values["r_e"] == 2400.0
+    assert panel.update(r_e="2k3")
+    field.down.click()
+    assert panel.design.values["r_e"] == 2200.0
+    panel.series_choice.widget.value = "E12"  # E12 (IEC 60063): 2.2 -> 2.7
+    field.up.click()
+    assert panel.design.values["r_e"] == 2700.0
+    assert "E12" in field.up.tooltip
+
+
+# -- sliders ---------------------------------------------------------------------------------
+
+def test_temperature_slider_updates_every_plot_for_the_new_point(panel, base):
+    load_before = panel.sources["load"].data["i_out"].copy()
+    panel.sliders["temp"].widget.value = 85.0  # °C
+    new = base.with_parameter("temp", celsius_to_kelvin(85.0))
+    assert panel.design == new and panel.message == ""
+    ev = assert_plots_match_kit(panel, new)
+    assert panel.sources["temp_point"].data["x"][0] == pytest.approx(85.0)
+    assert panel.sources["temp_point"].data["i_out"][0] == ev.i_out
+    assert not np.array_equal(panel.sources["load"].data["i_out"], load_before, equal_nan=True)
+    assert "85 °C" in panel.headline.value
+
+
+def test_gain_slider_sets_every_transistor_and_moves_the_gain_plot(panel, base):
+    panel.sliders["beta"].widget.value = 120.0
+    new = base.with_parameter("Q1.beta_f", 120.0)
+    assert panel.design == new
+    assert_plots_match_kit(panel, new)
+    beta = panel.sources["beta"].data["beta"]
+    assert beta[0] == pytest.approx(60.0) and beta[-1] == pytest.approx(180.0)  # ±50 % without a spec
+    assert panel.sources["beta_point"].data["x"][0] == 120.0
+
+
+def test_load_slider_moves_the_point_along_an_unchanged_curve(panel, base):
+    curve = panel.sources["load"].data["i_out"].copy()
+    panel.sliders["v_load"].widget.value = 5.0
+    new = base.with_values(v_load=5.0)
+    assert panel.design == new
+    ev = assert_plots_match_kit(panel, new)
+    assert panel.sources["load_point"].data["x"][0] == 5.0
+    assert panel.sources["load_point"].data["i_out"][0] == ev.i_out
+    np.testing.assert_array_equal(panel.sources["load"].data["i_out"], curve)  # same compliance, same grid
+
+
+# -- refused input ------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("text", ["abc", "-5k", "1e99"])
+def test_bad_text_names_the_parameter_and_keeps_the_last_good_state(panel, base, text):
+    with pytest.raises(DesignError) as refused:
+        base.with_values(r_e=text)
+    before = snapshot(panel)
+    panel.fields["r_e"].text.value = text
+    assert refused.value.parameter == "r_e"
+    assert "r_e" in panel.message and refused.value.valid in panel.message
+    assert repr(text) in panel.message
+    assert refused.value.valid in panel.message_line.value.replace("&#x27;", "'")
+    assert_same_snapshot(before, snapshot(panel))
+    assert panel.fields["r_e"].text.value == "2.2 kΩ"  # the field shows the design again
+
+
+def test_load_voltage_outside_compliance_keeps_the_last_good_state(panel, base):
+    slider = panel.sliders["v_load"].widget
+    outside = slider.max  # the slider reaches beyond the high edge of compliance
+    with pytest.raises(OperatingPointError) as refused:
+        kit.evaluate(base.with_values(v_load=outside))
+    before = snapshot(panel)
+    slider.value = outside
+    assert str(refused.value) in panel.message
+    assert "v_load" in panel.message and refused.value.valid in panel.message
+    assert_same_snapshot(before, snapshot(panel))
+    assert slider.value == 8.0
+
+
+def test_unknown_name_lists_the_valid_ones(panel):
+    before = snapshot(panel)
+    assert not panel.update(r_x=1.0)
+    assert "r_x" in panel.message and "r_e" in panel.message and "v_load" in panel.message
+    assert_same_snapshot(before, snapshot(panel))
+
+
+def test_a_good_change_clears_the_message(panel):
+    assert not panel.update(r_e="abc")
+    assert panel.message
+    assert panel.update(r_e="2k4")
+    assert panel.message == "" and panel.message_line.value == ""
+
+
+# -- settings, static figures, display ----------------------------------------------------------
+
+def test_self_heating_curve_comes_from_the_temperature_sweep(panel, base):
+    assert len(panel.sources["temp_heated"].data["i_out"]) == 0
+    panel.heating_choice.widget.value = True
+    t = panel.sources["temp"].data["temp"]
+    heated = temperature_sweep(base, (t[0], t[-1]), points=HEATED_POINTS)
+    np.testing.assert_array_equal(panel.sources["temp_heated"].data["i_out"], heated.i_out_heated)
+    assert panel.design == base
+
+
+def test_final_figures_are_fresh_copies_of_the_present_state(panel):
+    assert panel.update(r_e="2k7")
+    figures = panel.final_figures()
+    assert set(figures) == set(panel.figures)
+    for name, fig in figures.items():
+        assert fig is not panel.figures[name]
+        assert fig.xaxis.axis_label == panel.figures[name].xaxis.axis_label
+    renderer = next(r for r in figures["load"].renderers if getattr(r.glyph, "x", None) == "v_load")
+    np.testing.assert_array_equal(renderer.data_source.data["i_out"], panel.sources["load"].data["i_out"])
+    heated = next(r for r in figures["temp"].renderers if r.data_source.data is not None
+                  and len(r.data_source.data.get("i_out", [])) == HEATED_POINTS)
+    assert np.all(np.isfinite(heated.data_source.data["i_out"]))
+
+
+def test_a_bare_panel_shows_its_widget(panel):
+    bundle = panel._repr_mimebundle_()
+    assert bundle["application/vnd.jupyter.widget-view+json"]["model_id"] == panel.widget.model_id
+
+
+# -- a second topology, and switching to it -------------------------------------------------------
+
+def test_panel_works_for_a_current_mirror():
+    mirror = kit.design("basic_mirror_rref", "npn")
+    panel = DesignPanel(mirror)
+    assert list(panel.fields) == [v.name for v in mirror.spec.values]
+    panel.fields["r_ref"].text.value = "47k"
+    new = mirror.with_values(r_ref=47e3)
+    assert panel.design == new
+    assert panel.headline_text() == kit.evaluate(new).headline()
+    assert_plots_match_kit(panel, new)
+    panel.common_choice.widget.value = False  # one gain slider per transistor
+    assert set(panel.sliders) >= {"Q1.beta_f", "Q2.beta_f"}
+    panel.sliders["Q1.beta_f"].widget.value = 90.0
+    assert panel.design.devices["Q1"].beta_f == 90.0 and panel.design.devices["Q2"].beta_f == 200.0
+    assert panel.headline_text() == kit.evaluate(new.with_parameter("Q1.beta_f", 90.0)).headline()
+
+
+# -- spec views: worst case and standard-value search ------------------------------------------
+
+@pytest.fixture(scope="module")
+def spec():
+    # 2 mA ± 20 % into 2-8 V with 5 % resistors (our own scenario).
+    return Spec(2e-3, 0.20, v_load=(2.0, 8.0), resistor_tolerance=0.05, samples=100)
+
+
+@pytest.fixture(scope="module")
+def spec_panel(base, spec):
+    return DesignPanel(base, spec)
+
+
+def test_spec_sets_the_series_and_the_plot_ranges(spec_panel, spec):
+    assert spec_panel.series == "E24"  # the series customary for ±5 % parts (common practice, no source)
+    assert spec_panel.tabs.titles == ("Ledger", "Worst case", "Standard values")
+    assert "900 µA" not in spec_panel.headline.value and "1.6 mA" in spec_panel.headline.value  # 2 mA - 20 %
+
+
+def test_synthesis_load_button_loads_the_candidate(spec_panel, base):
+    panel = spec_panel
+    assert panel.load(base)
+    result = panel.search.run()
+    assert result.candidates
+    candidate = result.candidates[0].design
+    panel.search.load_buttons[0].click()
+    assert panel.design == candidate and panel.message == ""
+    assert panel.headline_text() == kit.evaluate(candidate).headline()
+    assert panel.fields["r_e"].text.value == format_quantity(candidate.values["r_e"], "Ω", 6)
+    assert_plots_match_kit(panel, candidate)
+
+
+def test_worst_case_view_draws_the_analysis_samples(spec_panel, base, spec):
+    panel = spec_panel
+    assert panel.load(base.with_values(r_e="1k"))
+    panel.worst.button.click()
+    result = panel.worst.result
+    assert result.design == panel.design
+    mc = result.methods["Monte Carlo"]
+    counts = panel.worst.sources["histogram"].data["top"]
+    assert sum(counts) == int(mc.arrays["ok"].sum())
+    scale = 1e-3  # the spec's 2 mA is shown in mA
+    np.testing.assert_allclose(panel.worst.sources["limits"].data["x"], np.array(spec.limits) / scale)
+    assert f"{mc.detail['yield']:.2%}" in panel.worst.figures["histogram"].title.text
+    assert [b.label for b in sorted(result.budget, key=lambda b: b.share)] == \
+        list(panel.worst.sources["budget"].data["name"])
+    for m in result.methods.values():
+        assert format_quantity(m.low, "A", 4) in panel.worst.table.value
+    assert panel.update(r_e="1k1")
+    assert "changed" in panel.worst.status.value
+
+
+def test_showing_the_panel_resends_drawings_changed_before_any_view(panel):
+    # A BokehModel's first drawing is what a view opened later starts from.
+    from IPython.core.interactiveshell import InteractiveShell
+
+    first = panel.bokeh["load"].render_bundle
+    assert panel.update(r_e="3k3")
+    assert panel.bokeh["load"].render_bundle is first  # an update patches, it does not resend
+    InteractiveShell.instance().display_formatter.format(panel)  # what a bare `panel` in a cell does
+    resent = panel.bokeh["load"].render_bundle
+    assert resent is not first
+    fresh = type(panel.bokeh["load"])._model_to_traits(panel.figures["load"])
+    roots = [next(iter(b["docs_json"].values()))["roots"] for b in (first, resent, fresh)]
+    assert roots[1] == roots[2] != roots[0]  # the present drawing, not the first one
+    InteractiveShell.instance().display_formatter.format(panel)
+    assert panel.bokeh["load"].render_bundle is resent  # nothing changed: nothing resent
