@@ -247,7 +247,10 @@ def _cutoff_margin(j, v_t):
     import numpy as np
 
     # The current criterion as a voltage, V_T ln(I_C / I_cutoff): continuous for I_C > 0.
-    return v_t * np.log(np.maximum(j["i_c"], 1e-300) / CUTOFF_CURRENT)
+    # A forward-biased collector junction means saturation, not cut-off (the
+    # collector current of a hard-saturated part is small too).
+    by_current = v_t * np.log(np.maximum(j["i_c"], 1e-300) / CUTOFF_CURRENT)
+    return np.where(j["v_bc"] >= CUTOFF_THERMAL_VOLTAGES * v_t, np.inf, by_current)
 
 
 def margins(j, v_t, temp, device, edge="vce_sat"):

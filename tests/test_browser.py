@@ -1,0 +1,179 @@
+"""The tour notebook in a real browser: JupyterLab, Debian's Chromium, Playwright.
+
+Starts JupyterLab on 127.0.0.1 with a token, opens the tour notebook, runs
+every cell, types a new emitter resistor into the design panel and moves the
+load slider, then checks that the headline current shown on the page and the
+Bokeh data in the page equal what the kit computes for the new design, and
+that the page logged no error.  The server is stopped by its process id.
+Nothing is downloaded: Playwright drives the system Chromium.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import signal
+import socket
+import subprocess
+import sys
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+import kit
+from kit.quantities import format_quantity
+
+ROOT = Path(__file__).resolve().parents[1]
+CHROMIUM = shutil.which("chromium")
+TOKEN = "biasbook-browser-test"
+
+pytestmark = [pytest.mark.browser,
+              pytest.mark.skipif(CHROMIUM is None, reason="needs Debian's chromium (dev.py test installs it)")]
+
+
+def _free_port():
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="module")
+def lab(tmp_path_factory):
+    """A JupyterLab server on the repository's notebooks/ folder."""
+    port = _free_port()
+    config = tmp_path_factory.mktemp("jupyter-config")
+    # No pop-ups over the page: no news, no update checks.
+    (config / "labconfig").mkdir()
+    (config / "labconfig" / "page_config.json").write_text(json.dumps(
+        {"disabledExtensions": {"@jupyterlab/apputils-extension:announcements": True}}))
+    env = dict(os.environ, BOKEH_RESOURCES="inline", JUPYTER_CONFIG_DIR=str(config))
+    log = open(tmp_path_factory.mktemp("lab") / "server.log", "w")
+    server = subprocess.Popen(
+        [sys.executable, "-m", "jupyterlab", "--allow-root", "--no-browser", "--ip=127.0.0.1",
+         f"--port={port}", "--port-retries=0", f"--IdentityProvider.token={TOKEN}",
+         f"--ServerApp.root_dir={ROOT / 'notebooks'}", "--LabApp.news_url=",
+         "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate"],
+        env=env, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
+    try:
+        for _ in range(240):
+            try:
+                urllib.request.urlopen(f"http://127.0.0.1:{port}/api/status?token={TOKEN}", timeout=1)
+                break
+            except OSError:
+                time.sleep(0.5)
+        else:
+            pytest.fail("JupyterLab did not start")
+        yield f"http://127.0.0.1:{port}"
+    finally:
+        os.killpg(server.pid, signal.SIGTERM)
+        try:
+            server.wait(30)
+        except subprocess.TimeoutExpired:
+            os.killpg(server.pid, signal.SIGKILL)
+        log.close()
+
+
+def _wait_idle(page, timeout=300):
+    """Until the kernel says Idle and no cell waits to run (prompt ``[*]``)."""
+    end = time.time() + timeout
+    while time.time() < end:
+        status = page.evaluate("() => Array.from(document.querySelectorAll("
+                               "'.jp-StatusBar-TextItem, .jp-StatusBar-Item')).map(e => e.innerText).join('|')")
+        prompts = page.evaluate("() => Array.from(document.querySelectorAll('.jp-InputPrompt'))"
+                                ".map(e => e.innerText).join('|')")
+        if "Idle" in status and "Busy" not in status and "*" not in prompts:
+            return
+        time.sleep(0.5)
+    raise AssertionError(f"the kernel did not go idle: {status}")
+
+
+def _field_showing(page, text, timeout=120):
+    """The widget text field whose value is ``text`` (waits for the panel to render)."""
+    end = time.time() + timeout
+    while time.time() < end:
+        fields = page.locator(".jp-OutputArea input[type=text]")
+        for k in range(fields.count()):
+            if fields.nth(k).input_value() == text:
+                return fields.nth(k)
+        time.sleep(1)
+    page.screenshot(path=str(ROOT / "artifacts" / "browser-failure.png"), full_page=True)
+    raise AssertionError(f"no panel field shows {text!r}")
+
+
+def _bokeh_load_curves(page):
+    return page.evaluate("""() => {
+        const out = [];
+        for (const doc of (window.Bokeh ? window.Bokeh.documents : [])) {
+            for (const m of doc._all_models.values()) {
+                if (m.type === 'ColumnDataSource' && m.data && m.data.v_load && m.data.i_out) {
+                    out.push({v: Array.from(m.data.v_load), i: Array.from(m.data.i_out)});
+                }
+            }
+        }
+        return out;}""")
+
+
+def test_tour_panel_moves_with_typed_values(lab):
+    from playwright.sync_api import sync_playwright
+
+    import numpy as np
+
+    from kit.evaluation import sweep
+
+    errors = []
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
+            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        try:
+            page = browser.new_page(viewport={"width": 1500, "height": 2400})
+            page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            page.goto(f"{lab}/lab/tree/tour.ipynb?reset&token={TOKEN}")
+            _wait_idle(page)
+            page.click("text=Run")
+            page.click("text=Run All Cells")
+            time.sleep(3)
+            _wait_idle(page)
+            # The panel's text field for r_e shows the tour's 2.2 kΩ.
+            r_e = _field_showing(page, "2.2 kΩ")
+            r_e.fill("2k0")
+            r_e.press("Enter")
+            time.sleep(1)
+            _wait_idle(page)
+            design = kit.design("divider_source", "npn", r1="33k", r2="10k", r_e="2k0",
+                                v_supply="12 V", v_load="8 V")
+            expected = kit.evaluate(design).headline()["I_out"]
+            page.wait_for_function(f"() => document.body.innerText.includes({json.dumps(expected)})",
+                                   timeout=60_000)
+            # The load curve in the page's Bokeh document is the kit's exact sweep of the new design.
+            curves = [c for c in _bokeh_load_curves(page) if len(c["v"]) > 10]
+            assert curves, "no load-voltage curve in the page"
+            curve = curves[0]
+            exact = sweep(design, "v_load", np.array(curve["v"])).i_out
+            shown = np.array(curve["i"])
+            scale = 1e3 if np.nanmax(np.abs(shown)) > 0.1 else 1.0  # plotted in mA or in A
+            finite = np.isfinite(shown)
+            assert np.allclose(shown[finite], exact[finite] * scale, rtol=1e-6, atol=1e-12 * scale)
+            # Move a slider with the keyboard: its readout and the page's numbers follow.
+            handles = page.locator(".jp-OutputArea .noUi-handle, .jp-OutputArea .ui-slider-handle")
+            assert handles.count() > 0, "no slider in the panel"
+            panel = page.locator(".jp-OutputArea:has(.noUi-handle), .jp-OutputArea:has(.ui-slider-handle)").last
+            before = panel.inner_text()
+            assert expected in before
+            handle = handles.last
+            handle.focus()
+            for _ in range(5):
+                handle.press("ArrowRight")
+                time.sleep(0.5)
+            _wait_idle(page)
+            time.sleep(2)
+            # The slider's readout moved (a widget round trip through the kernel), and the
+            # panel redrew: its text is not what it was.
+            assert panel.inner_text() != before
+            assert not [e for e in errors if "Failed to load resource" not in e], errors
+        finally:
+            browser.close()
