@@ -188,11 +188,23 @@ class DesignPanel:
         return self._state.ledger
 
     def _ipython_display_(self):
+        import os
+
         from IPython.display import display as show
 
         from kit.panels.notebook import load_bokeh
 
         load_bokeh()
+        if os.environ.get("BIASBOOK_REVIEW") == "1":
+            # Building a review: a printed page keeps no live widget, so show the
+            # panel's present state as static tables and figures instead.
+            from bokeh.io import show as show_figure
+            from IPython.display import HTML
+
+            show(HTML(self.evaluation._repr_html_()))
+            for figure in self.final_figures():
+                show_figure(figure)
+            return
         self.refresh_drawings()
         show(self.widget)
 
