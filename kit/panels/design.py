@@ -202,7 +202,7 @@ class DesignPanel:
             from IPython.display import HTML
 
             show(HTML(self.evaluation._repr_html_()))
-            for figure in self.final_figures():
+            for figure in self.final_figures().values():
                 show_figure(figure)
             return
         self.refresh_drawings()
