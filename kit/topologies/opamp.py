@@ -27,7 +27,7 @@ swaps signs as written in :func:`_closed_forms`):
 
 * ideal op-amp, ``alpha = 1``: ``I_out = V_SET/R_S``;
 * fixed V_BE with finite gain, offset, bias current and base current
-  (derived here from the loop, as the reference sheet's form
+  (derived here from the loop equations
   ``V_S = [A(V_SET + V_OS) - V_BE - I_B R_B]/(1 + A)``,
   ``I_out = alpha (V_S/R_S + I_b)``, with ``I_B = I_E/(beta+1)`` solved)::
 
