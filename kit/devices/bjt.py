@@ -124,6 +124,7 @@ class BJTModel:
         for name, (low, high, unit) in MODEL_LIMITS.items():
             value = getattr(self, name)
             check_range(name, value, low, high, unit, allow_inf=(name == "v_a"))
+            object.__setattr__(self, name, float(value))  # 120 and 120.0 are the same part
 
     def with_values(self, **changes):
         """A copy with some parameters changed (validated like the original)."""
