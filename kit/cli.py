@@ -350,7 +350,7 @@ def _new(topology, output, record_path, polarity):
                 raise DesignError("the record is of another topology", parameter="topology",
                                   value=topology, valid=record.design.topology)
             relative = os.path.relpath(os.path.abspath(record_path), os.path.dirname(os.path.abspath(output)))
-            notebook = new_notebook(record.design, record_path=relative, title=record.title,
+            notebook = new_notebook(record.design, record_path=relative, title=record.title, notes=record.notes,
                                     has_spec=record.spec is not None)
         else:
             design = kit.design(topology, polarity or "npn", title=f"New {topology} design")

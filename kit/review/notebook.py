@@ -47,7 +47,11 @@ plot.legend.location = "bottom_right"
 show(plot)'''
 
 
-def new_notebook(design, *, record_path=None, title=None, has_spec=False):
+REQUIREMENT_PROMPT = ("State the requirement here: the current and its tolerance, the load-voltage range, "
+                      "the supply and temperature ranges.")
+
+
+def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=""):
     """A design notebook for ``design`` (a :class:`kit.designs.Design`).
 
     With ``record_path`` the notebook loads its design from that record (a
@@ -67,9 +71,8 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False):
         load = (f"record = None\ndesign = kit.design({top.key!r}, {design.polarity!r}, {values},\n"
                 f"                    title={heading!r})\nspec = None")
     cells = [
-        _markdown(f"# {heading}\n\n{top.title} ({design.polarity.upper()}). {top.description}\n\n"
-                  "State the requirement here: the current and its tolerance, the load-voltage range, "
-                  "the supply and temperature ranges."),
+        _markdown(f"# {heading}\n\n{top.title} ({top.polarity_label(design.polarity)}). "
+                  f"{top.description}\n\n{notes.strip() or REQUIREMENT_PROMPT}"),
         _code("# NBVAL_IGNORE_OUTPUT\nimport numpy as np\nimport kit\n"
               "from bokeh.io import output_notebook\nfrom bokeh.resources import INLINE\n"
               "from kit.derivation import derivation\nfrom kit.evaluation import sweep\n"
@@ -105,4 +108,4 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False):
 def notebook_for_record(record, path):
     """The template notebook of a loaded record stored at ``path``."""
     return new_notebook(record.design, record_path=Path(path).resolve(), title=record.title,
-                        has_spec=getattr(record, "spec", None) is not None)
+                        has_spec=getattr(record, "spec", None) is not None, notes=record.notes)
