@@ -28,8 +28,9 @@ purely linear %/K form or ``beta_tc = 0`` (the default) for the power law.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass
 
+from kit.devices.common import ModelValues
 from kit.errors import ParameterError
 
 # k and e are exact by definition in the 2019 SI (CODATA 2018); written out so
@@ -59,7 +60,7 @@ def thermal_voltage(temp):
 
 
 @dataclass(frozen=True)
-class BJTModel:
+class BJTModel(ModelValues):
     """Parameters of one transistor, given at the design's reference temperature.
 
     Parameters
@@ -126,17 +127,6 @@ class BJTModel:
             check_range(name, value, low, high, unit, allow_inf=(name == "v_a"))
             object.__setattr__(self, name, float(value))  # 120 and 120.0 are the same part
 
-    def with_values(self, **changes):
-        """A copy with some parameters changed (validated like the original)."""
-        unknown = set(changes) - {f.name for f in fields(self)}
-        if unknown:
-            raise ParameterError("unknown transistor parameter", parameter=sorted(unknown)[0],
-                                 valid=", ".join(MODEL_LIMITS))
-        return replace(self, **changes)
-
-    def numbers(self):
-        """The numeric parameters as a dict (for parameter vectors and JSON)."""
-        return {name: float(getattr(self, name)) for name in MODEL_LIMITS}
 
 
 # name: (lowest, highest, unit) -- wide enough for any real part, narrow
@@ -155,6 +145,10 @@ MODEL_LIMITS = {
     "theta_ja": (0.1, 2000.0, "K/W"),
     "t_j_max": (300.0, 600.0, "K"),
 }
+
+
+BJTModel.LIMITS = MODEL_LIMITS
+BJTModel.WHAT = "transistor"
 
 
 def check_range(name, value, low, high, unit="", *, allow_inf=False):

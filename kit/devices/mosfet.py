@@ -51,9 +51,10 @@ device (it sinks), a PMOS a ``"pnp"`` one (it sources); ``"nmos"`` and
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass
 
 from kit.devices.bjt import BOLTZMANN_OVER_CHARGE, check_range
+from kit.devices.common import ModelValues
 from kit.errors import ParameterError
 
 # Channel words <-> the kit's design-polarity words.
@@ -62,7 +63,7 @@ _ACCEPTED = {"npn": "npn", "nmos": "npn", "pnp": "pnp", "pmos": "pnp"}
 
 
 @dataclass(frozen=True)
-class MOSFETModel:
+class MOSFETModel(ModelValues):
     """Parameters of one enhancement MOSFET, given at the reference temperature.
 
     All voltages are magnitudes in the conducting sense (a PMOS threshold of
@@ -146,17 +147,6 @@ class MOSFETModel:
         """Breakdown voltage under the name the compliance search reads for every kind (= ``bv_dss``)."""
         return self.bv_dss
 
-    def with_values(self, **changes):
-        """A copy with some parameters changed (validated like the original)."""
-        unknown = set(changes) - {f.name for f in fields(self)}
-        if unknown:
-            raise ParameterError("unknown MOSFET parameter", parameter=sorted(unknown)[0],
-                                 valid=", ".join(MODEL_LIMITS))
-        return replace(self, **changes)
-
-    def numbers(self):
-        """The numeric parameters as a dict (for parameter vectors and JSON)."""
-        return {name: float(getattr(self, name)) for name in MODEL_LIMITS}
 
 
 # name: (lowest, highest, unit) -- wide enough for integrated and discrete
@@ -173,6 +163,9 @@ MODEL_LIMITS = {
     "theta_ja": (0.1, 2000.0, "K/W"),
     "t_j_max": (300.0, 600.0, "K"),
 }
+
+MOSFETModel.LIMITS = MODEL_LIMITS
+MOSFETModel.WHAT = "MOSFET"
 
 TYPICAL_NMOS = MOSFETModel()
 TYPICAL_PMOS = MOSFETModel(
