@@ -229,6 +229,19 @@ class Circuit:
         self.add_device(name, mosfet.KIND, {k: law[k] for k in mosfet.QUANTITIES})
         return symbols
 
+    def small_signal(self, name):
+        """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of BJT ``name`` at the exact point.
+
+        Same model as the exact equations (forward Early factor on the
+        transport current), each with the transistor's own junction V_T:
+        ``g_m = I_C/V_T``, ``r_π = V_T/I_B``, ``r_o = (V_A + V_CE)/I_C``.
+        """
+        j = self.transistors[name]
+        v_t = sp.Symbol(f"V_T_{name}", positive=True)
+        v_a = sp.Symbol(f"V_A_{name}", positive=True)
+        return {"g_m": j["i_c"] / v_t, "r_pi": v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
+                "beta": j["i_c"] / j["i_b"]}
+
     def add_device(self, name, kind, quantities):
         """Register a device's exported quantities (for device kinds added elsewhere)."""
         if name in self.transistors:
@@ -269,3 +282,19 @@ class Circuit:
             extras=dict(extras or {}),
             closed_forms=dict(closed_forms or {}),
         )
+
+
+def degenerated_output_resistance(r_o, beta, r_pi, r_e, r_b):
+    """``r_o [1 + β R_E/(R_E + r_π + R_B)] + R_E || (r_π + R_B)``: R_out of a degenerated stage.
+
+    Exact for the hybrid-π model (no r_μ) with the base returned through R_B
+    and the emitter through R_E; for ``R_B = 0`` it is Sedra & Smith's
+    ``r_o [1 + g_m (R_E||r_π)] + R_E||r_π`` (*Microelectronic Circuits*, from
+    memory; UC Berkeley EE105 notes on emitter degeneration).
+
+    Examples
+    --------
+    >>> round(degenerated_output_resistance(1e5, 100.0, 2500.0, 1e3, 0.0) / 1e6, 4)
+    2.9579
+    """
+    return r_o * (1 + beta * r_e / (r_e + r_pi + r_b)) + r_e * (r_pi + r_b) / (r_e + r_pi + r_b)

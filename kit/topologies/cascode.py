@@ -53,37 +53,6 @@ LABEL_ROOM = 1.8  # drawing units beside the reference source for its two-line l
 # by the source of the module that builds the equations)
 
 
-def small_signal(c, name):
-    """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of transistor ``name`` at the exact point.
-
-    Same model as the exact equations (M-CE Early form), each with the
-    transistor's own junction V_T: ``g_m = I_C/V_T``, ``r_π = V_T/I_B``,
-    ``r_o = (V_A + V_CE)/I_C``.
-    """
-    import sympy as sp
-
-    j = c.transistors[name]
-    v_t = sp.Symbol(f"V_T_{name}", positive=True)
-    v_a = sp.Symbol(f"V_A_{name}", positive=True)
-    return {"g_m": j["i_c"] / v_t, "r_pi": v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
-            "beta": j["i_c"] / j["i_b"]}
-
-
-def degenerated_output_resistance(r_o, beta, r_pi, r_e, r_b):
-    """``r_o [1 + β R_E/(R_E + r_π + R_B)] + R_E || (r_π + R_B)``: R_out of a degenerated stage.
-
-    Exact for the hybrid-π model (no r_μ) with the base returned through R_B
-    and the emitter through R_E; for ``R_B = 0`` it is Sedra & Smith's
-    ``r_o [1 + g_m (R_E||r_π)] + R_E||r_π`` (from memory).
-
-    Examples
-    --------
-    >>> round(degenerated_output_resistance(1e5, 100.0, 2500.0, 1e3, 0.0) / 1e6, 4)
-    2.9579
-    """
-    return r_o * (1 + beta * r_e / (r_e + r_pi + r_b)) + r_e * (r_pi + r_b) / (r_e + r_pi + r_b)
-
-
 def cascode_mirror_output_resistance():
     """Exact hybrid-π R_out of the cascode mirror in placeholder symbols (nodal analysis).
 
@@ -202,9 +171,9 @@ def build_mirror(polarity):
     formula, placeholders = cascode_mirror_output_resistance()
     at_point = {}
     for name in placeholders:
-        point = small_signal(c, name)
+        point = c.small_signal(name)
         at_point.update({placeholders[name][k]: point[k] for k in ("g_m", "r_pi", "r_o")})
-    q4_point = small_signal(c, "Q4")
+    q4_point = c.small_signal("Q4")
     extras = {
         "r_out_hybrid_pi": formula.xreplace(at_point),
         "r_out_beta_ro_half": q4_point["beta"] * q4_point["r_o"] / 2,
@@ -261,7 +230,7 @@ def reference_headroom(points):
 def _build_source(polarity, bias):
     import sympy as sp
 
-    from kit.circuit import Circuit
+    from kit.circuit import Circuit, degenerated_output_resistance
     from kit.derive import wright_omega_function
 
     npn = polarity == "npn"
@@ -310,7 +279,7 @@ def _build_source(polarity, bias):
         * lower_stage(b1 * early_1, q1["I_S"] * early_1),
     }
 
-    ss1, ss2 = small_signal(c, "Q1"), small_signal(c, "Q2")
+    ss1, ss2 = c.small_signal("Q1"), c.small_signal("Q2")
     r_x = degenerated_output_resistance(ss1["r_o"], ss1["beta"], ss1["r_pi"], r_e, r_th)
     extras = {
         "r_out_cascode": degenerated_output_resistance(ss2["r_o"], ss2["beta"], ss2["r_pi"], r_x,

@@ -57,7 +57,7 @@ def build(polarity):
     """The exact equations of one polarity."""
     import sympy as sp
 
-    from kit.circuit import Circuit
+    from kit.circuit import Circuit, degenerated_output_resistance
     from kit.derive import wright_omega_function
 
     npn = polarity == "npn"
@@ -76,7 +76,7 @@ def build(polarity):
         "V_BE_on", c.parameter("v_be_on") + c.parameter("v_be_tc") * (c.temp - c.t_ref))
 
     v_cc = c.voltages["cc"]
-    beta, i_s, v_a = q1["beta"], q1["I_S"], q1["V_A"]
+    beta, i_s = q1["beta"], q1["I_S"]
     v_t = q1["V_T"]  # at Q1's junction, so the closed forms hold with self-heating too
     drive = v_cc * (r2 if npn else r1) / (r1 + r2)
     r_th = r1 * r2 / (r1 + r2)
@@ -88,12 +88,8 @@ def build(polarity):
         "exponential": v_t / k * omega(drive / v_t + sp.log(i_s * k / v_t)),
     }
 
-    j = c.transistors["Q1"]
-    r_o = (v_a + j["v_ce"]) / j["i_c"]
-    r_pi = v_t / j["i_b"]
-    beta_ac = j["i_c"] / j["i_b"]
-    r_out = (r_o * (1 + beta_ac * r_e / (r_e + r_pi + r_th))
-             + r_e * (r_pi + r_th) / (r_e + r_pi + r_th))
+    point = c.small_signal("Q1")
+    r_out = degenerated_output_resistance(point["r_o"], point["beta"], point["r_pi"], r_e, r_th)
     return c.equations(extras={"r_out_hybrid_pi": r_out}, closed_forms=closed_forms,
                        hand_parameters=("v_be_on", "v_be_tc"))
 

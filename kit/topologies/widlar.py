@@ -128,7 +128,7 @@ def diode_current(v_drive, r_series, i_s, v_t):
 
 
 def _build(polarity, reference):
-    from kit.circuit import Circuit
+    from kit.circuit import Circuit, degenerated_output_resistance
 
     npn = polarity == "npn"
     c = Circuit(polarity)
@@ -183,7 +183,7 @@ def _build(polarity, reference):
             "first_order_beta_early": widlar_current(i_c1_early, r_e, n * q_2 / q_1, v_t, b2 * q_2),
         }
 
-    ss1, ss2 = _small_signal(c, "Q1"), _small_signal(c, "Q2")
+    ss1, ss2 = c.small_signal("Q1"), c.small_signal("Q2")
     diode = 1 / (ss1["g_m"] + 1 / ss1["r_pi"] + 1 / ss1["r_o"])
     r_base = diode if reference == "ideal" else diode * r_ref / (diode + r_ref)
     extras = {
@@ -194,32 +194,6 @@ def _build(polarity, reference):
     }
     return c.equations(extras=extras, closed_forms=closed_forms,
                        hand_parameters=("v_be_on", "v_be_tc"))
-
-
-def degenerated_output_resistance(r_o, beta, r_pi, r_e, r_b):
-    """``r_o [1 + β R_E/(R_E + r_π + R_B)] + R_E || (r_π + R_B)``: exact hybrid-π R_out.
-
-    With ``R_B = 0`` this is the Sedra & Smith form ``r_o [1 + g_m (R_E||r_π)]
-    + R_E||r_π`` (*Microelectronic Circuits*, from memory; UC Berkeley EE105
-    notes on emitter degeneration).
-
-    Examples
-    --------
-    >>> round(degenerated_output_resistance(1e5, 100.0, 2500.0, 1e3, 0.0) / 1e6, 4)
-    2.9579
-    """
-    return r_o * (1 + beta * r_e / (r_e + r_pi + r_b)) + r_e * (r_pi + r_b) / (r_e + r_pi + r_b)
-
-
-def _small_signal(c, name):
-    """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of ``name`` (same model, own junction V_T)."""
-    import sympy as sp
-
-    j = c.transistors[name]
-    v_t = sp.Symbol(f"V_T_{name}", positive=True)
-    v_a = sp.Symbol(f"V_A_{name}", positive=True)
-    return {"g_m": j["i_c"] / v_t, "r_pi": v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
-            "beta": j["i_c"] / j["i_b"]}
 
 
 def build_ideal(polarity):

@@ -158,22 +158,6 @@ def hybrid_pi_output_resistance(nodes, output, resistors=(), transistors=()):
     return 1 / current
 
 
-def _small_signal(c, name):
-    """Hybrid-π g_m, r_π, r_o and β = I_C/I_B of transistor ``name`` at the exact point.
-
-    Built from the same model as the exact equations (M-CE Early form):
-    ``g_m = I_C/V_T``, ``r_π = V_T/I_B``, ``r_o = (V_A + V_CE)/I_C``, each with
-    the transistor's own junction V_T.
-    """
-    import sympy as sp
-
-    j = c.transistors[name]
-    v_t = sp.Symbol(f"V_T_{name}", positive=True)
-    v_a = sp.Symbol(f"V_A_{name}", positive=True)
-    return {"g_m": j["i_c"] / v_t, "r_pi": v_t / j["i_b"], "r_o": (v_a + j["v_ce"]) / j["i_c"],
-            "beta": j["i_c"] / j["i_b"]}
-
-
 def hybrid_pi_symbols(name):
     """Placeholder symbols ``g_m``, ``r_pi``, ``r_o`` of transistor ``name`` (SymPy)."""
     import sympy as sp
@@ -248,9 +232,9 @@ def _build(polarity, four):
     formula, placeholders = output_resistance_formula(four)
     at_point = {}
     for name in names:
-        ss = _small_signal(c, name)
+        ss = c.small_signal(name)
         at_point.update({placeholders[name][k]: ss[k] for k in ("g_m", "r_pi", "r_o")})
-    q3_point = _small_signal(c, "Q3")
+    q3_point = c.small_signal("Q3")
     extras = {
         "r_out_hybrid_pi": formula.xreplace(at_point),
         "r_out_beta_ro_half": q3_point["beta"] * q3_point["r_o"] / 2,
