@@ -21,7 +21,6 @@ import hashlib
 import importlib.util
 import json
 import os
-import sys
 from functools import lru_cache
 from pathlib import Path
 

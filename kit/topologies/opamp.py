@@ -172,7 +172,7 @@ def build_bjt(polarity):
     v_on = c.operating_value(
         "V_BE_on", c.parameter("v_be_on") + c.parameter("v_be_tc") * (c.temp - c.t_ref))
 
-    a, r_s, i_b = s["A"], s["R_S"], s["I_b"]
+    a, r_s = s["A"], s["R_S"]
     beta, i_s, v_t = q1["beta"], q1["I_S"], q1["V_T"]
     alpha = beta / (beta + 1)
     k = (1 + a) * r_s + r_b / (beta + 1)

@@ -210,7 +210,7 @@ def _transistor_forms(parts, drive, r_th, stiff_drive):
 
     from kit.derive import wright_omega_function
 
-    c, q1, r_e, v_on = parts["c"], parts["q1"], parts["r_e"], parts["v_on"]
+    q1, r_e, v_on = parts["q1"], parts["r_e"], parts["v_on"]
     beta, i_s, v_t = q1["beta"], q1["I_S"], q1["V_T"]  # Q1 at its own junction temperature
     k = (r_th + (beta + 1) * r_e) / beta
     omega = wright_omega_function()
@@ -279,7 +279,7 @@ def build_zener_diode(polarity):
 
     npn = polarity == "npn"
     parts = _parts(polarity)
-    c, top, bottom, r_feed = parts["c"], parts["top"], parts["bottom"], parts["r_feed"]
+    c, r_feed = parts["c"], parts["r_feed"]
     v_z0, r_z = _zener_law(c)
     i_sd, n_id = _diode_law(c)
     c.node("m")  # between the zener and the diode
