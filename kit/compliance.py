@@ -32,6 +32,7 @@ CAUSES = {
     "power": "reaches its dissipation limit",
     "output_swing": "reaches its output swing limit",
     "zener_current": "falls below its least zener current",
+    "headroom": "has no headroom under the supply",
     "solve": "has no converged operating point",
 }
 

@@ -42,6 +42,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from kit.topologies import mirrors_common as _common
 from kit.topologies.base import Simplification, Topology, ValueSpec
 
 SATURATED_VBC_GUESS = 0.55  # V; forward bias of a saturated collector junction
@@ -214,14 +215,6 @@ def guess_mirror(model, q):
     h_4 = np.minimum(h_4, np.minimum(h_3 - 0.3, h_out + SATURATED_VCE_GUESS))
     heights = {"V_n1": h_1, "V_n3": h_3, "V_n4": h_4}
     return np.stack([rail + sign * heights[name] for name in model.unknowns])
-
-
-def reference_headroom(points):
-    """Margin of the ideal reference current: its node must stay inside the supply."""
-    m = points.model
-    v_in = points.x[m.unknowns.index("V_n3")]
-    v_cc = points.q[m.operating_index["V_CC"]]
-    return {("I_REF", "has_no_headroom"): v_cc - v_in if m.polarity == "npn" else v_in}
 
 
 # ---------------------------------------------------------------------------
@@ -548,7 +541,7 @@ TOPOLOGIES = (
             "r_out_beta_ro_half": "R_out ≈ β r_o4 / 2 (Gray et al., ch. 4, from memory)",
         },
         notes=NOTES_MIRROR,
-        limits=reference_headroom,
+        limits=_common.reference_headroom('n3'),
         budget_labels={"I_REF": "reference current I_REF"},
     ),
     Topology(

@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from kit.topologies import mirrors_common as _common
 from kit.topologies.base import Simplification, Topology, ValueSpec
 
 SATURATED_VBC_GUESS = 0.55  # V; forward bias of a saturated output collector junction
@@ -242,14 +243,6 @@ def guess(model, q):
     return np.stack([rail + sign * heights[name] for name in model.unknowns])
 
 
-def reference_headroom(points):
-    """Margin of the ideal reference current: its node must stay inside the supply."""
-    m = points.model
-    v_b = points.x[m.unknowns.index("V_b")]
-    v_cc = points.q[m.operating_index["V_CC"]]
-    return {("I_REF", "has_no_headroom"): v_cc - v_b if m.polarity == "npn" else v_b}
-
-
 # ---------------------------------------------------------------------------
 # schematic
 
@@ -317,7 +310,7 @@ TOPOLOGIES = (
         build=build_ideal,
         guess=guess,
         draw=draw_ideal,
-        limits=reference_headroom,
+        limits=_common.reference_headroom('b'),
         extras=EXTRAS,
         notes=NOTES,
         budget_labels={"I_REF": "reference current I_REF"},

@@ -41,6 +41,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from kit.topologies import mirrors_common as _common
 from kit.topologies.base import Simplification, Topology
 
 SATURATED_VBC_GUESS = 0.55  # V; forward bias of a saturated output collector junction
@@ -283,18 +284,6 @@ def guess(model, q):
     return np.stack([rail + sign * heights[name] for name in model.unknowns])
 
 
-def reference_headroom(points):
-    """Margin of the ideal reference current: the input node must stay inside the supply.
-
-    Returns ``{("I_REF", "has_no_headroom"): volts}`` (>= 0 inside), for
-    :func:`kit.compliance.margins`.
-    """
-    m = points.model
-    v_x = points.x[m.unknowns.index("V_x")]
-    v_cc = points.q[m.operating_index["V_CC"]]
-    return {("I_REF", "has_no_headroom"): v_cc - v_x if m.polarity == "npn" else v_x}
-
-
 # ---------------------------------------------------------------------------
 # schematic
 
@@ -385,7 +374,7 @@ TOPOLOGIES = (
         draw=draw_wilson,
         extras=EXTRAS,
         notes=NOTES,
-        limits=reference_headroom,
+        limits=_common.reference_headroom('x'),
         budget_labels=BUDGET_LABELS,
     ),
     Topology(
@@ -405,7 +394,7 @@ TOPOLOGIES = (
         draw=draw_improved,
         extras=EXTRAS,
         notes=NOTES,
-        limits=reference_headroom,
+        limits=_common.reference_headroom('x'),
         budget_labels=BUDGET_LABELS,
     ),
 )
