@@ -6,7 +6,7 @@ a notebook, in an exported page and in a test alike.
 
 from __future__ import annotations
 
-import html
+from kit.safety import html_text
 
 STYLE = (
     "<style>"
@@ -23,7 +23,8 @@ STYLE = (
 
 
 def escape(value):
-    return html.escape(str(value))
+    """Text for an HTML element: escaped and never typeset (:func:`kit.safety.html_text`)."""
+    return html_text(value)
 
 
 def table(headers, rows, *, numeric=()):

@@ -22,7 +22,9 @@ import tempfile
 from pathlib import Path
 
 from kit.errors import DesignError
+from kit.review.policy import with_content_policy
 from kit.review.summary import MIME
+from kit.safety import css_string
 
 TEMPLATES = Path(__file__).parent / "templates"
 WIDGET_MIME = "application/vnd.jupyter.widget-view+json"
@@ -114,18 +116,24 @@ def to_html(notebook, *, with_code=False):
                             exclude_output_prompt=True)
     footer = f"{summary['title']} — rev. {summary['revision']} — biasbook {summary['versions']['biasbook']}"
     resources = {"biasbook": {"summary": summary, "summary_html": summary_html,
-                              "mathjax_url": mathjax_url(), "footer": footer}}
+                              "mathjax_url": mathjax_url(), "footer_css": css_string(footer)}}
     body, _ = exporter.from_notebook_node(notebook, resources=resources)
-    return body
+    return with_content_policy(body)
 
 
 def print_pdf(html_path, pdf_path):
-    """Print a local HTML file to PDF with headless Chromium (no network)."""
+    """Print a local HTML file to PDF with headless Chromium (no network).
+
+    The page gets the browser's default file policy: it may load the scripts
+    it names, but never read other files (no ``--allow-file-access-from-files``);
+    its content-security policy (:mod:`kit.review.policy`) runs only the
+    review's own scripts.
+    """
     with tempfile.TemporaryDirectory(prefix="biasbook-chromium-") as profile:
         command = [chromium_path(), "--headless", "--no-sandbox", "--disable-gpu",
                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
                    "--no-first-run", "--disable-extensions", f"--user-data-dir={profile}",
-                   "--allow-file-access-from-files", f"--virtual-time-budget={PRINT_BUDGET_MS}",
+                   f"--virtual-time-budget={PRINT_BUDGET_MS}",
                    "--no-pdf-header-footer", f"--print-to-pdf={pdf_path}", Path(html_path).resolve().as_uri()]
         result = subprocess.run(command, capture_output=True, text=True, timeout=180)
     if result.returncode != 0 or not Path(pdf_path).exists():

@@ -11,6 +11,8 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from kit.safety import markdown_block, markdown_inline
+
 
 def _code(source, *, hide=False):
     import nbformat
@@ -70,9 +72,10 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
         values = ", ".join(f"{k}={v!r}" for k, v in design.values.items())
         load = (f"record = None\ndesign = kit.design({top.key!r}, {design.polarity!r}, {values},\n"
                 f"                    title={heading!r})\nspec = None")
+    # The title and notes may come from a record someone mailed: shown as text, never as markup.
     cells = [
-        _markdown(f"# {heading}\n\n{top.title} ({top.polarity_label(design.polarity)}). "
-                  f"{top.description}\n\n{notes.strip() or REQUIREMENT_PROMPT}"),
+        _markdown(f"# {markdown_inline(heading)}\n\n{top.title} ({top.polarity_label(design.polarity)}). "
+                  f"{top.description}\n\n" + (markdown_block(notes.strip()) if notes.strip() else REQUIREMENT_PROMPT)),
         _code("# NBVAL_IGNORE_OUTPUT\nimport numpy as np\nimport kit\n"
               "from bokeh.io import output_notebook\nfrom bokeh.resources import INLINE\n"
               "from kit.derivation import derivation\nfrom kit.evaluation import sweep\n"
