@@ -17,16 +17,30 @@ __version__ = "0.1.0"
 from kit.errors import DesignError  # noqa: E402
 
 
+def _show_results_in_ipython():
+    # Results hold numbers; in an IPython session their display goes through the
+    # report layer.  Only when IPython is already loaded: a script imports nothing more.
+    import sys
+
+    if "IPython" in sys.modules:
+        from kit.report.jupyter import register
+
+        register()
+
+
+_show_results_in_ipython()
+
+
 def __getattr__(name):
     # Lazy public API: importing kit must stay cheap and pull in no GUI code.
     # Module names differ from these attribute names on purpose, so that
     # importing a submodule never shadows a function here.
     if name in ("design", "Design"):
-        from kit import designs
+        from kit.model import design
 
-        return designs.make_design if name == "design" else designs.Design
+        return design.make_design if name == "design" else design.Design
     if name == "evaluate":
-        from kit.evaluation import evaluate
+        from kit.analysis.evaluation import evaluate
 
         return evaluate
     if name in ("topology", "list_topologies"):

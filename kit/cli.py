@@ -25,26 +25,17 @@ import sys
 import kit
 from kit.errors import DesignError
 from kit.record import EDGES
+from kit.safety import terminal_text
 
-__all__ = ["main", "build_parser", "cautions", "EXIT_OK", "EXIT_BAD_INPUT", "EXIT_NOT_EVALUABLE"]
+__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_BAD_INPUT", "EXIT_NOT_EVALUABLE"]
 
 EXIT_OK = 0
 EXIT_BAD_INPUT = 2
 EXIT_NOT_EVALUABLE = 3
 EXIT_CUT_SHORT = 1  # stdout closed before the report was written
 
-# Touch-voltage and temperature thresholds for the cautions, from memory:
-# 60 V DC is the usual dry-skin limit of safety extra-low voltage (IEC 61140
-# ELV/SELV bands), and about 60 °C is where a metal surface becomes unsafe to
-# keep touching (touch-temperature tables of IEC 62368-1).
-HAZARDOUS_DC_VOLTS = 60.0
-HOT_SURFACE_KELVIN = 333.15
-# Heat is only this design's doing when the part warms itself by more than
-# this; a hot enclosure alone is the enclosure's caution, not ours.
-SELF_HEATING_KELVIN = 10.0
-
 EDGE_WORDS = {"vce_sat": "saturated below the part's V_CE(sat)",
-              "vcb_zero": "saturated once the collector-base junction reaches 0 V"}
+              "vcb_zero": "saturated once the collector-base junction is forward biased by more than V_T"}
 
 
 class _UsageError(Exception):
@@ -108,7 +99,7 @@ def build_parser():
     new.add_argument("topology", metavar="TOPOLOGY", help="a name from `biasbook topologies`")
     new.add_argument("-o", "--output", required=True, metavar="NOTEBOOK.ipynb")
     new.add_argument("--record", metavar="RECORD.toml", help="take the design from this record")
-    new.add_argument("--polarity", default=None, help="npn or pnp (default: the record's, else npn)")
+    new.add_argument("--polarity", default=None, help="one of the topology's polarity words: npn or pnp, nmos or pmos (default: the record's, else the first)")
     return parser
 
 
@@ -168,8 +159,21 @@ def _emit_json(value):
     print(json.dumps(json_ready(value), indent=2, ensure_ascii=True, allow_nan=False))
 
 
+_ERROR_COLOUR, _PLAIN = "\x1b[1;31m", "\x1b[0m"
+
+
+def _colour_wanted(stream):
+    """Colour only for a terminal, and not when NO_COLOR is set (no-color.org) or TERM is dumb."""
+    try:
+        terminal = stream.isatty()
+    except (AttributeError, ValueError):  # no such method, or the stream is closed
+        return False
+    return terminal and not os.environ.get("NO_COLOR") and os.environ.get("TERM") != "dumb"
+
+
 def _report_failure(details, text, code, wants_json):
-    print(f"biasbook: {text}", file=sys.stderr)
+    head = f"{_ERROR_COLOUR}biasbook:{_PLAIN}" if _colour_wanted(sys.stderr) else "biasbook:"
+    print(f"{head} {terminal_text(text)}", file=sys.stderr)  # the text never carries escapes
     if wants_json:
         _emit_json(details | {"exit_code": code})
     return code
@@ -182,54 +186,35 @@ def _failure(err, code, wants_json):
 # --- topologies ---------------------------------------------------------------------
 
 def _list_topologies(as_json):
+    from kit.report import topology as report
     from kit.topologies import all_topologies
 
-    described = [t.describe() for t in all_topologies()]
     if as_json:
-        _emit_json(described)
+        _emit_json([report.describe(t) for t in all_topologies()])
     else:
-        print("\n\n".join(_topology_block(d) for d in described))
+        print("\n\n".join(report.text(t) for t in all_topologies()))
     return EXIT_OK
-
-
-def _topology_block(d):
-    from kit.quantities import format_quantity
-
-    lines = [f"{d['name']}: {d['title']}", f"  {d['description']}",
-             f"  polarities   {', '.join(d['polarities'])}",
-             f"  transistors  {', '.join(d['transistors'])}", "  values"]
-    width = max(len(p["name"]) for p in d["parameters"])
-    for p in d["parameters"]:
-        unit = p["unit"]
-        low, high = (format_quantity(v, unit) for v in p["range"])
-        lines.append(f"    {p['name']:<{width}}  [{unit or '-'}]  {p['description']}; "
-                     f"default {format_quantity(p['default'], unit)}, range {low} … {high}")
-    lines.append(f"  derived      {', '.join(d['derived'])}")
-    lines.append("  simplifications")
-    for s in d["simplifications"]:
-        lines.append(f"    {s['name']}: {s['label']} ({s['source']})")
-    return "\n".join(lines)
 
 
 # --- evaluate -----------------------------------------------------------------------
 
 def _evaluate(path, edge, as_json):
-    from kit.record import field_path, load_record
+    from kit.record import load_record
 
     try:
         record = load_record(path)
     except DesignError as err:  # a RecordError naming the field
         return _failure(err, EXIT_BAD_INPUT, as_json)
     edge = edge or record.edge
+    from kit import report as reports
+    from kit.report.cautions import cautions
+
     try:
         evaluation = kit.evaluate(record.design, edge=edge)
-        report = evaluation.to_dict() if as_json else evaluation.text()
+        report = evaluation.to_dict() if as_json else reports.text(evaluation)
         warnings = cautions(evaluation)
     except DesignError as err:
-        # Name the record field, not the kit's flat parameter, in the message.
-        shown = type(err)(err.message, parameter=field_path(err.parameter, record.design.spec),
-                          value=err.value, valid=err.valid)
-        return _failure(shown, EXIT_NOT_EVALUABLE, as_json)
+        return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     digest = record.content_hash()
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": digest,
@@ -244,6 +229,15 @@ def _evaluate(path, edge, as_json):
     return EXIT_OK
 
 
+def _as_field(err, record):
+    """The error naming the record field (``values.r1``), not the kit's flat parameter."""
+    from kit.record import field_path
+
+    return type(err)(err.message, parameter=field_path(err.parameter, record.design.topology,
+                                                       record.design.polarity),
+                     value=err.value, valid=err.valid)
+
+
 def _record_heading(record, digest, edge):
     by = [part for part in (f"revision {record.revision}" if record.revision else "",
                             f"by {record.author}" if record.author else "") if part]
@@ -251,6 +245,7 @@ def _record_heading(record, digest, edge):
              f"file      {record.source}",
              f"sha256    {digest}",
              f"edge      {edge}: {EDGE_WORDS[edge]}"]
+    lines += [f"migrated  {note}" for note in record.migrated]
     for name, model in record.design.devices.items():
         lines.append(f"{name:<9} {model.label}")
     return "\n".join(lines)
@@ -279,7 +274,7 @@ def _record_with_spec(path, as_json):
 
 def _check(path, as_json, self_heating):
     from kit.analysis.worstcase import worst_case
-    from kit.record import field_path
+    from kit.report import text
 
     record, code = _record_with_spec(path, as_json)
     if record is None:
@@ -288,34 +283,33 @@ def _check(path, as_json, self_heating):
         kit.evaluate(record.design, edge=record.edge)  # the design point itself must work
         result = worst_case(record.design, record.spec, self_heating=self_heating, edge=record.edge)
     except DesignError as err:
-        shown = type(err)(err.message, parameter=field_path(err.parameter, record.design.spec),
-                          value=err.value, valid=err.valid)
-        return _failure(shown, EXIT_NOT_EVALUABLE, as_json)
+        return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
                     "check": result.to_dict()})
     else:
         print(_record_heading(record, record.content_hash(), record.edge))
         print()
-        print(result.text())
+        print(text(result))
     return EXIT_OK if result.met else EXIT_SPEC_NOT_MET
 
 
 def _synthesize(path, as_json, every):
     from kit.analysis.synthesis import synthesize
+    from kit.report import text
 
     record, code = _record_with_spec(path, as_json)
     if record is None:
         return code
     design = record.design
-    topologies = None if every else [design.topology]
+    topologies = None if every else [design.topology.key]
     result = synthesize(record.spec, topologies=topologies, polarities=[design.polarity])
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
                     "synthesis": result.to_dict()})
     else:
         print(f"record    {record.title}\nspec      {record.spec.i_target:g} A ± {record.spec.tolerance:.2%}\n")
-        print(result.text())
+        print(text(result))
     return EXIT_OK if result.best is not None else EXIT_SPEC_NOT_MET
 
 
@@ -346,14 +340,14 @@ def _new(topology, output, record_path, polarity):
             from kit.record import load_record
 
             record = load_record(record_path)
-            if record.design.topology != topology:
+            if record.design.topology.key != topology:
                 raise DesignError("the record is of another topology", parameter="topology",
-                                  value=topology, valid=record.design.topology)
+                                  value=topology, valid=record.design.topology.key)
             relative = os.path.relpath(os.path.abspath(record_path), os.path.dirname(os.path.abspath(output)))
             notebook = new_notebook(record.design, record_path=relative, title=record.title, notes=record.notes,
                                     has_spec=record.spec is not None)
         else:
-            design = kit.design(topology, polarity or "npn", title=f"New {topology} design")
+            design = kit.design(topology, polarity, title=f"New {topology} design")
             notebook = new_notebook(design)
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT, False)
@@ -363,43 +357,6 @@ def _new(topology, output, record_path, polarity):
     nbformat.write(notebook, output)
     print(output)
     return EXIT_OK
-
-
-def cautions(evaluation):
-    """Safety notes a report on this design must carry (a list of sentences).
-
-    Parameters
-    ----------
-    evaluation : kit.evaluation.Evaluation
-
-    Returns
-    -------
-    list of str
-        Empty when neither voltage nor heat calls for a note.
-    """
-    from kit.quantities import format_quantity, format_temperature
-
-    design = evaluation.design
-    out = []
-    volts = [design.values.get(name) for name in ("v_supply", "v_load")]
-    volts += [evaluation.compliance.high.voltage, evaluation.compliance.low.voltage]
-    highest = max(abs(v) for v in volts if v is not None)
-    if highest > HAZARDOUS_DC_VOLTS:
-        out.append(f"Voltages up to {format_quantity(highest, 'V')} across the compliance range "
-                   f"exceed {HAZARDOUS_DC_VOLTS:g} V DC and can be hazardous to touch: insulate, "
-                   "guard and label them, and follow local electrical codes; mains-derived "
-                   "supplies need a licensed professional's design and sign-off.")
-    transistor, watts, at = evaluation.max_dissipation
-    model = design.devices[transistor]
-    rise = watts * model.theta_ja
-    junction = design.temp + rise
-    if junction > HOT_SURFACE_KELVIN and rise > SELF_HEATING_KELVIN:
-        out.append(f"{transistor} dissipates up to {format_quantity(watts, 'W')} (at a load "
-                   f"voltage of {format_quantity(at, 'V')}); with θ_JA {model.theta_ja:g} K/W its "
-                   f"junction reaches about {format_temperature(junction, 3)}, so the part and "
-                   "the board around it can burn a finger: check the datasheet's derating and "
-                   "keep heat-sensitive parts and people away.")
-    return out
 
 
 if __name__ == "__main__":

@@ -14,7 +14,7 @@ as a whole.
 Examples
 --------
 >>> record = parse_record('''
-... biasbook_record = 1
+... biasbook_record = 2
 ... title = "Doc example"
 ... [circuit]
 ... topology = "divider_source"
@@ -35,13 +35,13 @@ True
 from __future__ import annotations
 
 import copy
-import dataclasses
 import hashlib
 import json
 import math
 import os
 import re
 import tempfile
+import stat
 import tomllib
 import unicodedata
 from pathlib import Path
@@ -49,12 +49,24 @@ from pathlib import Path
 import tomli_w
 
 from kit.errors import ParameterError, RecordError
+from kit.model.structure import structure
+from kit.model.vocabulary import DEFAULT_TEMPERATURE, vocabulary
+from kit.record_scan import first_excess
 
 __all__ = ["Record", "load_record", "parse_record", "save_record", "field_path", "json_ready",
-           "SCHEMA_VERSION", "MAX_RECORD_BYTES", "EDGES"]
+           "SCHEMA_VERSION", "MAX_RECORD_BYTES", "MAX_RECORD_DEPTH", "MAX_RECORD_KEYS",
+           "MAX_RECORD_TOKENS", "EDGES"]
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
+READABLE_VERSIONS = (1, 2)  # format 1 is migrated on reading (see _migrate_1)
 MAX_RECORD_BYTES = 1024 * 1024  # a record is a page of text; anything larger is a mistake
+# Bounds on the shape of the text, checked before the TOML parser runs (see
+# kit.record_scan).  The examples need at most 4 levels, 39 key names and 202
+# tokens.  Within the bounds the parser's time grows with the byte count only
+# (well under a second for 1 MiB of string escapes, its slowest input).
+MAX_RECORD_DEPTH = 16
+MAX_RECORD_KEYS = 1000
+MAX_RECORD_TOKENS = 10_000
 EDGES = ("vce_sat", "vcb_zero")
 FILE = "file"  # the `parameter` of errors about the file as a whole
 
@@ -197,7 +209,8 @@ def _span(low, high, unit):
 # --- sections -------------------------------------------------------------------
 # Each reader takes the raw TOML table (or None when absent) and the circuit
 # facts read so far, and returns the keyword arguments it adds to make_design.
-# A later schema adds a section by adding a reader here and a row to SECTIONS.
+# Every field is checked against the one parameter vocabulary
+# (kit.model.vocabulary): the same units, ranges and names as everywhere else.
 
 def _read_circuit(raw, context):
     from kit import topologies
@@ -206,7 +219,7 @@ def _read_circuit(raw, context):
     _only_keys(table, ("topology", "polarity"), "circuit")
     for name in ("topology", "polarity"):
         if name not in table:
-            raise _fail("missing", f"circuit.{name}", valid=_circuit_valid(name))
+            raise _fail("missing", f"circuit.{name}", valid=_circuit_valid(name, table))
         _text(table[name], f"circuit.{name}", 100)
     try:
         top = topologies.get(table["topology"])
@@ -214,46 +227,47 @@ def _read_circuit(raw, context):
     except ParameterError as err:
         raise _from_kit(err, f"circuit.{err.parameter}") from None
     context["topology"], context["polarity"] = top, table["polarity"]
-    return {"topology": top.key, "polarity": table["polarity"]}
+    context["words"] = vocabulary(top, table["polarity"])
+    return {"topology": top, "polarity": table["polarity"]}
 
 
-def _circuit_valid(name):
+def _circuit_valid(name, table):
     from kit import topologies
 
     if name == "topology":
         return ", ".join(t.key for t in topologies.all_topologies())
-    return "npn or pnp"
+    try:
+        return " or ".join(topologies.get(table.get("topology")).polarities)
+    except ParameterError:
+        return "the topology's polarity words (npn or pnp, nmos or pmos)"
+
+
+def _entry_number(raw, e, hint=""):
+    return _number(raw, e.field, e.unit, (e.low, e.high), hint, allow_inf=e.allow_inf)
 
 
 def _read_values(raw, context):
-    top = context["topology"]
+    top, words = context["topology"], context["words"]
     table = _table(raw, "values")
-    names = [v.name for v in top.values]
-    _only_keys(table, names, "values")
-    missing = [spec for spec in top.values if spec.name not in table]
+    _only_keys(table, top.value_names, "values")
+    missing = [v for v in top.values if v.name not in table]
     if missing:  # all of them at once: a new record often lacks several
         first = missing[0]
-        also = "".join(f", {spec.name}" for spec in missing[1:])
+        also = "".join(f", {v.name}" for v in missing[1:])
         raise _fail(f"missing{f' (and{also[1:]})' if also else ''}; a record gives every value "
                     f"of {top.key} (`biasbook topologies` lists them)", f"values.{first.name}",
-                    valid=_span(first.low, first.high, first.unit))
-    out = {}
-    for spec in top.values:
-        out[spec.name] = _number(table[spec.name], f"values.{spec.name}", spec.unit,
-                                 (spec.low, spec.high))
-    return {"values": out}
+                    valid=first.valid)
+    return {"values": {v.name: _entry_number(table[v.name], words[v.name]) for v in top.values}}
 
 
 def _read_conditions(raw, context):
-    from kit.designs import DEFAULT_TEMPERATURE, TEMPERATURE_RANGE
-
+    words = context["words"]
     table = _table({} if raw is None else raw, "conditions")
     _only_keys(table, ("temp", "t_ref", "edge"), "conditions")
     out = {}
     hint = ' (a bare number is kelvin; write "25 degC" for Celsius)'
     for name in ("temp", "t_ref"):
-        out[name] = (_number(table[name], f"conditions.{name}", "K", TEMPERATURE_RANGE, hint)
-                     if name in table else DEFAULT_TEMPERATURE)
+        out[name] = _entry_number(table[name], words[name], hint) if name in table else DEFAULT_TEMPERATURE
     edge = table.get("edge", EDGES[0])
     _text(edge, "conditions.edge", 40)
     if edge not in EDGES:
@@ -262,85 +276,78 @@ def _read_conditions(raw, context):
     return out
 
 
-def _read_tcr(raw, context):
-    from kit.designs import TCR_RANGE
-
+def _read_resistor_table(raw, context, table_name, prefix, hint):
     if raw is None:
         return {}
-    top = context["topology"]
-    table = _table(raw, "tcr")
-    _only_keys(table, top.resistors, "tcr")
-    hint = ' (a bare number is per kelvin; write "100 ppm/K")'
-    return {"tcr": {name: _number(value, f"tcr.{name}", "1/K", TCR_RANGE, hint)
-                    for name, value in table.items()}}
+    top, words = context["topology"], context["words"]
+    table = _table(raw, table_name)
+    _only_keys(table, top.resistors, table_name)
+    return {table_name: {name: _entry_number(value, words[f"{prefix}{name}"], hint)
+                         for name, value in table.items()}}
+
+
+def _read_tcr(raw, context):
+    return _read_resistor_table(raw, context, "tcr", "tcr_", ' (a bare number is per kelvin; write "100 ppm/K")')
+
+
+def _read_ratings(raw, context):
+    return _read_resistor_table(raw, context, "ratings", "p_rated_", ' (watts, e.g. "0.25 W")')
 
 
 def _read_hand(raw, context):
-    from kit.designs import HAND_RANGES
-
     if raw is None:
         return {}
+    words = context["words"]
+    names = [n for n, e in words.items() if e.group == "hand"]
     table = _table(raw, "hand")
-    _only_keys(table, tuple(HAND_RANGES), "hand")
-    return {"hand": {name: _number(value, f"hand.{name}", HAND_RANGES[name][2],
-                                   HAND_RANGES[name][:2])
-                     for name, value in table.items()}}
+    _only_keys(table, names, "hand")
+    return {"hand": {name: _entry_number(value, words[name]) for name, value in table.items()}}
 
 
 DEVICE_TEXT_KEYS = ("label",)
-T_RISE_KEY = "t_rise"  # the design's junction rise of one transistor, kept beside its model
+T_RISE_KEY = "t_rise"  # the design's junction rise of one part, kept beside its model
 _CELSIUS_TEXT = re.compile(r"deg\s?C|°\s?C|℃")
 
 
-def _device_kind(top, name):
-    from kit.devices import KINDS
-
-    return KINDS[top.kind_of(name)]
-
-
 def _read_devices(raw, context):
-    from kit.designs import T_RISE_RANGE, transistor_polarity
+    from kit.model.design import typical_device
 
     if raw is None:
         return {}
-    top = context["topology"]
+    words = context["words"]
+    s = structure(context["topology"], context["polarity"])
     table = _table(raw, "devices")
-    _only_keys(table, top.transistors, "devices")
+    _only_keys(table, s.device_names, "devices")
     models, rises = {}, {}
     for name, overrides in table.items():
         where = f"devices.{name}"
-        kind = _device_kind(top, name)
+        part = s.part(name)
         _table(overrides, where)
         if "polarity" in overrides:
-            raise _fail("set by circuit.polarity, not per transistor", f"{where}.polarity",
+            raise _fail("set by circuit.polarity, not per part", f"{where}.polarity",
                         overrides["polarity"], "leave it out")
-        _only_keys(overrides, (*kind.MODEL_LIMITS, *DEVICE_TEXT_KEYS, T_RISE_KEY), where)
+        _only_keys(overrides, (*(p.name for p in part.kind.params), *DEVICE_TEXT_KEYS, T_RISE_KEY), where)
         changes = {}
         for key, value in overrides.items():
             field = f"{where}.{key}"
             if key in DEVICE_TEXT_KEYS:
                 changes[key] = _text(value, field, 200)
             elif key == T_RISE_KEY:
+                e = words[f"{name}.t_rise"]
                 if isinstance(value, str) and _CELSIUS_TEXT.search(value):
                     raise _fail("a temperature rise is a difference: give it in kelvin", field,
-                                value, _span(*T_RISE_RANGE, "K") + ' (write "12 K")')
-                rises[name] = _number(value, field, "K", T_RISE_RANGE)
+                                value, e.valid + ' (write "12 K")')
+                rises[name] = _entry_number(value, e)
             else:
-                low, high, unit = kind.MODEL_LIMITS[key]
-                # inf passes here; the model decides (a BJT takes V_A = inf).
-                changes[key] = _number(value, field, unit, (low, high), allow_inf=True)
-        typical = kind.typical(transistor_polarity(top, context["polarity"], name))
+                changes[key] = _entry_number(value, words[f"{name}.{key}"])
         try:
-            models[name] = typical.with_values(**changes)
+            models[name] = typical_device(part).with_values(**changes)
         except ParameterError as err:
             raise _from_kit(err, f"{where}.{err.parameter}") from None
-    context["t_rise"] = rises
-    return {"devices": models}
+    return {"devices": models, "t_rise": rises}
 
 
-# name -> (reader, required).  Order is the order a saved record lists them.
-SPEC_PAIRS = {"v_load": ("V", (-1000.0, 1000.0)), "v_supply": ("V", (0.1, 1000.0)),
-              "temp": ("K", (150.0, 500.0))}
+SPEC_PAIRS = {"v_load": "V", "v_supply": "V", "temp": "K"}
 SPEC_SCALARS = {"current": ("A", (1e-12, 100.0)), "tolerance": ("%", (0.0, 0.5)),
                 "resistor_tolerance": ("%", (0.0, 0.5)), "resistor_tcr": ("1/K", (0.0, 5e-3)),
                 "p_max": ("W", (1e-9, 1e4)), "mismatch": ("%", (0.0, 0.5))}
@@ -362,6 +369,7 @@ def _read_spec(raw, context):
     if raw is None:
         context["spec"] = None
         return {}
+    words = context["words"]
     table = _table(raw, "spec")
     _only_keys(table, (*SPEC_SCALARS, *SPEC_PAIRS, *SPEC_TABLES, *SPEC_OTHER), "spec")
     for name in ("current", "tolerance"):
@@ -371,9 +379,10 @@ def _read_spec(raw, context):
     for name, (unit, limits) in SPEC_SCALARS.items():
         if name in table:
             args["i_target" if name == "current" else name] = _number(table[name], f"spec.{name}", unit, limits)
-    for name, (unit, limits) in SPEC_PAIRS.items():
+    for name, unit in SPEC_PAIRS.items():
         if name in table:
-            args[name] = _pair_of(table[name], f"spec.{name}", unit, limits)
+            e = words[name]
+            args[name] = _pair_of(table[name], f"spec.{name}", unit, (e.low, e.high))
     top = context["topology"]
     if "beta" in table:
         beta = _table(table["beta"], "spec.beta")
@@ -384,24 +393,22 @@ def _read_spec(raw, context):
             _only_keys(entries, top.resistors, f"spec.{name}")
             args[name] = {k: _number(v, f"spec.{name}.{k}", unit, limits) for k, v in entries.items()}
     if "bounds" in table:
-        from kit.designs import parameter_range
-
         entries = _table(table["bounds"], "spec.bounds")
         bounds = {}
         for key, value in entries.items():
             field = f"spec.bounds.{_key(key)}"
-            try:
-                low, high, unit = parameter_range(top, key)
-            except ParameterError as err:
-                raise _from_kit(err, field) from None
-            bounds[key] = _pair_of(value, field, unit, (low, high))
+            if key not in words:
+                raise _fail("names no parameter of this design", field,
+                            valid="a flat parameter name: " + ", ".join(words))
+            e = words[key]
+            bounds[key] = _pair_of(value, field, e.unit, (e.low, e.high))
         args["bounds"] = bounds
     if "beta_distribution" in table:
         args["beta_distribution"] = _text(table["beta_distribution"], "spec.beta_distribution", 20)
     for name in ("samples", "seed"):
         if name in table:
-            if isinstance(table[name], bool) or not isinstance(table[name], int):
-                raise _fail("must be a whole number", f"spec.{name}", table[name])
+            if isinstance(table[name], bool) or not isinstance(table[name], (int, float)):
+                raise _fail("must be a whole number", f"spec.{name}", table[name])  # 1e5 is one; Spec checks
             args[name] = table[name]
     if "matched" in table:
         groups = table["matched"]
@@ -434,13 +441,14 @@ SECTIONS = {
     "values": (_read_values, True),
     "conditions": (_read_conditions, False),
     "tcr": (_read_tcr, False),
+    "ratings": (_read_ratings, False),
     "hand": (_read_hand, False),
     "devices": (_read_devices, False),
     "spec": (_read_spec, False),
 }
 
 
-def field_path(parameter, topology):
+def field_path(parameter, topology, polarity=None):
     """The record field of a kit parameter name (``"r1"`` -> ``"values.r1"``).
 
     Parameters
@@ -448,6 +456,8 @@ def field_path(parameter, topology):
     parameter : str or None
         A flat parameter name as kit errors report it.
     topology : kit.topologies.base.Topology
+    polarity : str, optional
+        Default: the topology's first.
 
     Examples
     --------
@@ -456,21 +466,15 @@ def field_path(parameter, topology):
     >>> [field_path(p, top) for p in ("v_load", "temp", "tcr_r_e", "Q1.beta_f", "v_be_on")]
     ['values.v_load', 'conditions.temp', 'tcr.r_e', 'devices.Q1.beta_f', 'hand.v_be_on']
     """
-    from kit.designs import HAND_RANGES
-
     if parameter is None:
         return None
-    if parameter in {v.name for v in topology.values}:
-        return f"values.{parameter}"
-    if parameter in ("temp", "t_ref"):
-        return f"conditions.{parameter}"
     if parameter in ("topology", "polarity"):
         return f"circuit.{parameter}"
-    if parameter.startswith("tcr_"):
-        return f"tcr.{parameter[4:]}"
-    if parameter in HAND_RANGES:
-        return f"hand.{parameter}"
-    if parameter.split(".")[0] in topology.transistors:
+    words = vocabulary(topology, polarity or topology.polarities[0])
+    if parameter in words:
+        return words[parameter].field
+    head = parameter.split(".")[0]
+    if any(e.part == head for e in words.values()):
         return f"devices.{parameter}"
     return parameter
 
@@ -489,7 +493,7 @@ class Record:
 
     Attributes
     ----------
-    design : kit.designs.Design
+    design : kit.model.design.Design
         The design point, values in SI units.
     edge : str
         Saturation criterion for evaluation (``conditions.edge``).
@@ -520,10 +524,12 @@ class Record:
         return f"Record({self.title!r}, source={self.source!r}, sha256={self.content_hash()[:12]})"
 
     def _read(self):
-        from kit.designs import make_design
+        from kit.model.design import make_design
 
+        self.migrated = ()
+        if _check_version(self._document) == 1:
+            self._document, self.migrated = _migrate_1(self._document)
         doc = self._document
-        _check_version(doc)
         _only_keys(doc, (*HEADER_KEYS, *SECTIONS), "")
         header = {}
         for name, (required, longest, multiline) in TEXT_FIELDS.items():
@@ -541,10 +547,8 @@ class Record:
         values = arguments.pop("values")
         try:
             design = make_design(**arguments, title=header["title"], **values)
-            if context.get("t_rise"):
-                design = dataclasses.replace(design, t_rise=context["t_rise"])
-        except ParameterError as err:  # ranges the readers leave to the kit
-            raise _from_kit(err, field_path(err.parameter, context["topology"])) from None
+        except ParameterError as err:  # ranges and cross-checks the readers leave to the kit
+            raise _from_kit(err, field_path(err.parameter, context["topology"], context["polarity"])) from None
         self.design = design
         self.spec = _make_spec(context.get("spec"), design)
         self.edge = context["edge"]
@@ -553,14 +557,15 @@ class Record:
 
     @classmethod
     def from_design(cls, design, *, edge="vce_sat", title=None, revision="", author="", notes=""):
-        """A record of a :class:`kit.designs.Design` (values written as SI numbers).
+        """A record of a :class:`kit.model.design.Design` (values written as SI numbers).
 
-        Transistor parameters equal to the typical model are left out, as a
-        hand-written record would; ``hand`` and ``tcr`` are written in full.
+        Part parameters equal to the part's typical model are left out, as a
+        hand-written record would; ``hand``, ``tcr`` and ``ratings`` are
+        written in full.
 
         Parameters
         ----------
-        design : kit.designs.Design
+        design : kit.model.design.Design
         edge : {"vce_sat", "vcb_zero"}
             Saturation criterion stored as ``conditions.edge``.
         title : str, optional
@@ -568,28 +573,29 @@ class Record:
         revision, author, notes : str
             Optional header text.
         """
-        from kit.designs import transistor_polarity
+        from kit.model.design import typical_device
 
         document = {"biasbook_record": SCHEMA_VERSION,
                     "title": design.title if title is None else title}
         document |= {k: v for k, v in (("revision", revision), ("author", author),
                                        ("notes", notes)) if v}
-        document["circuit"] = {"topology": design.topology, "polarity": design.polarity}
+        document["circuit"] = {"topology": design.topology.key, "polarity": design.polarity}
         document["values"] = dict(design.values)
         document["conditions"] = {"temp": design.temp, "t_ref": design.t_ref, "edge": edge}
-        if design.tcr:
-            document["tcr"] = dict(design.tcr)
-        document["hand"] = dict(design.hand)
+        for table in ("tcr", "ratings", "hand"):
+            if getattr(design, table):
+                document[table] = dict(getattr(design, table))
         devices = {}
-        for name, model in design.devices.items():
-            kind = _device_kind(design.spec, name)
-            typical = kind.typical(transistor_polarity(design.spec, design.polarity, name))
-            changed = {k: v for k, v in (model.numbers() | {"label": model.label}).items()
-                       if getattr(typical, k) != v}
-            if design.t_rise.get(name):
-                changed[T_RISE_KEY] = design.t_rise[name]
+        for part in design.structure.devices:
+            model = design.devices[part.name]
+            typical = typical_device(part)
+            changed = {k: v for k, v in model.numbers().items() if typical.values[k] != v}
+            if model.label != typical.label:
+                changed["label"] = model.label
+            if design.t_rise.get(part.name):
+                changed[T_RISE_KEY] = design.t_rise[part.name]
             if changed:
-                devices[name] = changed
+                devices[part.name] = changed
         if devices:
             document["devices"] = devices
         return cls(document, source="<design>")
@@ -610,10 +616,11 @@ class Record:
             "biasbook_record": SCHEMA_VERSION,
             "title": self.title, "revision": self.revision, "author": self.author,
             "notes": self.notes,
-            "circuit": {"topology": d.topology, "polarity": d.polarity},
+            "circuit": {"topology": d.topology.key, "polarity": d.polarity},
             "values": dict(d.values),
             "conditions": {"temp": d.temp, "t_ref": d.t_ref, "edge": self.edge},
-            "tcr": {name: float(d.tcr.get(name, 0.0)) for name in d.spec.resistors},
+            "tcr": {name: float(d.tcr.get(name, 0.0)) for name in d.topology.resistors},
+            "ratings": {name: float(d.ratings.get(name, math.inf)) for name in d.topology.resistors},
             "hand": dict(d.hand),
             "devices": {name: m.numbers() | {"label": m.label,
                                              T_RISE_KEY: float(d.t_rise.get(name, 0.0))}
@@ -638,8 +645,9 @@ class Record:
 
 
 def _check_version(doc):
+    """The record's schema version (refused before anything else if this biasbook cannot read it)."""
     field = "biasbook_record"
-    valid = f"{SCHEMA_VERSION} (an integer)"
+    valid = f"{SCHEMA_VERSION} (an integer; format {READABLE_VERSIONS[0]} is still read)"
     if field not in doc:
         raise _fail("not a biasbook record: the schema version is missing", field, valid=valid)
     version = doc[field]
@@ -649,8 +657,69 @@ def _check_version(doc):
     if version > SCHEMA_VERSION:
         raise _fail(f"written for a newer schema than this biasbook reads ({SCHEMA_VERSION})",
                     field, version, valid)
-    if version != SCHEMA_VERSION:
+    if version not in READABLE_VERSIONS:
         raise _fail("no such schema version", field, version, valid)
+    return version
+
+
+# Format 1 -> 2.  Format 1 named the temperature exponents of a transistor with
+# abbreviations of our own no longer use, held the values of zeners, diodes and
+# op-amps among the topology's values, and wrote MOSFET circuits as npn/pnp.
+_RENAMED_DEVICE_KEYS = {"xti": "i_s_temp_exponent", "xtb": "beta_temp_exponent"}
+# A diode's values in format 1: (kind of part, its parameter now).
+_RENAMED_VALUES = {"i_sd": ("diode", "i_s"), "n_id": ("diode", "n"), "xti_d": ("diode", "i_s_temp_exponent"),
+                   "e_g_d": ("diode", "e_g"), "n_diodes": ("diode", "count")}
+
+
+def _migrate_1(doc):
+    """A format-1 document in format 2, and what was changed (said with every report)."""
+    from kit import topologies
+
+    doc = copy.deepcopy(doc)
+    notes = ["read as format 1 and migrated to format 2"]
+    doc["biasbook_record"] = SCHEMA_VERSION
+    circuit = doc.get("circuit")
+    try:
+        top = topologies.get(circuit["topology"])
+    except (TypeError, KeyError, ParameterError):
+        return doc, tuple(notes)  # the reader names what is wrong
+    old_words = {"npn": top.polarities[0], "pnp": top.polarities[1] if len(top.polarities) > 1 else "pnp"}
+    if circuit.get("polarity") in old_words and circuit["polarity"] not in top.polarities:
+        notes.append(f"circuit.polarity {circuit['polarity']} -> {old_words[circuit['polarity']]}")
+        circuit["polarity"] = old_words[circuit["polarity"]]
+    polarity = circuit.get("polarity")
+    if polarity not in top.polarities:
+        return doc, tuple(notes)
+    s = structure(top, polarity)
+    for name, overrides in (doc.get("devices") or {}).items():
+        if isinstance(overrides, dict):
+            for old, new in _RENAMED_DEVICE_KEYS.items():
+                if old in overrides:
+                    overrides[new] = overrides.pop(old)
+                    notes.append(f"devices.{name}.{old} -> devices.{name}.{new}")
+
+    def part_parameter(name):
+        kind, key = _RENAMED_VALUES.get(name, (None, name))
+        owners = [p.name for p in s.devices if key in {q.name for q in p.kind.params}
+                  and kind in (None, p.kind.key)]
+        return f"{owners[0]}.{key}" if len(owners) == 1 else None
+
+    values = doc.get("values")
+    if isinstance(values, dict):
+        for name in [n for n in values if n not in top.value_names]:
+            target = part_parameter(name)
+            if target:
+                part, key = target.split(".")
+                doc.setdefault("devices", {}).setdefault(part, {})[key] = values.pop(name)
+                notes.append(f"values.{name} -> devices.{target}")
+    bounds = (doc.get("spec") or {}).get("bounds")
+    if isinstance(bounds, dict):
+        for name in [n for n in bounds if n not in vocabulary(top, polarity)]:
+            target = part_parameter(name)
+            if target:
+                bounds[target] = bounds.pop(name)
+                notes.append(f"spec.bounds.{name} -> spec.bounds.{target}")
+    return doc, tuple(notes)
 
 
 # --- JSON -----------------------------------------------------------------------
@@ -714,10 +783,10 @@ def parse_record(text, source="<string>"):
 
     Examples
     --------
-    >>> parse_record("biasbook_record = 2")  # doctest: +ELLIPSIS
+    >>> parse_record("biasbook_record = 3")  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    kit.errors.RecordError: biasbook_record = 2: written for a newer schema ...
+    kit.errors.RecordError: biasbook_record = 3: written for a newer schema ...
     """
     if not isinstance(text, str):
         raise _fail(f"a record is text, not {type(text).__name__}", FILE, valid="str")
@@ -730,8 +799,10 @@ def parse_record(text, source="<string>"):
             from None
     if size > MAX_RECORD_BYTES:
         raise _too_large(size)
+    text = text.removeprefix("\ufeff")
+    _check_shape(text, source)
     try:
-        document = tomllib.loads(text.removeprefix("\ufeff"))
+        document = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         where = _SYNTAX_WHERE.search(str(err))
         what = _SYNTAX_WHERE.sub("", str(err))
@@ -748,8 +819,31 @@ def _too_large(size):
                  f"at most {MAX_RECORD_BYTES} bytes (1 MiB)")
 
 
+# What each bound of the shape says when passed: (message, valid).
+_SHAPE_WORDS = {
+    "depth": ("nested more than {limit} levels deep in {source}",
+              "at most {limit} levels of tables, dotted keys and arrays; a record needs about 4"),
+    "keys": ("more than {limit} key names in {source}",
+             "at most {limit} key names, each part of a dotted key counted; a record has about 40"),
+    "tokens": ("more than {limit} words, strings and brackets in {source}",
+               "at most {limit}; a record has a few hundred"),
+}
+
+
+def _check_shape(text, source):
+    """Refuse text whose shape would make the TOML parser slow or deep (see kit.record_scan)."""
+    excess = first_excess(text, depth=MAX_RECORD_DEPTH, keys=MAX_RECORD_KEYS, tokens=MAX_RECORD_TOKENS)
+    if excess is not None:
+        message, valid = _SHAPE_WORDS[excess.what]
+        words = {"found": excess.found, "limit": excess.limit, "source": source}
+        raise _fail(message.format(**words), FILE, valid=valid.format(**words))
+
+
 def load_record(path):
     """Read a record file (UTF-8 TOML, at most 1 MiB).
+
+    Only a regular file is read: a named pipe would wait for a writer
+    forever, and a device or directory is no record.
 
     Parameters
     ----------
@@ -760,18 +854,48 @@ def load_record(path):
     Record
     """
     path = Path(path)
-    try:
-        with path.open("rb") as stream:
-            data = stream.read(MAX_RECORD_BYTES + 1)
-    except OSError as err:
-        raise _fail(f"cannot read the record: {err.strerror or err}", FILE, str(path)) from None
-    if len(data) > MAX_RECORD_BYTES:
-        raise _too_large(path.stat().st_size)
+    data = _read_regular_file(path)
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as err:
         raise _fail(f"not UTF-8 text (byte {err.start})", FILE, str(path), "UTF-8 text") from None
     return parse_record(text, source=str(path))
+
+
+_FILE_KINDS = ((stat.S_ISDIR, "a directory"), (stat.S_ISFIFO, "a named pipe (FIFO)"),
+               (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+               (stat.S_ISSOCK, "a socket"))
+
+
+def _refuse_unless_regular(mode, path):
+    if not stat.S_ISREG(mode):
+        kind = next((name for test, name in _FILE_KINDS if test(mode)), "another kind of file")
+        raise _fail(f"not a regular file but {kind}", FILE, str(path),
+                    "a regular file of UTF-8 TOML")
+
+
+def _read_regular_file(path):
+    """At most MAX_RECORD_BYTES + 1 bytes of ``path``, refusing anything but a regular file.
+
+    The kind is checked before opening (a named pipe would block the open)
+    and again on the open descriptor, opened without waiting, so a file
+    swapped in between is caught too.
+    """
+    try:
+        _refuse_unless_regular(os.stat(path).st_mode, path)
+        handle = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0))
+    except OSError as err:
+        raise _fail(f"cannot read the record: {err.strerror or err}", FILE, str(path)) from None
+    with os.fdopen(handle, "rb") as stream:
+        info = os.fstat(stream.fileno())
+        _refuse_unless_regular(info.st_mode, path)
+        try:
+            data = stream.read(MAX_RECORD_BYTES + 1)
+        except OSError as err:
+            raise _fail(f"cannot read the record: {err.strerror or err}", FILE, str(path)) from None
+    if len(data) > MAX_RECORD_BYTES:
+        raise _too_large(max(info.st_size, len(data)))
+    return data
 
 
 def save_record(record, path):

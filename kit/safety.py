@@ -4,7 +4,7 @@ A design record is mailed between people, so its free text (title, notes,
 author, revision, device labels) is data from a stranger.  Nothing of it may
 ever run as script or be read as markup: every output escapes it for its own
 language.  These helpers are the only way record text enters HTML, Markdown,
-LaTeX or CSS.
+LaTeX, CSS or a terminal.
 
 Examples
 --------
@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import html
 import re
+import unicodedata
 
 # Characters with a meaning in Markdown (CommonMark punctuation), in MathJax
 # ($ and \) or in Jupyter's Markdown renderer; each is shown literally when
@@ -34,6 +35,10 @@ _LATEX_SPECIALS = {
     "#": r"\#", "_": r"\_", "^": r"\textasciicircum{}", "~": r"\textasciitilde{}",
 }
 
+
+# Terminal escape sequences: CSI ("ESC [", parameters, a final letter) and
+# the two-character ones (ESC and one of @ … _).
+_TERMINAL_ESCAPE = re.compile(r"\x1b\[[0-?]*[ -/]*[@-~]|\x1b[@-Z\\-_]")
 
 # Elements of this class are skipped by the equation typesetter (MathJax 2
 # and 3, and JupyterLab): text inside is never read as an equation.
@@ -100,3 +105,20 @@ def css_string(value):
             # Six hex digits plus a space: a complete escape that cannot swallow the next character.
             out.append(f"\\{ord(ch):06x} ")
     return '"' + "".join(out) + '"'
+
+
+def terminal_text(value):
+    r"""``value`` for a terminal or a log: escape sequences dropped, other control
+    characters (but line breaks and tabs) shown as ``\xNN``.
+
+    Error text can carry another program's colours (a kernel's traceback) or
+    a hostile file's bytes; neither may drive the reader's terminal.
+
+    Examples
+    --------
+    >>> terminal_text("\x1b[31mValueError\x1b[39m: bad\x07")
+    'ValueError: bad\\x07'
+    """
+    text = _TERMINAL_ESCAPE.sub("", str(value))
+    return "".join(ch if ch in "\n\t" or unicodedata.category(ch) != "Cc" else f"\\x{ord(ch):02x}"
+                   for ch in text)

@@ -19,12 +19,15 @@ Examples
 from __future__ import annotations
 
 import math
+import numbers
 from dataclasses import dataclass, field
 from types import MappingProxyType
 
+from kit.devices.base import is_real_number
 from kit.errors import ParameterError
 
 SIGMA_PER_TOLERANCE = 3.0  # RSS maps a ± tolerance to 3 sigma (an assumption, stated in reports)
+MAX_SAMPLES = 1_000_000  # Monte Carlo runs in constant memory; this bounds the time (minutes)
 DISTRIBUTIONS = ("uniform", "log-uniform")
 
 
@@ -32,10 +35,13 @@ def _pair(name, value, low, high, unit):
     if value is None:
         return None
     try:
-        a, b = (float(v) for v in value)
+        a, b = value
     except (TypeError, ValueError):
+        a = b = None
+    if not (is_real_number(a) and is_real_number(b)):
         raise ParameterError("must be a pair (low, high)", parameter=name, value=value,
-                             valid=f"two numbers in {low:g} … {high:g} {unit}".rstrip()) from None
+                             valid=f"two numbers in {low:g} … {high:g} {unit}".rstrip())
+    a, b = float(a), float(b)
     for v in (a, b):
         if not (low <= v <= high):
             raise ParameterError("out of range", parameter=name, value=value,
@@ -47,7 +53,7 @@ def _pair(name, value, low, high, unit):
 
 
 def _fraction(name, value, high=0.5):
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (0 <= value <= high):
+    if not is_real_number(value) or not (0 <= value <= high):
         raise ParameterError("tolerance out of range", parameter=name, value=value,
                              valid=f"0 … {high:g} (a fraction: 0.01 is 1 %)")
     return float(value)
@@ -115,11 +121,11 @@ class Spec:
     seed: int = 1
 
     def __post_init__(self):
-        if isinstance(self.i_target, bool) or not isinstance(self.i_target, (int, float)) \
-                or not (1e-12 <= self.i_target <= 100.0):
+        if not is_real_number(self.i_target) or not (1e-12 <= self.i_target <= 100.0):
             raise ParameterError("target current out of range", parameter="i_target",
                                  value=self.i_target, valid="1 pA … 100 A")
-        _fraction("tolerance", self.tolerance)
+        object.__setattr__(self, "i_target", float(self.i_target))
+        object.__setattr__(self, "tolerance", _fraction("tolerance", self.tolerance))
         if self.tolerance == 0:
             raise ParameterError("a zero tolerance cannot be met", parameter="tolerance",
                                  value=0.0, valid="> 0")
@@ -128,27 +134,25 @@ class Spec:
         object.__setattr__(self, "temp", _pair("temp", self.temp, 150, 500, "K"))
         beta = {k: _pair(f"beta.{k}", v, 1.0, 1e5, "") for k, v in dict(self.beta).items()}
         object.__setattr__(self, "beta", MappingProxyType(beta))
-        _fraction("resistor_tolerance", self.resistor_tolerance)
-        _tcr("resistor_tcr", self.resistor_tcr)
+        object.__setattr__(self, "resistor_tolerance", _fraction("resistor_tolerance", self.resistor_tolerance))
+        object.__setattr__(self, "resistor_tcr", _tcr("resistor_tcr", self.resistor_tcr))
         object.__setattr__(self, "tolerances", MappingProxyType(
             {k: _fraction(f"tolerances.{k}", v) for k, v in dict(self.tolerances).items()}))
         object.__setattr__(self, "tcrs", MappingProxyType(
             {k: _tcr(f"tcrs.{k}", v) for k, v in dict(self.tcrs).items()}))
         object.__setattr__(self, "bounds", MappingProxyType(
             {k: _pair(f"bounds.{k}", v, -math.inf, math.inf, "") for k, v in dict(self.bounds).items()}))
-        if self.p_max is not None and not (0 < self.p_max <= 1e4):
-            raise ParameterError("dissipation limit out of range", parameter="p_max",
-                                 value=self.p_max, valid="0 … 10 kW")
-        _fraction("mismatch", self.mismatch)
+        if self.p_max is not None:
+            if not is_real_number(self.p_max) or not (0 < self.p_max <= 1e4):
+                raise ParameterError("dissipation limit out of range", parameter="p_max",
+                                     value=self.p_max, valid="0 … 10 kW")
+            object.__setattr__(self, "p_max", float(self.p_max))
+        object.__setattr__(self, "mismatch", _fraction("mismatch", self.mismatch))
         if self.beta_distribution not in DISTRIBUTIONS:
             raise ParameterError("unknown distribution", parameter="beta_distribution",
                                  value=self.beta_distribution, valid=" or ".join(DISTRIBUTIONS))
-        if not isinstance(self.samples, int) or not (10 <= self.samples <= 1_000_000):
-            raise ParameterError("sample count out of range", parameter="samples",
-                                 value=self.samples, valid="10 … 1000000")
-        if not isinstance(self.seed, int) or self.seed < 0:
-            raise ParameterError("seed must be a non-negative integer", parameter="seed",
-                                 value=self.seed, valid=">= 0")
+        object.__setattr__(self, "samples", _count("samples", self.samples, 10, MAX_SAMPLES))
+        object.__setattr__(self, "seed", _count("seed", self.seed, 0, None))
         object.__setattr__(self, "matched", tuple(tuple(g) for g in self.matched))
 
     @property
@@ -173,8 +177,27 @@ class Spec:
         return out
 
 
+def _count(name, value, low, high):
+    """A whole number in ``low … high`` (``high`` None: no upper end) as an ``int``.
+
+    Any integer (NumPy's too) or a float with no fraction (``1e5``) is a
+    count; ``bool``, text, NaN and ``2.5`` are not.
+    """
+    valid = f"a whole number, {low} … {high}" if high is not None else f"a whole number >= {low}"
+    if is_real_number(value) and not isinstance(value, numbers.Integral):
+        if not (math.isfinite(value) and float(value).is_integer()):
+            raise ParameterError("must be a whole number", parameter=name, value=value, valid=valid)
+        value = int(value)
+    if not isinstance(value, numbers.Integral) or isinstance(value, bool):
+        raise ParameterError("must be a whole number", parameter=name, value=value, valid=valid)
+    value = int(value)
+    if value < low or (high is not None and value > high):
+        raise ParameterError("out of range", parameter=name, value=value, valid=valid)
+    return value
+
+
 def _tcr(name, value):
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (0 <= value <= 5e-3):
+    if not is_real_number(value) or not (0 <= value <= 5e-3):
         raise ParameterError("TCR bound out of range", parameter=name, value=value,
                              valid="0 … 5000 ppm/K (a bound; the sign is varied)")
     return float(value)
@@ -213,9 +236,8 @@ def factors(spec, design):
     >>> names[:3], names[-1]
     (['r1', 'r2', 'r_e'], 'temp')
     """
-    from kit.designs import parameter_range
-
-    top = design.spec
+    top = design.topology
+    words = design.vocabulary
     params = design.parameters()
     _check_names(spec, design)
     out = []
@@ -232,7 +254,7 @@ def factors(spec, design):
             out.append(Factor(f"tcr_{name}", own, own - tcr, own + tcr, "part", label=f"TCR of {name}"))
     for transistor, model in design.devices.items():
         bounds = spec.beta.get(transistor) or spec.beta.get(model.polarity)
-        if bounds is not None and hasattr(model, "beta_f"):
+        if bounds is not None and "beta_f" in model.values:
             out.append(Factor(f"{transistor}.beta_f", model.beta_f, bounds[0], bounds[1], "part",
                               spec.beta_distribution, label=f"β_F of {transistor}"))
     varied = {f.name for f in out} | {n for n, b in (("v_supply", spec.v_supply), ("v_load", spec.v_load),
@@ -245,10 +267,10 @@ def factors(spec, design):
         if name in varied:
             raise ParameterError("already varied by the spec (its tolerance, gain or condition range)",
                                  parameter=field, valid="a value the spec does not vary otherwise")
-        lowest, highest, unit = parameter_range(top, name)
-        if not (lowest <= low <= high <= highest):
+        e = words[name]
+        if not (e.low <= low <= high <= e.high):
             raise ParameterError("outside the value's valid range", parameter=field, value=(low, high),
-                                 valid=f"{lowest:g} … {highest:g} {unit}".rstrip())
+                                 valid=e.valid)
         out.append(Factor(name, params[name], low, high, "part", label=name))
     for name, bounds in (("v_supply", spec.v_supply), ("v_load", spec.v_load), ("temp", spec.temp)):
         if bounds is not None:
@@ -258,12 +280,14 @@ def factors(spec, design):
 
 def _check_names(spec, design):
     """Refuse spec entries that name nothing in the design (they would silently do nothing)."""
-    transistors = set(design.devices)
+    transistors = {name for name, model in design.devices.items() if "beta_f" in model.values}
+    # A polarity word is accepted even where no part has it: one spec serves several circuits.
+    words = transistors | {"npn", "pnp"}
     for key in spec.beta:
-        if key not in transistors | {"npn", "pnp"}:
-            raise ParameterError("names no transistor or polarity of this design", parameter=f"beta.{key}",
-                                 valid=", ".join(sorted(transistors | {"npn", "pnp"})))
-    resistors = set(design.spec.resistors)
+        if key not in words:
+            raise ParameterError("names no bipolar transistor or polarity of this design",
+                                 parameter=f"beta.{key}", valid=", ".join(sorted(words)) or "none here")
+    resistors = set(design.topology.resistors)
     for table, entries in (("tolerances", spec.tolerances), ("tcrs", spec.tcrs)):
         for key in entries:
             if key not in resistors:

@@ -27,11 +27,10 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import brentq
 
-from kit import display
 from kit.analysis import eseries
 from kit.analysis.spec import factors
 from kit.analysis.worstcase import _Box, _corner_values, worst_case
-from kit.designs import make_design
+from kit.model.design import make_design
 from kit.errors import DesignError
 from kit.quantities import format_quantity
 
@@ -53,13 +52,13 @@ class Candidate:
     reasons: tuple = ()
 
     def to_dict(self):
-        return {"topology": self.design.topology, "polarity": self.design.polarity,
+        return {"topology": self.design.topology.key, "polarity": self.design.polarity,
                 "values": dict(self.design.values), "nominal": self.nominal, "low": self.low,
                 "high": self.high, "margin": self.margin, "passed": self.passed, "method": self.method,
                 "reasons": list(self.reasons)}
 
 
-@dataclass
+@dataclass(frozen=True)
 class Synthesis:
     """Ranked candidates and the topologies that cannot meet the spec."""
 
@@ -78,38 +77,9 @@ class Synthesis:
                 "candidates": [c.to_dict() for c in self.candidates],
                 "infeasible": {k: list(v) for k, v in self.infeasible.items()}}
 
-    def text(self):
-        lines = [f"standard values from {self.series}; ranked by extreme-value margin"]
-        for rank, c in enumerate(self.candidates, 1):
-            values = ", ".join(f"{k}={_format_value(c.design, k)}" for k in c.design.values)
-            lines.append(f"{rank:2}. {c.design.topology} ({c.design.polarity}) margin {c.margin:+.2%} "
-                         f"{'PASS' if c.passed else 'FAIL'}  [{values}]")
-        for key, reasons in self.infeasible.items():
-            lines.append(f"  cannot meet: {key}: {'; '.join(reasons)}")
-        return "\n".join(lines)
-
-    def _repr_html_(self):
-        rows = [[rank, c.design.spec.title, c.design.polarity.upper(),
-                 ", ".join(f"{k} {_format_value(c.design, k)}" for k in c.design.values),
-                 format_quantity(c.nominal, "A", 4), f"{format_quantity(c.low, 'A', 4)} … {format_quantity(c.high, 'A', 4)}",
-                 f"{c.margin:+.2%}",
-                 display.Raw(f'<span class="{"bb-ok" if c.passed else "bb-bad"}">{"pass" if c.passed else "fail"}</span>')]
-                for rank, c in enumerate(self.candidates, 1)]
-        table = display.table(["#", "topology", "polarity", "values", "nominal", "worst case", "margin", ""],
-                              rows, numeric=(4, 5, 6))
-        bad = display.table(["topology", "why it cannot meet the spec"],
-                            [[k, "; ".join(v)] for k, v in self.infeasible.items()])
-        return display.wrap(display.section(f"Synthesis ({self.series} values)", table)
-                            + (display.section("Cannot meet the spec", bad) if self.infeasible else ""))
-
-
-def _format_value(design, name):
-    spec = design.spec.value_spec(name)
-    return format_quantity(design.values[name], spec.unit, 3) if spec.unit else f"{design.values[name]:g}"
-
 
 def _start(topology, polarity, spec):
-    values = {v.name: v.default for v in topology.values}
+    values = {v.name: v.default_for(polarity) for v in topology.values}
     if spec.v_supply is not None:
         values["v_supply"] = 0.5 * sum(spec.v_supply)
     if spec.v_load is not None:
@@ -121,12 +91,12 @@ def _start(topology, polarity, spec):
 
 def _setting_value(design):
     """The resistor or current value with the largest normalised sensitivity of I_out."""
-    from kit.evaluation import model_of
-    from kit.solve import solve_points
+    from kit.analysis.evaluation import model_of
+    from kit.model.solve import solve_points
 
     model = model_of(design)
     points = solve_points(model, design.parameters()).require("starting design")
-    top = design.spec
+    top = design.topology
     candidates = [v.name for v in top.values
                   if v.kind == "resistor" or (v.kind == "other" and v.unit == "A")]
     slope = points.di_dp[:, 0]
@@ -136,11 +106,11 @@ def _setting_value(design):
 
 def _size(design, name, target):
     """Scale value ``name`` so the exact nominal current equals ``target``."""
-    from kit.evaluation import model_of
-    from kit.solve import solve_points
+    from kit.analysis.evaluation import model_of
+    from kit.model.solve import solve_points
 
     model = model_of(design)
-    spec = design.spec.value_spec(name)
+    spec = design.topology.value(name)
     base = design.parameters()
 
     def errors(log_values):
@@ -172,14 +142,14 @@ def _plans(design, setting):
     voltage, so the headroom and the supply sensitivity); sizing then fixes
     the current with the setting value.
     """
-    others = [n for n in design.spec.resistors if n != setting]
+    others = [n for n in design.topology.resistors if n != setting]
     if not others or len(others) > MAX_PLANNED_RESISTORS:
         return [design]
     plans = []
     for scales in itertools.product(PLAN_SCALES, repeat=len(others)):
         changes = {}
         for n, k in zip(others, scales):
-            spec = design.spec.value_spec(n)
+            spec = design.topology.value(n)
             changes[n] = float(np.clip(design.values[n] * k, spec.low, spec.high))
         plans.append(design.with_values(**changes))
     return plans
@@ -202,7 +172,7 @@ def _candidates(design, series, setting):
     With more resistors than :data:`MAX_CANDIDATES` allows, only the value
     that sets the current keeps its neighbours; the rest take the nearest.
     """
-    top = design.spec
+    top = design.topology
     choices = {}
     for spec in top.values:
         if spec.kind == "resistor":

@@ -14,17 +14,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from kit.analysis.evaluation import model_of
 from kit.analysis.thermal import junction_temperatures, solve_self_heated
-from kit.compliance import cause_text, worst_margin
 from kit.errors import OperatingPointError
-from kit.evaluation import _budget_label, model_of
-from kit.quantities import format_quantity, format_temperature
-from kit.solve import solve_points
+from kit.model.solve import solve_points
+from kit.quantities import format_temperature
 
 R_OUT_STEP = 0.05  # V, load-voltage step for the electro-thermal output resistance
 
 
-@dataclass
+@dataclass(frozen=True)
 class TemperatureSweep:
     """Arrays over ambient temperature (see :func:`temperature_sweep`).
 
@@ -69,27 +68,17 @@ class TemperatureSweep:
                 "junction": {k: v.tolist() for k, v in self.junction.items()},
                 "r_out": self.r_out, "r_out_heated": self.r_out_heated}
 
-    def text(self):
-        lines = [f"{'ambient':>9} {'I_out':>10} {'heated':>10} {'tempco':>12}"]
-        for k in np.unique(np.linspace(0, self.temps.size - 1, 7).astype(int)):
-            lines.append(f"{format_temperature(self.temps[k], 3):>9} {format_quantity(self.i_out[k], 'A', 4):>10} "
-                         f"{format_quantity(self.i_out_heated[k], 'A', 4):>10} "
-                         f"{format_quantity(self.tempco[k], 'ppm/K'):>12}")
-        lines.append(f"R_out isothermal {format_quantity(self.r_out, 'Ω')}, with self-heating "
-                     f"{format_quantity(self.r_out_heated, 'Ω')}")
-        return "\n".join(lines)
-
 
 def _require_valid(points, design, temps):
     """Refuse a sweep in which the design leaves forward active or its ratings."""
-    worst, keys = worst_margin(points, design.devices, "vce_sat")
+    worst, keys = points.worst_margin("vce_sat")
     bad = np.flatnonzero(worst < 0)
     if bad.size:
         part, cause = keys[bad[0]]
-        what = "no converged solution" if part is None else f"{part} {cause_text(points.model, part, cause)}"
+        what = "no converged solution" if part is None else f"{part} {points.cause_text(part, cause)}"
         raise OperatingPointError(f"{what} at {format_temperature(temps[bad[0]], 3)}", parameter="temp",
                                   value=float(temps[bad[0]]),
-                                  valid="temperatures at which every transistor stays in forward active")
+                                  valid="temperatures at which every part stays within its limits")
 
 
 def temperature_sweep(design, temps, *, points=61):
@@ -106,7 +95,7 @@ def temperature_sweep(design, temps, *, points=61):
     model = model_of(design)
     values = design.parameters() | {"temp": temps}
     cold = solve_points(model, values).require("temperature sweep")
-    heated = solve_self_heated(model, values, design.devices).require("self-heated sweep")
+    heated = solve_self_heated(model, values).require("self-heated sweep")
     for points in (cold, heated):
         _require_valid(points, design, temps)
     t_index = model.parameter_index["temp"]
@@ -114,12 +103,12 @@ def temperature_sweep(design, temps, *, points=61):
     budget = {}
     for name, di, dq in zip(model.operating_names, cold.di_dq, cold.dq_dp[:, t_index]):
         if np.any(di * dq != 0):
-            label = design.spec.budget_labels.get(name) or _budget_label(name)
+            label = model.structure.budget_label(name) or f"temperature law of {name}"
             budget[label] = budget.get(label, 0.0) + di * dq / cold.i_out
     base = design.parameters()
     step = R_OUT_STEP
-    ends = solve_self_heated(model, base | {"v_load": np.array([base["v_load"] - step, base["v_load"] + step])},
-                             design.devices).require("self-heated output resistance")
+    ends = solve_self_heated(model, base | {"v_load": np.array([base["v_load"] - step, base["v_load"] + step])}
+                             ).require("self-heated output resistance")
     slope = (ends.i_out[1] - ends.i_out[0]) / (2 * step)
     r_heated = model.output_sign / slope if slope != 0 else np.inf
     r_cold = float(solve_points(model, base).require().r_out[0])

@@ -11,36 +11,42 @@ from __future__ import annotations
 
 import numpy as np
 
-from kit.solve import solve_points
+from kit.model.solve import solve_points
 
 MAX_ITERATIONS = 30
 RISE_TOLERANCE = 1e-6  # K
 
 
-def solve_self_heated(model, values, devices):
-    """Exact operating points with self-heating of every transistor.
+def heated_parts(model):
+    """Names of the parts that heat themselves: those with a thermal resistance of their own."""
+    return [part.name for part in model.structure.devices
+            if "theta_ja" in part.params and f"{part.name}.t_rise" in model.parameter_index]
+
+
+def solve_self_heated(model, values):
+    """Exact operating points with self-heating of every part that has a thermal resistance.
 
     Parameters
     ----------
-    model : kit.derive.CompiledModel
+    model : kit.model.compiled.CompiledModel
     values : dict
-        Full parameter vector (arrays broadcast); ``temp`` is the ambient.
-    devices : dict
-        Transistor name -> device model (for ``theta_ja``).
+        Full parameter vector (arrays broadcast); ``temp`` is the ambient,
+        ``<part>.theta_ja`` each package's thermal resistance.
 
     Returns
     -------
-    kit.solve.OperatingPoints
+    kit.model.solve.OperatingPoints
         Solved at the self-consistent junction temperatures (``<name>.t_rise``
         holds each rise in K).
     """
-    heated = [n for n in model.transistors if f"{n}.t_rise" in model.parameter_index]
+    heated = heated_parts(model)
     values = dict(values)
     points = solve_points(model, values)
     for _ in range(MAX_ITERATIONS):
         change = np.zeros(points.size)
         for n in heated:
-            rise = devices[n].theta_ja * np.where(points.converged, points.dissipation[n], 0.0)
+            theta = np.asarray(values[f"{n}.theta_ja"], dtype=float)
+            rise = theta * np.where(points.converged, points.dissipation[n], 0.0)
             change = np.maximum(change, np.abs(rise - values.get(f"{n}.t_rise", 0.0)))
             values[f"{n}.t_rise"] = rise
         if np.all(change < RISE_TOLERANCE):
@@ -52,10 +58,10 @@ def solve_self_heated(model, values, devices):
 
 
 def junction_temperatures(points):
-    """Transistor name -> junction temperature in K of solved points."""
+    """Device name -> junction temperature in K of solved points."""
     temp = points.p[points.model.parameter_index["temp"]]
     out = {}
-    for name in points.model.transistors:
+    for name in points.model.structure.device_names:
         index = points.model.parameter_index.get(f"{name}.t_rise")
         out[name] = temp + (points.p[index] if index is not None else 0.0)
     return out

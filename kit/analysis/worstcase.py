@@ -30,19 +30,26 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from kit import display
+from kit.analysis.evaluation import model_of
 from kit.analysis.spec import SIGMA_PER_TOLERANCE, factors
+from kit.analysis.streaming import RunningHistogram, SeededColumns, wilson_interval
 from kit.analysis.thermal import solve_self_heated
-from kit.compliance import cause_text, worst_margin
-from kit.evaluation import model_of
+from kit.model.solve import solve_points
+from kit.errors import ParameterError
 from kit.quantities import format_quantity
-from kit.solve import solve_points
 
 MAX_CORNER_FACTORS = 14  # 2^14 = 16384 corners; above, extreme corners come from the signs
 INTERIOR_SAMPLES = 2048
 INTERIOR_SLACK = 1e-9  # relative; below it, "beyond the corners" is solver noise
 AXIS_POINTS = 33
 METHODS = ("extreme-value", "RSS", "Monte Carlo")
+# Monte Carlo: points solved at once (samples x condition points), tens of MB of
+# solver arrays; the leading samples kept whole for plots and checks; the
+# percentiles reported; the coverage of the yield's interval.
+MONTE_CARLO_CHUNK_POINTS = 1 << 14
+KEPT_SAMPLES = 10_000
+PERCENTILES = (0.135, 1, 50, 99, 99.865)
+YIELD_CONFIDENCE = 0.95
 
 
 @dataclass(frozen=True)
@@ -55,8 +62,10 @@ class MethodResult:
     passed: bool
     margin: float  # fraction of the target to spare (< 0: out of spec)
     detail: dict = field(default_factory=dict)
-    # Raw arrays for plots (Monte Carlo: "current" (samples, condition points),
-    # "ok", "passed" per sample); left out of to_dict.
+    # For plots and checks, left out of to_dict.  Monte Carlo: "histogram" (a
+    # RunningHistogram of the valid points' currents, every sample), and for
+    # the first detail["kept_samples"] samples "current" (samples, condition
+    # points), "ok" (same shape), "passed" (per sample) and "draws" (name -> values).
     arrays: dict = field(default_factory=dict, repr=False)
 
     def texts(self, digits=4):
@@ -100,18 +109,18 @@ class _Box:
     def solve(self, changes):
         values = self.base | {k: np.asarray(v, dtype=float) for k, v in changes.items()}
         if self.self_heating:
-            return solve_self_heated(self.model, values, self.design.devices)
+            return solve_self_heated(self.model, values)
         return solve_points(self.model, values)
 
     def judge(self, points):
         """``(ok, reason)`` per point: in the needed regions, within ratings and limit."""
-        worst, keys = worst_margin(points, self.design.devices, self.edge)
+        worst, keys = points.worst_margin(self.edge)
         ok = worst >= 0
         reasons = np.array([None] * points.size, dtype=object)
         for k in np.flatnonzero(~ok):
             part, cause = keys[k]
             reasons[k] = "no converged solution" if part is None else \
-                f"{part} {cause_text(self.model, part, cause)}"
+                f"{part} {points.cause_text(part, cause)}"
         if self.spec.p_max is not None:
             for name, power in points.dissipation.items():
                 over = ok & (power > self.spec.p_max)
@@ -226,13 +235,14 @@ def _rss(box, box_factors):
         "how": "linear in the exact sensitivities, at every corner of the conditions"})
 
 
-def _draw_parts(spec, design, parts, rng, n):
+def _draw_parts(spec, parts, block):
+    """One block of samples of the parts (see SeededColumns: one column per call, in this order)."""
     draws = {}
     for f in parts:
         if f.distribution == "log-uniform" and f.low > 0:
-            draws[f.name] = np.exp(rng.uniform(np.log(f.low), np.log(f.high), n))
+            draws[f.name] = np.exp(block.uniform(np.log(f.low), np.log(f.high)))
         else:
-            draws[f.name] = rng.uniform(f.low, f.high, n)
+            draws[f.name] = block.uniform(f.low, f.high)
     # Matched groups: one gain for the group, each member within the mismatch of
     # it, kept inside the spec's gain range (clipped at its ends).
     ranges = {f.name: (f.low, f.high) for f in parts}
@@ -241,46 +251,86 @@ def _draw_parts(spec, design, parts, rng, n):
         if names:
             common = draws[names[0]]
             for name in names:
-                draws[name] = np.clip(common * (1 + spec.mismatch * rng.uniform(-1, 1, n)), *ranges[name])
+                draws[name] = np.clip(common * (1 + spec.mismatch * block.uniform(-1, 1)), *ranges[name])
     return draws
+
+
+class _MonteCarloTally:
+    """What a Monte Carlo run keeps: bounded whatever the number of samples.
+
+    The currents of valid points go into a running histogram (exact counts,
+    minimum and maximum; percentiles within one bin width); the passing
+    samples are counted; the first KEPT_SAMPLES samples are kept whole
+    (draws, currents, validity, verdict) for plots and checks.
+    """
+
+    def __init__(self, samples, condition_points, names):
+        kept = min(samples, KEPT_SAMPLES)
+        self.histogram = RunningHistogram()
+        self.passing = 0
+        self.all_valid = True
+        self.current = np.empty((kept, condition_points))
+        self.ok = np.zeros((kept, condition_points), dtype=bool)
+        self.passed = np.zeros(kept, dtype=bool)
+        self.draws = {name: np.empty(kept) for name in names}
+
+    def add(self, start, current, ok, passed, draws):
+        self.histogram.add(current[ok])
+        self.passing += int(passed.sum())
+        self.all_valid &= bool(ok.all())
+        keep = max(0, min(len(passed), self.passed.size - start))
+        if keep:
+            rows = slice(start, start + keep)
+            self.current[rows], self.ok[rows], self.passed[rows] = current[:keep], ok[:keep], passed[:keep]
+            for name, values in draws.items():
+                self.draws[name][rows] = values[:keep]
 
 
 def _monte_carlo(box, box_factors):
     spec = box.spec
-    rng = np.random.default_rng(spec.seed)
     parts = [f for f in box_factors if f.kind == "part"]
     n = spec.samples
-    draws = _draw_parts(spec, box.design, parts, rng, n)
     conditions = [f for f in box_factors if f.kind == "condition"]
     levels = [np.linspace(f.low, f.high, 3 if f.name == "temp" else 2) for f in conditions]
     grid = list(itertools.product(*levels)) or [()]
-    changes = {name: np.repeat(values, len(grid)) for name, values in draws.items()}
-    for i, f in enumerate(conditions):
-        changes[f.name] = np.tile([g[i] for g in grid], n)
-    if not changes:  # nothing varies: every sample is the nominal point
-        changes = {"temp": np.full(n * len(grid), box.base["temp"])}
-    points = box.solve(changes)
-    ok, _ = box.judge(points)
-    current = points.i_out.reshape(n, len(grid))
-    ok = ok.reshape(n, len(grid))
+    at_conditions = {f.name: np.array([g[i] for g in grid]) for i, f in enumerate(conditions)}
     lo, hi = spec.limits
-    good = ok.all(axis=1) & np.all((current >= lo) & (current <= hi), axis=1)
-    yield_ = float(good.mean())
-    valid = current[ok]
-    percentiles = {str(p): float(np.percentile(valid, p)) for p in (0.135, 1, 50, 99, 99.865)} \
-        if valid.size else {}
-    low, high = _valid_range(current, ok)
-    _, margin = _verdict(spec, low, high, ok.all())
-    passed = yield_ == 1.0
-    return MethodResult("Monte Carlo", low, high, passed, margin, {
-        "samples": n, "seed": spec.seed, "condition_points": len(grid), "yield": yield_,
-        "yield_standard_error": float(np.sqrt(max(yield_ * (1 - yield_), 1e-300) / n)),
-        "percentiles": percentiles, "failing_samples": int((~good).sum()),
+    columns = SeededColumns(spec.seed, n)
+    tally = _MonteCarloTally(n, len(grid), [f.name for f in parts])
+    # Solve a chunk of samples at a time: the solver's arrays, not the sample
+    # count, set the memory (about 1 kB per point while it runs).
+    per_chunk = max(1, MONTE_CARLO_CHUNK_POINTS // len(grid))
+    for start in range(0, n, per_chunk):
+        size = min(per_chunk, n - start)
+        draws = _draw_parts(spec, parts, columns.block(start, size))
+        changes = {name: np.repeat(values, len(grid)) for name, values in draws.items()}
+        changes |= {name: np.tile(values, size) for name, values in at_conditions.items()}
+        if not changes:  # nothing varies: every sample is the nominal point
+            changes = {"temp": np.full(size * len(grid), box.base["temp"])}
+        points = box.solve(changes)
+        ok = box.judge(points)[0].reshape(size, len(grid))
+        current = points.i_out.reshape(size, len(grid))
+        passed = ok.all(axis=1) & np.all((current >= lo) & (current <= hi), axis=1)
+        tally.add(start, current, ok, passed, draws)
+    hist = tally.histogram
+    low, high = (hist.low, hist.high) if hist.count else (None, None)
+    _, margin = _verdict(spec, low, high, tally.all_valid)
+    interval = wilson_interval(tally.passing, n, YIELD_CONFIDENCE)
+    percentiles = {str(p): hist.percentile(p) for p in PERCENTILES} if hist.count else {}
+    return MethodResult("Monte Carlo", low, high, tally.passing == n, margin, {
+        "samples": n, "seed": spec.seed, "condition_points": len(grid), "yield": tally.passing / n,
+        "yield_interval": list(interval), "yield_confidence": YIELD_CONFIDENCE,
+        "yield_interval_method": "Wilson score interval (Wilson 1927)",
+        "percentiles": percentiles, "percentile_resolution": hist.width if hist.count else None,
+        "valid_points": int(hist.count), "failing_samples": n - tally.passing,
+        "kept_samples": int(tally.passed.size),
         "distributions": {f.name: ("log-uniform" if f.distribution == "log-uniform" else "uniform")
                           for f in parts},
         "matched": [list(g) for g in spec.matched], "mismatch": spec.mismatch,
-        "how": "parts drawn per sample, each sample solved at every condition level"},
-        arrays={"current": current, "ok": ok, "passed": good, "draws": draws})
+        "how": ("parts drawn per sample, each sample solved at every condition level; percentiles from "
+                f"a running histogram of {hist.bins} bins (within one bin width)")},
+        arrays={"histogram": hist, "current": tally.current, "ok": tally.ok, "passed": tally.passed,
+                "draws": tally.draws})
 
 
 def _budget(box, box_factors, nominal_points):
@@ -331,8 +381,10 @@ def _largest_change(values, reference, ok):
 class WorstCase:
     """The spec checked three ways (see the module docstring).
 
-    ``met`` is the guarantee: the extreme-value bound inside the limits and
-    no point out of the needed regions, ratings or limits.
+    ``met`` is the guarantee when the extreme-value analysis ran: its bound
+    inside the limits and no point out of the needed regions, ratings or
+    limits.  Without it the verdict rests on RSS (if run), else on Monte
+    Carlo; ``decided_by`` names the method and :meth:`verdict` says so.
     """
 
     def __init__(self, spec, design, nominal, methods, budget, box_factors, self_heating):
@@ -345,76 +397,88 @@ class WorstCase:
         self.self_heating = self_heating
 
     @property
+    def decided_by(self):
+        """The method the verdict rests on: ``"extreme-value"`` when it ran (the guarantee)."""
+        return next(name for name in METHODS if name in self.methods)
+
+    @property
     def met(self):
-        return self.methods["extreme-value"].passed
+        return self.methods[self.decided_by].passed
+
+    def verdict(self):
+        """The verdict in one line, naming the method it rests on."""
+        method = self.methods[self.decided_by]
+        if self.decided_by == "extreme-value":
+            return "spec met (extreme-value bound)" if self.met else "spec NOT met (extreme-value bound)"
+        if self.decided_by == "RSS":
+            basis = f"RSS, ±{SIGMA_PER_TOLERANCE:g} sigma"
+        else:
+            basis = (f"Monte Carlo, {method.detail['samples'] - method.detail['failing_samples']} of "
+                     f"{method.detail['samples']} samples passing")
+        return (f"spec {'met' if self.met else 'NOT met'} ({basis}; no guarantee: "
+                "the extreme-value bound was not run)")
 
     def reasons(self):
         """Why the spec is not met, in words (empty when it is)."""
-        out = list(self.methods["extreme-value"].detail["failures"])
+        decisive = self.methods[self.decided_by]
+        out = list(decisive.detail.get("failures", ()))
         band = 2 * self.spec.tolerance * self.spec.i_target
         for entry in self.budget:
             if entry.swing > band / 2:
                 out.append(f"{entry.label} alone moves the current by {entry.swing / self.spec.i_target:.2%} "
                            f"of the target (the spec allows ±{self.spec.tolerance:.2%})")
-        eva = self.methods["extreme-value"]
-        if not out and not eva.passed:
-            low, high, _ = eva.texts()
-            out.append(f"worst case {low} … {high} leaves the spec")
+        if not out and not decisive.passed:
+            low, high, _ = decisive.texts()
+            if decisive.method == "extreme-value":
+                out.append(f"worst case {low} … {high} leaves the spec")
+            elif decisive.method == "RSS":
+                out.append(f"the RSS range {low} … {high} leaves the spec")
+            else:
+                out.append(f"{decisive.detail['failing_samples']} of {decisive.detail['samples']} "
+                           f"Monte Carlo samples fail (range {low} … {high})")
         return out
 
     def to_dict(self):
         return {"spec": self.spec.to_dict(), "design": self.design.to_dict(), "nominal": self.nominal,
-                "met": self.met, "self_heating": self.self_heating,
+                "met": self.met, "decided_by": self.decided_by, "verdict": self.verdict(),
+                "self_heating": self.self_heating,
                 "methods": {k: m.to_dict() for k, m in self.methods.items()},
                 "budget": [b.to_dict() for b in self.budget], "reasons": self.reasons(),
                 "factors": [{"name": f.name, "nominal": f.nominal, "low": f.low, "high": f.high,
                              "kind": f.kind, "distribution": f.distribution} for f in self.factors]}
 
-    def text(self):
-        lo, hi = self.spec.limits
-        lines = [f"spec {format_quantity(self.spec.i_target, 'A', 4)} ± {self.spec.tolerance:.2%}"
-                 f" ({format_quantity(lo, 'A', 4)} … {format_quantity(hi, 'A', 4)}),"
-                 f" nominal {format_quantity(self.nominal, 'A', 4)}",
-                 f"self-heating {'included' if self.self_heating else 'not included'}"]
-        for m in self.methods.values():
-            verdict = "PASS" if m.passed else "FAIL"
-            extra = f", yield {m.detail['yield']:.2%}" if "yield" in m.detail else ""
-            low, high, margin = m.texts()
-            lines.append(f"  {m.method:<14} {low:>10} … {high:<10} margin {margin}  {verdict}{extra}")
-        lines.append("error budget (each factor alone, exact)")
-        for b in self.budget:
-            lines.append(f"  {b.label:<22} {format_quantity(b.swing, 'A'):>9}  {b.share:6.1%}")
-        for reason in self.reasons():
-            lines.append(f"  ! {reason}")
-        lines.append("verdict: " + ("spec met (extreme-value bound)" if self.met else "spec NOT met"))
-        return "\n".join(lines)
 
-    def _repr_html_(self):
-        rows = []
-        for m in self.methods.values():
-            css = "bb-ok" if m.passed else "bb-bad"
-            rows.append([m.method, *m.texts(), display.Raw(f'<span class="{css}">{"pass" if m.passed else "fail"}</span>'),
-                         m.detail.get("how", "")])
-        methods = display.table(["method", "lowest", "highest", "margin", "verdict", "how"], rows,
-                                numeric=(1, 2, 3))
-        budget = display.table(["factor", "kind", "swing alone", "linear estimate", "share"],
-                               [[b.label, b.kind, format_quantity(b.swing, "A"), format_quantity(b.linear, "A"),
-                                 f"{b.share:.1%}"] for b in self.budget], numeric=(2, 3, 4))
-        lo, hi = self.spec.limits
-        head = (f"<p>Spec {format_quantity(self.spec.i_target, 'A', 4)} ± {self.spec.tolerance:.2%} "
-                f"({format_quantity(lo, 'A', 4)} … {format_quantity(hi, 'A', 4)}); nominal "
-                f"{format_quantity(self.nominal, 'A', 4)}; self-heating "
-                f"{'included' if self.self_heating else 'not included'}. "
-                f"RSS takes ± tolerance as ±{SIGMA_PER_TOLERANCE:g} σ.</p>")
-        reasons = "".join(f"<li>{display.escape(r)}</li>" for r in self.reasons())
-        verdict = ('<p class="bb-ok">Spec met (extreme-value bound).</p>' if self.met
-                   else f'<p class="bb-bad">Spec not met.</p><ul>{reasons}</ul>')
-        return display.wrap(display.section("Worst case", head + methods + verdict)
-                            + display.section("Error budget (each factor alone, exact solve)", budget))
+def _checked_methods(methods):
+    """``methods`` as a tuple of known names, each once (a single name may be given as text)."""
+    if isinstance(methods, str):
+        methods = (methods,)
+    try:
+        names = tuple(dict.fromkeys(methods))
+    except TypeError:
+        raise ParameterError("must be a sequence of method names", parameter="methods", value=methods,
+                             valid=", ".join(METHODS)) from None
+    unknown = [name for name in names if name not in METHODS]
+    if unknown or not names:
+        raise ParameterError("unknown method" if unknown else "no method given", parameter="methods",
+                             value=unknown[0] if unknown else names, valid=", ".join(METHODS))
+    return names
 
 
 def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHODS):
     """Check ``design`` against ``spec`` by extreme values, RSS and Monte Carlo.
+
+    Parameters
+    ----------
+    design : kit.designs.Design
+    spec : kit.analysis.spec.Spec
+    self_heating : bool
+        Solve every point with its junctions at ambient + theta_JA x dissipation.
+    edge : {"vce_sat", "vcb_zero"}
+        Saturation criterion.
+    methods : sequence of str
+        Any of ``"extreme-value"``, ``"RSS"``, ``"Monte Carlo"``.  Without
+        ``"extreme-value"`` the verdict is RSS's (else Monte Carlo's) and is
+        no guarantee; :meth:`WorstCase.verdict` says so.
 
     Examples
     --------
@@ -425,6 +489,7 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
     >>> wc.met
     True
     """
+    methods = _checked_methods(methods)
     box_factors = factors(spec, design)
     box = _Box(spec, design, self_heating, edge)
     nominal_points = box.solve({})

@@ -1,16 +1,31 @@
-"""Device models and, per kind of device, what the solver needs of it.
+"""Kinds of parts, one module each (see :mod:`kit.devices.base` for what a kind is).
 
-Each kind module (``bjt``; others register the same way) provides ``MODEL``
-(a frozen dataclass), ``typical(polarity)``, ``QUANTITIES`` (the per-device
-expressions the equations export), ``STEP_LIMITED``, ``EQUATION_PARAMETERS``,
-``GOOD_REGION``, ``regions(...)``, ``margins(...)`` and ``dissipation(...)``.
+Every module of this package that defines ``KIND`` (or a tuple ``KINDS``)
+is registered by discovery: a new kind of part is one new module.
+
+>>> sorted(KINDS)
+['bjt', 'diode', 'mos', 'opamp', 'resistor', 'source', 'zener']
 """
 
-from kit.devices import bjt
-from kit.devices import mosfet
-from kit.devices.bjt import TYPICAL_NPN, TYPICAL_PNP, BJTModel, thermal_voltage, typical
+import importlib
+import pkgutil
 
-KINDS = {bjt.KIND: bjt}
-KINDS[mosfet.KIND] = mosfet
+from kit.devices.base import DeviceKind, DeviceModel, Param, check_range, thermal_voltage
 
-__all__ = ["BJTModel", "KINDS", "TYPICAL_NPN", "TYPICAL_PNP", "thermal_voltage", "typical"]
+
+def _discover():
+    found = {}
+    for info in pkgutil.iter_modules(__path__):
+        if info.name == "base":
+            continue
+        module = importlib.import_module(f"{__name__}.{info.name}")
+        for kind in getattr(module, "KINDS", ()) or ([module.KIND] if hasattr(module, "KIND") else []):
+            if kind.key in found:
+                raise RuntimeError(f"two kinds of part are named {kind.key}")
+            found[kind.key] = kind
+    return dict(sorted(found.items()))
+
+
+KINDS = _discover()
+
+__all__ = ["KINDS", "DeviceKind", "DeviceModel", "Param", "check_range", "thermal_voltage"]

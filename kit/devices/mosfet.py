@@ -44,212 +44,152 @@ memory; exponent 1.2 ... 2, threshold slope -1 ... -4 mV/K)::
 with ``T`` the channel temperature, ``temp + t_rise`` (self-heating), as for
 a BJT junction; lambda does not change with temperature in this model.
 
-Polarity uses the kit's design words: an NMOS is a ``"npn"``-polarity
-device (it sinks), a PMOS a ``"pnp"`` one (it sources); ``"nmos"`` and
-``"pmos"`` are accepted and stored as those.
+An NMOS sinks (``n`` sense), a PMOS sources (``p`` sense); designs of
+MOSFET circuits say ``nmos`` and ``pmos``.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import numpy as np
 
-from kit.devices.bjt import BOLTZMANN_OVER_CHARGE, check_range
-from kit.devices.common import ModelValues
-from kit.errors import ParameterError
+from kit.devices.base import BOLTZMANN_OVER_CHARGE, DeviceKind, Param
+from kit.words import assumption
 
-# Channel words <-> the kit's design-polarity words.
-POLARITY_WORDS = {"npn": "nmos", "pnp": "pmos"}
-_ACCEPTED = {"npn": "npn", "nmos": "npn", "pnp": "pnp", "pmos": "pnp"}
-
-
-@dataclass(frozen=True)
-class MOSFETModel(ModelValues):
-    """Parameters of one enhancement MOSFET, given at the reference temperature.
-
-    All voltages are magnitudes in the conducting sense (a PMOS threshold of
-    2 V is written ``v_th=2.0``).
-
-    Parameters
-    ----------
-    polarity : {"npn", "pnp"} (or "nmos", "pmos")
-        ``"npn"`` for an NMOS (sink), ``"pnp"`` for a PMOS (source).
-    k_prime : float
-        Process transconductance ``mu C_ox`` in A/V^2.  For a discrete part,
-        whose W/L is not published, give the part's ``K = k' W/L`` here and
-        leave ``w_over_l = 1``.
-    w_over_l : float
-        Channel width over length (a topology may scale it further, as a
-        mirror's ratio does).
-    v_th : float
-        Threshold voltage magnitude in V (enhancement mode, > 0).
-    lambda_clm : float
-        Channel-length modulation coefficient in 1/V (0 for none).
-    mu_exp : float
-        Mobility temperature exponent: ``k' ∝ T^(-mu_exp)``.
-    tc_vth : float
-        Threshold temperature slope in V/K (negative for real parts).
-    n_sub : float
-        Weak-inversion slope factor of the subthreshold continuation.
-    bv_dss : float
-        Drain-source breakdown voltage in V (upper compliance limit).
-    theta_ja : float
-        Junction-to-ambient thermal resistance in K/W.
-    t_j_max : float
-        Maximum junction temperature in K.
-    label : str
-        Where the numbers come from, shown in every report.
-
-    Examples
-    --------
-    >>> TYPICAL_NMOS.v_th
-    2.0
-    >>> MOSFETModel(polarity="pmos").polarity
-    'pnp'
-    >>> TYPICAL_NMOS.with_values(lambda_clm=0.0).lambda_clm
-    0.0
-    """
-
-    polarity: str = "npn"
-    k_prime: float = 0.2
-    w_over_l: float = 1.0
-    v_th: float = 2.0
-    lambda_clm: float = 0.01
-    mu_exp: float = 1.5
-    tc_vth: float = -2e-3
-    n_sub: float = 1.5
-    bv_dss: float = 60.0
-    theta_ja: float = 350.0
-    t_j_max: float = 423.15
-    label: str = "typical discrete small-signal NMOS (generic values from memory, not a part's data)"
-
-    def __post_init__(self):
-        if self.polarity not in _ACCEPTED:
-            raise ParameterError("unknown MOSFET polarity", parameter="polarity",
-                                 value=self.polarity, valid="npn (NMOS) or pnp (PMOS)")
-        object.__setattr__(self, "polarity", _ACCEPTED[self.polarity])
-        for name, (low, high, unit) in MODEL_LIMITS.items():
-            check_range(name, getattr(self, name), low, high, unit)
-        if not isinstance(self.label, str):
-            raise ParameterError("must be text", parameter="label", value=self.label)
-
-    @property
-    def channel(self):
-        """``"nmos"`` or ``"pmos"``."""
-        return POLARITY_WORDS[self.polarity]
-
-    @property
-    def k(self):
-        """Transconductance parameter ``K = k' W/L`` in A/V^2 at the reference temperature."""
-        return self.k_prime * self.w_over_l
-
-    @property
-    def bv_ceo(self):
-        """Breakdown voltage under the name the compliance search reads for every kind (= ``bv_dss``)."""
-        return self.bv_dss
+NO_CLM = assumption("no_clm", "no channel-length modulation (λ → 0)", excludes=("lambda_",))
+SQUARE_LAW = assumption("square_law", "MOSFET square law in saturation (strong inversion, "
+                        "no subthreshold continuation)", excludes=("nsub_",))
+MATCHED_MOS = assumption("matched_mos", "matched MOSFETs (equal k′, V_th and λ, one temperature)")
 
 
+class MOSFET(DeviceKind):
+    """The enhancement MOSFET kind (see the module docstring)."""
 
-# name: (lowest, highest, unit) -- wide enough for integrated and discrete
-# parts, narrow enough to catch a unit slip (a k' of 200 for 200 uA/V^2).
-MODEL_LIMITS = {
-    "k_prime": (1e-7, 1e3, "A/V²"),
-    "w_over_l": (1e-3, 1e6, ""),
-    "v_th": (0.05, 10.0, "V"),
-    "lambda_clm": (0.0, 1.0, "1/V"),
-    "mu_exp": (0.0, 3.0, ""),
-    "tc_vth": (-10e-3, 5e-3, "V/K"),
-    "n_sub": (1.0, 3.0, ""),
-    "bv_dss": (1.0, 2000.0, "V"),
-    "theta_ja": (0.1, 2000.0, "K/W"),
-    "t_j_max": (300.0, 600.0, "K"),
-}
-
-MOSFETModel.LIMITS = MODEL_LIMITS
-MOSFETModel.WHAT = "MOSFET"
-
-TYPICAL_NMOS = MOSFETModel()
-TYPICAL_PMOS = MOSFETModel(
-    polarity="pnp", k_prime=0.1, lambda_clm=0.02, bv_dss=50.0,
-    label="typical discrete small-signal PMOS (generic values from memory, not a part's data)",
-)
-
-
-def typical(polarity):
-    """The generic typical model of a design polarity (``"npn"`` -> NMOS, ``"pnp"`` -> PMOS).
-
-    Examples
-    --------
-    >>> typical("pnp").channel
-    'pmos'
-    """
-    return TYPICAL_NMOS if _ACCEPTED.get(polarity) == "npn" else TYPICAL_PMOS
-
-
-# --- what the solver and the compliance search need to know of this kind
-
-KIND = "mos"
-MODEL = MOSFETModel
-QUANTITIES = ("v_gs", "v_ds", "v_gd", "v_ov", "v_dsat", "i_d")
-STEP_LIMITED = ()  # no exponential above the join, so no junction-style step limit is needed
-EQUATION_PARAMETERS = ("k_prime", "w_over_l", "v_th", "lambda_clm", "mu_exp", "tc_vth", "n_sub")
-GOOD_REGION = "saturation"
-SENSITIVITY_PARAMETERS = {"k_prime": "A/V²", "v_th": "V", "lambda_clm": "1/V"}
-# Operating-symbol prefixes -> what the tempco budget calls them.
-BUDGET_LABELS = {"K_": "transconductance K = k′W/L (mobility)", "Vth_": "threshold voltage V_th",
-                 "lambda_": "channel-length modulation λ", "nsub_": "weak-inversion slope n"}
-# Words for the compliance report (the shared table speaks of BJTs).
-CAUSE_TEXT = {"triode": "leaves saturation (triode)", "cutoff": "falls below threshold",
+    key = "mos"
+    law = "MOSFET square law with channel-length modulation (continued below threshold)"
+    title = "MOSFET"
+    terminals = ("g", "d", "s")
+    words = {"n": "nmos", "p": "pmos"}
+    params = (
+        Param("k_prime", "A/V²", 1e-7, 1e3, "process transconductance μC_ox (a discrete part's "
+              "K = k′W/L with W/L = 1)", "k′"),
+        Param("w_over_l", "", 1e-3, 1e6, "channel width over length", "W/L"),
+        Param("v_th", "V", 0.05, 10.0, "threshold voltage magnitude at T_ref", "V_th"),
+        Param("lambda_clm", "1/V", 0.0, 1.0, "channel-length modulation coefficient", "λ"),
+        Param("mu_exp", "", 0.0, 3.0, "mobility temperature exponent (k′ ∝ T^-μexp)", "μ_exp"),
+        Param("tc_vth", "V/K", -10e-3, 5e-3, "threshold temperature slope", "TC_Vth"),
+        Param("n_sub", "", 1.0, 3.0, "weak-inversion slope factor of the subthreshold continuation",
+              "n"),
+        Param("bv_dss", "V", 1.0, 2000.0, "drain-source breakdown voltage", "BV_DSS", rating=True),
+        Param("theta_ja", "K/W", 0.1, 2000.0, "junction-to-ambient thermal resistance", "θ_JA",
+              rating=True),
+        Param("t_j_max", "K", 300.0, 600.0, "highest junction temperature", "T_J(max)", rating=True),
+    )
+    typical_values = {
+        "n": dict(k_prime=0.2, w_over_l=1.0, v_th=2.0, lambda_clm=0.01, mu_exp=1.5, tc_vth=-2e-3,
+                  n_sub=1.5, bv_dss=60.0, theta_ja=350.0, t_j_max=423.15),
+        "p": dict(k_prime=0.1, w_over_l=1.0, v_th=2.0, lambda_clm=0.02, mu_exp=1.5, tc_vth=-2e-3,
+                  n_sub=1.5, bv_dss=50.0, theta_ja=350.0, t_j_max=423.15),
+    }
+    typical_labels = {
+        "n": "typical discrete small-signal NMOS (generic values from memory, not a part's data)",
+        "p": "typical discrete small-signal PMOS (generic values from memory, not a part's data)",
+    }
+    quantities = ("v_gs", "v_ds", "v_gd", "v_ov", "v_dsat", "i_d")
+    step_limited = ()  # no exponential above the join, so no junction-style step limit is needed
+    breakdown = "bv_dss"  # the rating that bounds the load voltage
+    good_region = "saturation"
+    causes = {"triode": "leaves saturation (triode)", "cutoff": "falls below threshold",
               "breakdown": "reaches BV_DSS", "power": "reaches its dissipation limit"}
-# Operating-symbol prefixes -> LaTeX (for kit.derive.latex_name).
-LATEX_PREFIXES = {"K_": "K", "Vth_": "V_{th", "lambda_": r"\lambda", "nsub_": "n"}
-
-
-def dissipation(j):
-    """Power in W: ``V_DS I_D`` (no gate current)."""
-    return j["v_ds"] * j["i_d"]
-
-
-def regions(j, v_t, device, edge="vce_sat"):
-    """Region names (``saturation``, ``triode``, ``cutoff``) of solved points.
-
-    ``cutoff`` below threshold (``v_ov < 0``), ``triode`` below the
-    saturation voltage ``v_dsat`` (= ``v_ov`` above the join), else
-    ``saturation``.  ``edge`` (a BJT criterion) does not apply and is ignored.
-    """
-    import numpy as np
-
-    region = np.where(j["v_ds"] < j["v_dsat"], "triode", "saturation").astype(object)
-    region[j["v_ov"] < 0] = "cutoff"
-    return region
-
-
-def margins(j, v_t, temp, device, edge="vce_sat"):
-    """Distance to each limit of saturation operation (>= 0 inside), by cause.
-
-    Causes: ``triode`` (V, ``v_ds - v_dsat``), ``cutoff`` (V, the overdrive),
-    ``breakdown`` (V, against ``bv_dss``) and ``power`` (W, against
-    ``(T_J,max - T)/theta_JA`` at temperature ``temp``).
-    """
-    return {
-        "triode": j["v_ds"] - j["v_dsat"],
-        "cutoff": j["v_ov"],
-        "breakdown": device.bv_dss - j["v_ds"],
-        "power": (device.t_j_max - temp) / device.theta_ja - dissipation(j),
+    sensitivity = {"k_prime": "A/V²", "v_th": "V", "lambda_clm": "1/V"}
+    symbol_roles = {
+        "K": ("K_", "K", "transconductance K = k′W/L (mobility)"),
+        "V_th": ("Vth_", "V_{th}", "threshold voltage V_th"),
+        "lambda": ("lambda_", r"\lambda", "channel-length modulation λ"),
+        "n": ("nsub_", "n", "weak-inversion slope n"),
+        "V_T": ("V_T_", "V_{T}", "thermal voltage V_T"),
     }
 
+    def assumptions_of(self, role):
+        return {"V_th": {"real": True}, "lambda": {"nonnegative": True}}.get(role, {"positive": True})
 
-def describe(values):
-    """One line of a solved device for plain-text reports.
+    # -- symbolic -----------------------------------------------------------------
+    def temperature_map(self, name, params, junction, t_ref, scale):
+        """``K = scale W/L k′ (T/T0)^-μexp``, ``V_th = V_th0 + TC_Vth (T - T0)`` at the channel temperature."""
+        op = self.operating_symbols(name)
+        return {
+            op["K"]: scale * params["w_over_l"] * params["k_prime"] * (junction / t_ref) ** (-params["mu_exp"]),
+            op["V_th"]: params["v_th"] + params["tc_vth"] * (junction - t_ref),
+            op["lambda"]: params["lambda_clm"],
+            op["n"]: params["n_sub"],
+            op["V_T"]: BOLTZMANN_OVER_CHARGE * junction,
+        }
 
-    Examples
-    --------
-    >>> describe({"v_gs": 2.5, "v_ds": 8.0, "v_ov": 0.5, "i_d": 0.01})
-    'V_GS 2.500 V, V_DS 8.000 V, V_ov 0.500 V, I_D 10 mA'
-    """
-    from kit.quantities import format_quantity
+    def stamp(self, sense, voltages, symbols):
+        """Square-law currents into the terminals (gate draws none) and the normalised quantities."""
+        return channel_stamp(sense, voltages["g"], voltages["d"], voltages["s"],
+                             symbols["K"], symbols["V_th"], symbols["lambda"], symbols["n"], symbols["V_T"])
 
-    return (f"V_GS {values['v_gs']:.3f} V, V_DS {values['v_ds']:.3f} V, "
-            f"V_ov {values['v_ov']:.3f} V, I_D {format_quantity(values['i_d'], 'A', 4)}")
+    def small_signal(self, quantities, symbols):
+        """Square-law ``g_m = K V_ov (1 + λ V_DS)`` and ``r_o = 2/(λ K V_ov²)`` in saturation.
+
+        Written with the plain overdrive, not the piecewise law (whose every
+        branch NumPy would evaluate and divide by).  ``λ`` gets a floor of
+        1e-15 1/V so that λ = 0 gives a huge finite r_o instead of 1/0 (the
+        change is below 1e-9 relative for any λ above 1e-6 1/V).
+        """
+        k, lam = symbols["K"], symbols["lambda"]
+        v_ov = quantities["v_ov"]
+        return {"g_m": k * v_ov * (1 + lam * quantities["v_ds"]),
+                "r_o": 2 / ((lam + LAMBDA_FLOOR) * k * v_ov ** 2)}
+
+    def small_signal_stamp(self, quantities, symbols):
+        s = self.small_signal(quantities, symbols)
+        return [("gm", "d", "s", "g", "s", s["g_m"]), ("g", "d", "s", 1 / s["r_o"])]
+
+    def start(self, sense, current, symbols):
+        """``V_GS`` that carries ``current`` in saturation (square law, no λ)."""
+        import sympy as sp
+
+        return symbols["V_th"] + sp.sqrt(2 * current / symbols["K"])
+
+    # -- numeric ------------------------------------------------------------------
+    def regions(self, j, p, temp, edge):
+        """``saturation``, ``triode`` (below the saturation voltage) or ``cutoff`` (below threshold)."""
+        region = np.where(j["v_ds"] < j["v_dsat"], "triode", "saturation").astype(object)
+        region[j["v_ov"] < 0] = "cutoff"
+        return region
+
+    def margins(self, j, p, temp, edge):
+        """Triode and cut-off (V), breakdown (V) and dissipation (W, at the point's temperature)."""
+        return {
+            "triode": j["v_ds"] - j["v_dsat"],
+            "cutoff": j["v_ov"],
+            "breakdown": p.bv_dss - j["v_ds"],
+            "power": (p.t_j_max - temp) / p.theta_ja - self.dissipation(j),
+        }
+
+    def dissipation(self, j):
+        """``V_DS I_D`` in W (no gate current)."""
+        return j["v_ds"] * j["i_d"]
+
+    def current(self, j):
+        return j["i_d"]
+
+    def describe(self, j):
+        """One line of a solved part.
+
+        Examples
+        --------
+        >>> MOSFET().describe({"v_gs": 2.5, "v_ds": 8.0, "v_ov": 0.5, "i_d": 0.01})
+        'V_GS 2.500 V, V_DS 8.000 V, V_ov 0.500 V, I_D 10 mA'
+        """
+        from kit.quantities import format_quantity
+
+        return (f"V_GS {j['v_gs']:.3f} V, V_DS {j['v_ds']:.3f} V, "
+                f"V_ov {j['v_ov']:.3f} V, I_D {format_quantity(j['i_d'], 'A', 4)}")
+
+
+LAMBDA_FLOOR = 1e-15  # 1/V
 
 
 def overdrive_for_current(current, v_ds, k, lam, join, smallest_v_ds=1e-3):
@@ -267,8 +207,6 @@ def overdrive_for_current(current, v_ds, k, lam, join, smallest_v_ds=1e-3):
     >>> round(float(overdrive_for_current(0.2 / 2 * 0.078**2, 5.0, 0.2, 0.0, 0.078)), 6)
     0.078
     """
-    import numpy as np
-
     v = np.maximum(v_ds, smallest_v_ds)
     clm = 1 + lam * v
     saturated = np.sqrt(2 * current / (k * clm))
@@ -279,43 +217,7 @@ def overdrive_for_current(current, v_ds, k, lam, join, smallest_v_ds=1e-3):
     return np.where(strong >= join, strong, weak)
 
 
-# --- symbolic laws (SymPy imported lazily: the numeric path does not need it)
-
-def operating_symbols(name):
-    """SymPy symbols of a MOSFET's parameters at the operating temperature."""
-    import sympy as sp
-
-    return {
-        "K": sp.Symbol(f"K_{name}", positive=True),
-        "V_th": sp.Symbol(f"Vth_{name}", real=True),
-        "lambda": sp.Symbol(f"lambda_{name}", nonnegative=True),
-        "n": sp.Symbol(f"nsub_{name}", positive=True),
-        "V_T": sp.Symbol(f"V_T_{name}", positive=True),
-    }
-
-
-def temperature_map(name, temp, t_ref, scale=1):
-    """Operating-temperature parameters of MOSFET ``name`` from its reference values.
-
-    The channel sits at ``temp + {name}.t_rise`` (self-heating, thermal
-    gradients), as a BJT junction does.  ``scale`` multiplies W/L (a mirror
-    ratio: a number or a parameter symbol).  Returns ``(map, reference_symbols)``
-    like :func:`kit.devices.bjt.temperature_map`.
-    """
-    import sympy as sp
-
-    ref = {key: sp.Symbol(f"{name}.{key}", real=True) for key in (*EQUATION_PARAMETERS, "t_rise")}
-    op = operating_symbols(name)
-    channel = temp + ref["t_rise"]
-    mapping = {
-        op["K"]: scale * ref["w_over_l"] * ref["k_prime"] * (channel / t_ref) ** (-ref["mu_exp"]),
-        op["V_th"]: ref["v_th"] + ref["tc_vth"] * (channel - t_ref),
-        op["lambda"]: ref["lambda_clm"],
-        op["n"]: ref["n_sub"],
-        op["V_T"]: BOLTZMANN_OVER_CHARGE * channel,
-    }
-    return mapping, ref
-
+# --- the symbolic law (SymPy imported lazily: the numeric path does not need it)
 
 def effective_overdrive(v_ov, join):
     """The saturation voltage: ``v_ov`` above ``join``, ``join`` below it."""
@@ -344,44 +246,61 @@ def forward_current(k, v_ov, v_ds, lam, join):
                         (_square(k, join, v_ds, lam) * sp.exp(2 * (v_ov - join) / join), True))
 
 
-def channel_laws(polarity, v_g, v_d, v_s, symbols, v_t):
-    """Square-law currents into the terminals of one MOSFET.
+def channel_stamp(sense, v_g, v_d, v_s, k, v_th, lam, n, v_t):
+    """Square-law currents into drain, source and gate of a channel, and its normalised quantities.
 
-    Parameters
-    ----------
-    polarity : {"npn", "pnp"}
-        ``"npn"`` for NMOS, ``"pnp"`` for PMOS.
-    v_g, v_d, v_s : sympy expressions
-        Node voltages of gate, drain and source.
-    symbols : dict
-        Output of :func:`operating_symbols`.
-    v_t : sympy expression
-        Thermal voltage of the channel (sets the join of the subthreshold
-        continuation); ``symbols["V_T"]`` for the device's own temperature.
-
-    Returns
-    -------
-    dict
-        ``into_d``, ``into_s``, ``into_g`` (signed currents into the
-        terminals) and the normalised ``v_gs``, ``v_ds``, ``v_gd``, ``v_ov``,
-        ``v_dsat``, ``i_d`` (conduction positive for either polarity).
+    Shared by the MOSFET and the JFET (whose law is the same square law
+    with ``K = 2 I_DSS / V_P²`` and ``V_th = V_P``).  ``v_t`` sets the join
+    ``2 n V_T`` of the subthreshold continuation.
     """
     import sympy as sp
 
-    sign = 1 if _ACCEPTED[polarity] == "npn" else -1
+    sign = 1 if sense == "n" else -1
     v_gs = sign * (v_g - v_s)
     v_ds = sign * (v_d - v_s)
     v_gd = v_gs - v_ds
-    k, v_th, lam, n = (symbols[key] for key in ("K", "V_th", "lambda", "n"))
     join = 2 * n * v_t
     v_ov = v_gs - v_th
     v_dsat = effective_overdrive(v_ov, join)
     forward = forward_current(k, v_ov, v_ds, lam, join)
     reverse = -forward_current(k, v_gd - v_th, -v_ds, lam, join)
     i_d = sp.Piecewise((forward, v_ds >= 0), (reverse, True))
-    return {
-        "into_d": sign * i_d,
-        "into_s": -sign * i_d,
-        "into_g": sp.Integer(0),
-        "v_gs": v_gs, "v_ds": v_ds, "v_gd": v_gd, "v_ov": v_ov, "v_dsat": v_dsat, "i_d": i_d,
-    }
+    currents = {"d": sign * i_d, "s": -sign * i_d, "g": sp.Integer(0)}
+    return currents, {"v_gs": v_gs, "v_ds": v_ds, "v_gd": v_gd, "v_ov": v_ov, "v_dsat": v_dsat,
+                      "i_d": i_d}
+
+
+KIND = MOSFET()
+
+
+def overdrive_for_current_expression(current, v_ds, k, lam, join, smallest_v_ds=1e-3):
+    """The SymPy twin of :func:`overdrive_for_current`, for starting points compiled with a model.
+
+    Saturation, triode and the exponential continuation below the join
+    inverted as there; every condition compares plain expressions, so the
+    generated code selects with boolean arrays.  ``current`` must be
+    positive (guard a closed form with :func:`kit.circuit.blocks.positive_or`).
+
+    Examples
+    --------
+    >>> import sympy as sp
+    >>> i, v = sp.symbols("i v", positive=True)
+    >>> u = overdrive_for_current_expression(i, v, 0.2, 0.01, 0.078)
+    >>> cases = [(0.01, 5.0), (0.01, 0.1), (1e-5, 5.0), (1e-5, 1e-2)]
+    >>> all(abs(float(u.subs({i: a, v: b})) - float(overdrive_for_current(a, b, 0.2, 0.01, 0.078)))
+    ...     < 1e-12 for a, b in cases)
+    True
+    """
+    import sympy as sp
+
+    v = sp.Max(v_ds, smallest_v_ds)
+    clm = 1 + lam * v
+    saturated = sp.sqrt(2 * current / (k * clm))
+    triode = current / (k * v * clm) + v / 2
+    at_join = k * clm * sp.Piecewise((join * v - v ** 2 / 2, v < join), (join ** 2 / 2, True))
+    weak = join + join / 2 * sp.log(current / at_join)
+    # v >= saturated <=> v^2 >= 2 I/(K clm): written without the root.
+    in_saturation = k * clm * v ** 2 >= 2 * current
+    return sp.Piecewise((saturated, in_saturation & (saturated >= join)),
+                        (triode, ~in_saturation & (triode >= join)),
+                        (weak, True))

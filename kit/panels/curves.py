@@ -1,10 +1,10 @@
 """What the design panel draws: columns of numbers from the kit's own sweeps.
 
-No physics here.  Every current comes from :func:`kit.evaluation.sweep` (one
+No physics here.  Every current comes from :func:`kit.analysis.evaluation.sweep` (one
 call for the load-voltage, gain and temperature curves together, its
 parameter overrides broadcast as arrays) or, for the self-heated curve,
 :func:`kit.analysis.temperature.temperature_sweep`; operating regions and
-closed forms come from the returned :class:`kit.solve.OperatingPoints`.
+closed forms come from the returned :class:`kit.model.solve.OperatingPoints`.
 This module only picks the ranges, slices the result and scales it for the
 axes.  It imports no Bokeh, so benchmarks and tests can call it alone.
 """
@@ -16,8 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from kit.analysis.temperature import temperature_sweep
-from kit.devices import KINDS
-from kit.evaluation import sweep
+from kit.analysis.evaluation import sweep
 from kit.quantities import kelvin_to_celsius
 from kit.panels import theme
 
@@ -63,7 +62,7 @@ class PlotData:
 
 def gain_transistors(design):
     """Transistors that have a forward current gain β_F, in topology order."""
-    return [name for name, model in design.devices.items() if "beta_f" in model.numbers()]
+    return [name for name, model in design.devices.items() if "beta_f" in model.values]
 
 
 def swept_gains(design, settings):
@@ -71,7 +70,7 @@ def swept_gains(design, settings):
     gains = gain_transistors(design)
     if not gains:
         return None, []
-    out = design.spec.output_transistor
+    out = design.structure.output_part
     shown = out if out in gains else gains[0]
     return shown, (gains if settings.common_beta else [shown])
 
@@ -120,8 +119,8 @@ def _runs(mask):
 
 def _outside(design, evaluation, points, block, x):
     """Stretches of load voltage where a transistor leaves the region it needs."""
-    good = points.in_good_region(evaluation.edge, design.devices)[block] & points.converged[block]
-    regions = {n: r[block] for n, r in points.regions(evaluation.edge, design.devices).items()}
+    good = points.in_good_region(evaluation.edge)[block] & points.converged[block]
+    regions = {n: r[block] for n, r in points.regions(evaluation.edge).items()}
     spans = []
     for start, stop in _runs(~good):
         what = set()
@@ -130,7 +129,7 @@ def _outside(design, evaluation, points, block, x):
                 what.add("no converged solve")
                 continue
             for name, region in regions.items():
-                if region[k] != KINDS[design.spec.kind_of(name)].GOOD_REGION:
+                if region[k] != design.structure.part(name).kind.good_region:
                     what.add(f"{name} {region[k]}")
         left = x[start] if start == 0 else 0.5 * (x[start - 1] + x[start])
         right = x[stop - 1] if stop == len(x) else 0.5 * (x[stop - 1] + x[stop])
@@ -153,8 +152,8 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
 
     Parameters
     ----------
-    design : kit.designs.Design
-    evaluation : kit.evaluation.Evaluation
+    design : kit.model.design.Design
+    evaluation : kit.analysis.evaluation.Evaluation
         ``kit.evaluate(design)``; its compliance sets the load-voltage axis.
     spec : kit.analysis.spec.Spec, optional
         Gives the gain and temperature ranges.
@@ -200,7 +199,7 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     # 1. load voltage, with every closed form of the ledger
     i_load = _exact(points, load)
     forms = points.model.closed_forms(points.q)
-    simplifications = design.spec.simplifications
+    simplifications = design.structure.closed_forms
     form_ys = [np.where(np.isfinite(forms[s.key][load]), forms[s.key][load], np.nan) for s in simplifications]
     columns["load"] = {"v_load": v_axis, "i_out": i_load, "y": i_load / factor}
     columns["load_forms"] = {

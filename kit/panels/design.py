@@ -17,7 +17,9 @@ from dataclasses import dataclass, replace
 import ipywidgets as widgets
 
 import kit
-from kit import display
+from kit.report import tables as display
+from kit.report import html as report_html
+from kit.report.evaluation import headline as headline_of
 from kit.analysis import eseries
 from kit.errors import DesignError, ParameterError
 from kit.panels import curves, inputs, plots, theme, views
@@ -46,7 +48,7 @@ class DesignPanel:
 
     Parameters
     ----------
-    design : kit.designs.Design
+    design : kit.model.design.Design
         The starting point; it must evaluate (a script error raises here).
     spec : kit.analysis.spec.Spec, optional
         Gives the gain and temperature ranges of the plots, the E-series (from
@@ -77,7 +79,7 @@ class DesignPanel:
     >>> panel = DesignPanel(kit.design("divider_source"))
     >>> panel.update(r_e="2k0")
     True
-    >>> panel.headline_text()["I_out"] == kit.evaluate(panel.design).headline()["I_out"]
+    >>> panel.headline_text()["I_out"] == headline_of(kit.evaluate(panel.design))["I_out"]
     True
     >>> panel.update(r_e="abc"), panel.design.values["r_e"]
     (False, 2000.0)
@@ -125,7 +127,7 @@ class DesignPanel:
         return self._state.data
 
     def headline_text(self):
-        """Label -> text of the headline numbers, as :meth:`kit.evaluation.Evaluation.headline` gives them."""
+        """Label -> text of the headline numbers, as :meth:`kit.report.evaluation.headline` gives them."""
         return dict(self._state.headline)
 
     def update(self, **changes):
@@ -201,7 +203,7 @@ class DesignPanel:
             from bokeh.io import show as show_figure
             from IPython.display import HTML
 
-            show(HTML(self.evaluation._repr_html_()))
+            show(HTML(report_html(self.evaluation)))
             for figure in self.final_figures().values():
                 show_figure(figure)
             return
@@ -247,7 +249,7 @@ class DesignPanel:
     def _changed(self, changes):
         """The design with ``changes`` applied (validated by the kit); nothing is changed here."""
         design = self.design
-        units = {v.name: v.unit for v in design.spec.values}
+        units = {v.name: v.unit for v in design.topology.values}
         values, flat = {}, {}
         for name, raw in changes.items():
             if name in units:
@@ -264,9 +266,9 @@ class DesignPanel:
             elif name in design.parameters():
                 flat[name] = parse_quantity(raw, None, name=name)
             else:
-                raise ParameterError(f"not a value of {design.topology}", parameter=name, value=raw,
+                raise ParameterError(f"not a value of {design.topology.key}", parameter=name, value=raw,
                                      valid=", ".join([*units, "temp", "beta", "or a parameter such as "
-                                                      f"{design.spec.transistors[0]}.v_a"]))
+                                                      f"{design.structure.device_names[0]}.{design.structure.devices[0].kind.params[0].name}"]))
         if values:
             design = design.with_values(**values)
         for name, value in flat.items():
@@ -276,7 +278,7 @@ class DesignPanel:
     def _compute(self, design, settings):
         start = time.perf_counter()
         evaluation = kit.evaluate(design)
-        headline = evaluation.headline()
+        headline = headline_of(evaluation)
         evaluated = time.perf_counter()
         data = curves.plot_data(design, evaluation, self.spec, settings)
         swept = time.perf_counter()
@@ -371,7 +373,7 @@ class DesignPanel:
     def _build_inputs(self):
         design = self.design
         self.fields = {}
-        for spec in design.spec.values:
+        for spec in design.topology.values:
             stepper = self.step if spec.kind == "resistor" else None
             self.fields[spec.name] = inputs.ValueField(
                 spec, lambda name, text: self.update(**{name: text}), stepper)
@@ -390,7 +392,7 @@ class DesignPanel:
         self.sliders["temp"] = inputs.slider(
             "temperature (°C)", kelvin_to_celsius(design.temp), *TEMP_SLIDER,
             lambda v: self.update(temp=celsius_to_kelvin(v)), step=0.5)
-        for spec in design.spec.values:
+        for spec in design.topology.values:
             if spec.kind in ("supply", "load"):
                 value = design.values[spec.name]
                 if spec.kind == "supply":
@@ -415,7 +417,7 @@ class DesignPanel:
                 inputs.show_slider(echo, design.devices[key.split(".")[0]].beta_f, log=True)
             elif key == "temp":
                 inputs.show_slider(echo, kelvin_to_celsius(design.temp))
-            elif design.spec.value_spec(key).kind == "load":
+            elif design.topology.value(key).kind == "load":
                 inputs.show_slider(echo, design.values[key], *curves.load_range(evaluation))
             else:
                 inputs.show_slider(echo, design.values[key])

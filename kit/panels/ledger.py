@@ -11,9 +11,8 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-from kit import display
-from kit.derivation import derivation
-from kit.derive import latex
+from kit.analysis.derivation import derivation
+from kit.report import tables as display
 from kit.quantities import format_quantity, format_temperature
 
 CELL = "padding:3px 10px;border-bottom:1px solid #d8d8d8;text-align:left;vertical-align:middle"
@@ -35,7 +34,7 @@ def _equations_html(topology, polarity):
     from kit import topologies
 
     der = derivation(topologies.get(topology), polarity)
-    unknowns = ", ".join(latex(u, der.equations.transistors) for u in der.equations.unknowns)
+    unknowns = ", ".join(der.unknowns_latex)
     lines = "".join(f"<div>$${r}$$</div>" for r in der.residuals_latex)
     return (f"<p>Unknown node voltages ${unknowns}$. One current balance per unknown node, "
             "with the full large-signal device laws:</p>" + lines
@@ -57,7 +56,7 @@ def ledger_html(evaluation):
     True
     """
     design = evaluation.design
-    top = design.spec
+    top = design.topology
     exact = evaluation.i_out
     rows = [["<b>exact solve</b>", "the equations above, solved numerically",
              format_quantity(exact, "A", 5), "—", format_quantity(evaluation.tempco, "ppm/K"), "none"]]
@@ -71,13 +70,13 @@ def ledger_html(evaluation):
     r_rows = [["exact, from dI_out/dV_load", format_quantity(evaluation.r_out, "Ω", 4), "—"]]
     for key, value in evaluation.r_out_forms.items():
         error = (value - evaluation.r_out) / evaluation.r_out if evaluation.r_out else float("nan")
-        r_rows.append([display.escape(top.extras.get(key, key)), format_quantity(value, "Ω", 4), f"{error:+.2%}"])
+        r_rows.append([display.escape(design.structure.extra_label(key)), format_quantity(value, "Ω", 4), f"{error:+.2%}"])
     r_table = _table(["output resistance", "value here", "error vs exact"], r_rows, numeric=(1, 2))
     point = (f"{format_temperature(design.temp)}, "
              + ", ".join(f"{v.name} = {format_quantity(design.values[v.name], v.unit, 4) if v.unit else design.values[v.name]}"
                          for v in top.values))
     return (f'<div style="font-family:Helvetica,Arial,sans-serif;font-size:13px;max-width:72em">'
             f'<h4 style="margin:6px 0">{display.escape(top.title)} ({design.polarity.upper()}): exact equations</h4>'
-            + _equations_html(design.topology, design.polarity)
+            + _equations_html(top.key, design.polarity)
             + f'<h4 style="margin:10px 0 4px">Ledger at the present point</h4>'
               f'<p style="color:#444">{display.escape(point)}</p>' + ledger + r_table + "</div>")

@@ -64,6 +64,35 @@ def style_figure(fig):
     return fig
 
 
+# Defaults for every plot of a printed review: paper has no use for a toolbar,
+# and the plotting library's logo is not the reviewer's business.  A theme sets
+# only what a plot leaves unset, so it reaches the notebook's own figures too.
+PRINT_THEME = {"attrs": {"Plot": {"toolbar_location": None}, "GridPlot": {"toolbar_location": None},
+                         "Toolbar": {"logo": None}}}
+
+
+def use_print_theme():
+    """Show every plot from now on without toolbar or logo (for printed reviews).
+
+    Examples
+    --------
+    What the theme does to a plot that leaves its toolbar unset:
+
+    >>> from bokeh.document import Document
+    >>> from bokeh.plotting import figure
+    >>> from bokeh.themes import Theme
+    >>> document, plot = Document(), figure()
+    >>> document.theme = Theme(json=PRINT_THEME)
+    >>> document.add_root(plot)
+    >>> plot.toolbar_location, plot.toolbar.logo
+    (None, None)
+    """
+    from bokeh.io import curdoc
+    from bokeh.themes import Theme
+
+    curdoc().theme = Theme(json=PRINT_THEME)
+
+
 def style_legend(fig, location="bottom_right"):
     if fig.legend:
         legend = fig.legend[0]

@@ -42,7 +42,7 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
     from kit.panels.design import DesignPanel
 
     design = kit.design(topology, polarity)
-    name = design.spec.resistors[0]
+    name = design.topology.resistors[0]
     values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
     values = [v for v in values if v != design.values[name]]
     panel = DesignPanel(design, settings=Settings(points=points))

@@ -8,7 +8,7 @@ the slowest of these (temperature, gain and load changes redraw nothing).
 
 from __future__ import annotations
 
-from kit import display
+from kit.report import tables as display
 from kit.errors import DesignError
 from kit.panels import theme
 from kit.quantities import format_quantity, format_temperature
@@ -19,7 +19,7 @@ HEADLINE_LABELS = {"I_out": "output current I_out", "compliance": "compliance (l
 
 
 def title_html(design):
-    name = f"{display.escape(design.spec.title)} ({design.polarity.upper()})"
+    name = f"{display.escape(design.topology.title)} ({design.polarity.upper()})"
     if design.title:
         name = f"{display.escape(design.title)} — {name}"
     return (f'<div style="font-family:{theme.FONT};font-size:17px;font-weight:600;color:{theme.INK};'
@@ -55,9 +55,9 @@ _SCHEMATICS_KEPT = 64
 
 def schematic_html(design):
     """The design's schematic as inline SVG that scales to its box (cached per set of values)."""
-    key = (design.topology, design.polarity, tuple(design.values.items()))
+    key = (design.topology.key, design.polarity, tuple(sorted(design.parameters().items())))
     if key not in _SCHEMATICS:
-        from kit.schematic import render
+        from kit.report.schematic import render
 
         try:
             svg = render(design).svg

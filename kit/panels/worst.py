@@ -2,7 +2,7 @@
 
 :class:`WorstCaseView` runs :func:`kit.analysis.worstcase.worst_case` on the
 panel's present design and shows the Monte Carlo histogram (from the
-samples the analysis keeps in ``MethodResult.arrays``) with the spec limits
+running histogram the analysis keeps in ``MethodResult.arrays``) with the spec limits
 and the yield, the table of the three methods and the error budget.
 :class:`SynthesisView` runs :func:`kit.analysis.synthesis.synthesize` and
 lists the ranked candidates, each with a button that loads it into the
@@ -14,7 +14,7 @@ from __future__ import annotations
 import ipywidgets as widgets
 import numpy as np
 
-from kit import display
+from kit.report import tables as display
 from kit.analysis.synthesis import synthesize
 from kit.analysis.worstcase import worst_case
 from kit.errors import DesignError
@@ -36,14 +36,16 @@ def _status(text, error=False):
 
 
 def histogram_columns(result, scale):
-    """Histogram bars of the Monte Carlo currents that stayed in the needed regions."""
+    """Histogram bars of the Monte Carlo currents that stayed in the needed regions (every sample).
+
+    The analysis keeps a fine running histogram, not the samples; the bars
+    join its bins, so each count is exact.
+    """
     mc = result.methods["Monte Carlo"]
-    current = mc.arrays["current"][mc.arrays["ok"]]
+    counts, edges = mc.arrays["histogram"].coarse(HISTOGRAM_BINS)
     lo, hi = result.spec.limits
-    if current.size == 0:
+    if counts.size == 0:
         return {"left": [], "right": [], "top": [], "colour": []}
-    edges = np.linspace(min(current.min(), lo), max(current.max(), hi), HISTOGRAM_BINS + 1)
-    counts, edges = np.histogram(current, bins=edges)
     centres = 0.5 * (edges[:-1] + edges[1:])
     inside = (centres >= lo) & (centres <= hi)
     return {"left": edges[:-1] / scale, "right": edges[1:] / scale, "top": counts,
@@ -142,7 +144,7 @@ class WorstCaseView:
     @staticmethod
     def _values_text(design):
         return ", ".join(f"{v.name} {format_quantity(design.values[v.name], v.unit, 4)}"
-                         for v in design.spec.values if v.kind == "resistor") or design.topology
+                         for v in design.topology.values if v.kind == "resistor") or design.topology.key
 
     @staticmethod
     def _table_html(result):
@@ -224,8 +226,8 @@ class SynthesisView:
     def _candidate_html(rank, c):
         d = c.design
         values = ", ".join(f"{v.name} " + (format_quantity(d.values[v.name], v.unit, 4) if v.unit
-                                            else f"{d.values[v.name]:g}") for v in d.spec.values)
-        return (f'<span style="font-family:{theme.FONT};font-size:13px"><b>{rank}. {display.escape(d.spec.title)} '
+                                            else f"{d.values[v.name]:g}") for v in d.topology.values)
+        return (f'<span style="font-family:{theme.FONT};font-size:13px"><b>{rank}. {display.escape(d.topology.title)} '
                 f'({d.polarity.upper()})</b> {_verdict(c.passed)} margin {c.margin:+.2%}; nominal '
                 f'{format_quantity(c.nominal, "A", 4)}, worst case {format_quantity(c.low, "A", 4)} … '
                 f'{format_quantity(c.high, "A", 4)}<br><span style="color:#555">{display.escape(values)}</span></span>')

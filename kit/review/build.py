@@ -4,13 +4,20 @@ Three stages, each reported through ``progress``:
 
 ``executing``   the notebook runs top to bottom in a fresh kernel (nbclient),
                 with ``BIASBOOK_REVIEW=1`` so panels draw their final state
-                as static figures, and Bokeh resources inline;
-``converting``  nbconvert writes HTML through the kit's own template: code
-                hidden unless asked for, MathJax from a local copy (the
-                ``jupyter_server_mathjax`` package), a title block, the
-                cautions and the results summary on page one;
+                as static figures, Bokeh resources inline and plots in the
+                print theme (:func:`kit.review.forprint.with_print_setup`);
+``converting``  what is for the screen only is left out
+                (:func:`kit.review.forprint.for_print`), and nbconvert writes
+                HTML through the kit's own template: code hidden unless asked
+                for, MathJax from a local copy (the ``jupyter_server_mathjax``
+                package) with wide equations fitted to the page, a title
+                block, the cautions and the results summary on page one, the
+                design's title as the document's title;
 ``printing``    Debian's Chromium prints the page to PDF, headless, with
                 networking switched off, page numbers in the footer.
+
+The page and its margins are :data:`kit.review.page.REVIEW_PAGE`;
+:mod:`kit.review.printcheck` measures a printed review against them.
 """
 
 from __future__ import annotations
@@ -22,6 +29,8 @@ import tempfile
 from pathlib import Path
 
 from kit.errors import DesignError
+from kit.review.forprint import for_print, with_print_setup
+from kit.review.page import REVIEW_PAGE
 from kit.review.policy import with_content_policy
 from kit.review.summary import MIME
 from kit.safety import css_string
@@ -72,8 +81,10 @@ def execute(notebook, directory, *, timeout=EXECUTE_TIMEOUT_S):
         NotebookClient(notebook, timeout=timeout, kernel_name="python3",
                        resources={"metadata": {"path": str(directory)}}).execute()
     except CellExecutionError as err:
-        first = str(err).strip().splitlines()[-1] if str(err).strip() else "a cell failed"
-        raise ReviewError(f"the notebook failed while executing: {first}", parameter="notebook") from None
+        # The exception's name and text, not the kernel's traceback: that one is
+        # coloured for a terminal, and the message is printed, logged and saved.
+        what = f"{err.ename}: {err.evalue}" if err.ename else "a cell failed"
+        raise ReviewError(f"the notebook failed while executing: {what}", parameter="notebook") from None
     finally:
         for key, value in saved.items():
             if value is None:
@@ -110,13 +121,17 @@ def to_html(notebook, *, with_code=False):
     from nbconvert import HTMLExporter
 
     summary, summary_html = find_summary(notebook)
+    notebook = for_print(notebook, with_code=with_code)
     _drop_live_widgets(notebook)
+    # The page's <title> (escaped by the template) becomes the PDF's title.
+    notebook.metadata["title"] = summary["title"]
     exporter = HTMLExporter(template_name="biasbook", extra_template_basedirs=[str(TEMPLATES)],
                             exclude_input=not with_code, exclude_input_prompt=True,
                             exclude_output_prompt=True)
     footer = f"{summary['title']} — rev. {summary['revision']} — biasbook {summary['versions']['biasbook']}"
     resources = {"biasbook": {"summary": summary, "summary_html": summary_html,
-                              "mathjax_url": mathjax_url(), "footer_css": css_string(footer)}}
+                              "mathjax_url": mathjax_url(), "footer_css": css_string(footer),
+                              "page_css": REVIEW_PAGE.css(), "page_width": f"{REVIEW_PAGE.content_width:g}mm"}}
     body, _ = exporter.from_notebook_node(notebook, resources=resources)
     return with_content_policy(body)
 
@@ -181,7 +196,7 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
         raise ReviewError("not a notebook or a design record", parameter="source", value=str(source),
                           valid="a .ipynb or .toml file")
     report("executing")
-    execute(notebook, source.resolve().parent)
+    notebook = execute(with_print_setup(notebook), source.resolve().parent)
     report("converting")
     html = to_html(notebook, with_code=with_code)
     with tempfile.TemporaryDirectory(prefix="biasbook-review-") as scratch:

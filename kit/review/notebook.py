@@ -38,14 +38,15 @@ span = max(high - low, 1.0)
 v_load = np.linspace(low - 0.15 * span, high + 0.05 * span, 300)
 points = sweep(design, "v_load", v_load)
 forms = points.model.closed_forms(points.q)
-plot = figure(width=640, height=320, x_axis_label="load voltage V_load (V)", y_axis_label="I_out (mA)",
+plot = figure(width=640, frame_height=240, x_axis_label="load voltage V_load (V)", y_axis_label="I_out (mA)",
               title="Output current across compliance: exact and hand formulas")
 plot.add_layout(BoxAnnotation(left=low, right=high, fill_alpha=0.08, fill_color="#2a9d8f"))
 plot.line(v_load, points.i_out * 1e3, line_width=2.5, color="#264653", legend_label="exact")
 for key, colour in zip(forms, ("#e76f51", "#e9c46a", "#8ab17d", "#6d597a", "#b56576")):
     plot.line(v_load, forms[key] * 1e3, line_dash="dashed", color=colour,
-              legend_label=design.spec.simplification(key).label)
-plot.legend.location = "bottom_right"
+              legend_label=design.structure.form(key).label)
+# Below the frame: long labels never cover the curves or the axis.
+plot.add_layout(plot.legend[0], "below")
 show(plot)'''
 
 
@@ -62,7 +63,7 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
     """
     import nbformat
 
-    top = design.spec
+    top = design.topology
     heading = title or design.title or top.title
     if record_path is not None:
         load = (f"record = load_record({json.dumps(str(record_path))})\n"
@@ -74,13 +75,13 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
                 f"                    title={heading!r})\nspec = None")
     # The title and notes may come from a record someone mailed: shown as text, never as markup.
     cells = [
-        _markdown(f"# {markdown_inline(heading)}\n\n{top.title} ({top.polarity_label(design.polarity)}). "
+        _markdown(f"# {markdown_inline(heading)}\n\n{top.title} ({design.polarity.upper()}). "
                   f"{top.description}\n\n" + (markdown_block(notes.strip()) if notes.strip() else REQUIREMENT_PROMPT)),
         _code("# NBVAL_IGNORE_OUTPUT\nimport numpy as np\nimport kit\n"
               "from bokeh.io import output_notebook\nfrom bokeh.resources import INLINE\n"
-              "from kit.derivation import derivation\nfrom kit.evaluation import sweep\n"
+              "from kit.analysis.derivation import derivation\nfrom kit.analysis.evaluation import sweep\n"
               "from kit.record import load_record\nfrom kit.review import review_summary\n"
-              "from kit.schematic import render\n"
+              "from kit.report.schematic import render\n"
               "output_notebook(resources=INLINE, hide_banner=True)\n" + load, hide=True),
         _markdown("## The circuit"),
         _code("render(design)"),

@@ -12,21 +12,12 @@ import datetime
 import hashlib
 import json
 
-from kit import display
+from kit.report import tables as display
+from kit.report.cautions import GENERAL, cautions
+from kit.report.evaluation import headline
 from kit.quantities import format_quantity
 
 MIME = "application/vnd.biasbook.review+json"
-
-CAUTIONS = (
-    "Current sources drive loads that get hot and may sit at high voltages: check every "
-    "transistor's and resistor's dissipation across the whole compliance range against derated "
-    "ratings, breakdown voltages with margin, and the output shorted and open.",
-    "The numbers come from the kit's device model with the parameters stated in this report; "
-    "generic typical values are not a guarantee — use datasheet minimum and maximum values.",
-    "Mains-connected and high-voltage work must follow local codes and be checked by a "
-    "licensed practitioner.",
-)
-
 
 def _versions():
     import numpy
@@ -51,23 +42,23 @@ class ReviewSummary:
         self.record = record
         design = evaluation.design
         self.data = {
-            "title": (record.title if record else design.title) or design.spec.title,
+            "title": (record.title if record else design.title) or design.topology.title,
             "revision": (record.revision if record else revision) or "—",
             "author": (record.author if record else author) or "—",
             "date": datetime.date.today().isoformat(),
             "content_hash": record.content_hash() if record else _design_hash(design),
             "hash_of": "design record" if record else "design values",
-            "topology": design.spec.title,
-            "polarity": design.spec.polarity_label(design.polarity),
+            "topology": design.topology.title,
+            "polarity": design.polarity.upper(),
             "versions": _versions(),
-            "headline": evaluation.headline(),
+            "headline": headline(evaluation),
             "ledger": [{"label": e.label, "value": format_quantity(e.value, "A", 4),
                         "error": f"{e.error:+.3%}", "assumes": "; ".join(e.assumptions)}
                        for e in evaluation.ledger],
             "exact": format_quantity(evaluation.i_out, "A", 5),
             "r_out_agreement": {k: f"{v / evaluation.r_out - 1:+.2e}" for k, v in evaluation.r_out_forms.items()},
-            "notes": list(design.spec.notes),
-            "cautions": list(CAUTIONS),
+            "notes": list(design.topology.notes),
+            "cautions": list(GENERAL) + cautions(evaluation),
             "spec": self._spec_rows(),
             "met": None if worst_case is None else bool(worst_case.met),
         }

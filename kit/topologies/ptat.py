@@ -21,12 +21,13 @@ NPN core (design polarity ``npn``) with a PNP mirror, output sourced::
 Q1: base = collector = b, emitter 0.  Q2: base b, collector p, emitter
 through R to 0.  Q3: diode at p.  Q4: base p, collector b.  Q5: base p,
 collector out.  Unknowns V_b, V_e (Q2 emitter), V_p.  The ``pnp`` polarity
-is the complement (PNP core at the supply, NPN mirror at 0 V, output sunk).
+is the complement (PNP core at the supply, NPN mirror at 0 V, output sunk):
+the mirror's parts take the opposite polarity.
 
 Zero current is also a DC solution of this cell (every junction off), so the
-exact solve starts from the closed form and :func:`valid_branch` refuses
-points that land on the zero-current branch; a real cell needs a start-up
-path.
+exact solve starts on the running branch and the circuit declares that
+branch valid (:meth:`kit.circuit.Circuit.valid_when`): a point that lands on
+the zero-current state is refused; a real cell needs a start-up path.
 
 Closed forms (forward active; the first two with V_A → ∞):
 
@@ -54,52 +55,36 @@ True
 
 from __future__ import annotations
 
-import numpy as np
+from kit.circuit.blocks import hand_vbe
+from kit.devices.bjt import (ALPHA_ONE, BASE_CURRENT_NEGLECTED, CUTOFF_THERMAL_VOLTAGES, FORWARD_ACTIVE,
+                             KIND as BJT, NO_EARLY, VBE_FIXED)
+from kit.topologies import common
+from kit.topologies.base import Topology, Value
+from kit.words import ISOTHERMAL
 
-from kit.devices.bjt import CUTOFF_THERMAL_VOLTAGES
-from kit.topologies.base import Simplification, Topology, ValueSpec
-
-SATURATED_VBC_GUESS = 0.55  # V
-OVERDRIVE_GUESS = 0.6  # V of load beyond the output's rail where the cell is taken as shut down
-# A point whose output current is below this fraction of V_T ln(N)/R has
-# found the zero-current state (leakage level, many decades below).
+# A point whose Q1 current is below this fraction of V_T ln(N)/R has found
+# the zero-current state (leakage level, many decades below).
 ZERO_BRANCH_FRACTION = 1e-3
+SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
+OVERDRIVE_START = 0.6  # V of load beyond the output's rail where the cell is taken as shut down
 
 VALUES = (
-    ValueSpec("r_ptat", "Ω", "resistor R in Q2's emitter (carries ΔV_BE)", 5.1e3, 1.0, 1e9,
-              "resistor"),
-    ValueSpec("n_area", "", "emitter-area ratio N = A_E(Q2)/A_E(Q1)", 8.0, 1.5, 100.0),
-    ValueSpec("v_supply", "V", "supply voltage", 5.0, 1.5, 1000.0, "supply"),
-    ValueSpec("v_load", "V", "output collector (load) voltage against 0 V", 2.5, -1000.0, 1000.0,
-              "load"),
+    Value("r_ptat", "Ω", "resistor R in Q2's emitter (carries ΔV_BE)", 5.1e3, 1.0, 1e9, "resistor"),
+    Value("n_area", "", "emitter-area ratio N = A_E(Q2)/A_E(Q1)", 8.0, 1.5, 100.0),
+    common.supply(5.0, "supply voltage", low=1.5),
+    common.load(2.5),
 )
 
 SOURCE_IDEAL = ("Gray, Hurst, Lewis & Meyer, Analysis and Design of Analog ICs, ch. 4 "
                 "(from memory); Widlar 1971, Brokaw 1974")
 
-SIMPLIFICATIONS = (
-    Simplification("ideal_ptat", "ideal PTAT cell: V_T ln(N)/R",
-                   ("base_current_neglected", "alpha_one", "no_early", "forward_active"),
-                   SOURCE_IDEAL),
-    Simplification("finite_beta", "finite β in core and mirror (matched temperatures)",
-                   ("no_early", "forward_active"),
-                   "derived here from KCL at the two mirror nodes"),
-    Simplification("early_first_order", "finite β and Early effect, junction drops at V_BE(on)",
-                   ("vbe_fixed", "forward_active"),
-                   "derived here (as finite β, with each device's 1 + V_CE/V_A)"),
-)
 
-
-def build(polarity):
-    """The exact equations of one polarity (``npn``: NPN core, PNP mirror)."""
+def build(c):
+    """The exact circuit of one polarity (``npn``: NPN core, PNP mirror)."""
     import sympy as sp
 
-    from kit.circuit import Circuit
-
-    npn = polarity == "npn"
-    mirror = "pnp" if npn else "npn"
+    npn = c.sense == "n"
     core_rail, mirror_rail = ("0", "cc") if npn else ("cc", "0")
-    c = Circuit(polarity)
     c.rail("0", 0)
     c.rail("cc", c.parameter("v_supply"))
     c.rail("out", c.parameter("v_load"))
@@ -107,35 +92,45 @@ def build(polarity):
     c.node("b")
     c.node("e")
     c.node("p")
-    n_area = c.operating_value("N", c.parameter("n_area"))
+    n_area = c.operating_value("N", c.parameter("n_area"), latex="N", budget="area ratio N")
     r = c.resistor("R", "e", core_rail, "r_ptat")
-    q1 = c.transistor("Q1", polarity, "b", "b", core_rail)
-    q2 = c.transistor("Q2", polarity, "b", "p", "e", area=c.parameter("n_area"))
-    q3 = c.transistor("Q3", mirror, "p", "p", mirror_rail)
-    q4 = c.transistor("Q4", mirror, "p", "b", mirror_rail)
-    q5 = c.transistor("Q5", mirror, "p", "out", mirror_rail)
+    q1 = c.add(BJT, "Q1", b="b", c="b", e=core_rail)
+    q2 = c.add(BJT, "Q2", b="b", c="p", e="e", scale=c.parameter("n_area"))
+    mirror = [c.add(BJT, name, b="p", c=collector, e=mirror_rail, sense="opposite")
+              for name, collector in (("Q3", "p"), ("Q4", "b"), ("Q5", "out"))]
+    devices = (q1, q2, *mirror)
+    v_on = hand_vbe(c)
 
-    v_on = c.operating_value(
-        "V_BE_on", c.parameter("v_be_on") + c.parameter("v_be_tc") * (c.temp - c.t_ref))
+    v_t = q1["V_T"]  # ΔV_BE runs through Q1 and Q2, taken at one temperature
     v_cc, v_out = c.voltages["cc"], c.voltages["out"]
-    v_delta = c.v_t * sp.log(n_area)  # the drop across R, for the Early factors only
+    v_delta = v_t * sp.log(n_area)  # the drop across R, for the Early factors only
     early = {
         "Q1": 1 + v_on / q1["V_A"],  # diode-connected: V_CE = V_BE
         "Q2": 1 + (v_cc - v_on - v_delta) / q2["V_A"],
-        "Q3": 1 + v_on / q3["V_A"],
-        "Q4": 1 + (v_cc - v_on) / q4["V_A"],
-        "Q5": 1 + ((v_cc - v_out) if npn else v_out) / q5["V_A"],
+        "Q3": 1 + v_on / mirror[0]["V_A"],
+        "Q4": 1 + (v_cc - v_on) / mirror[1]["V_A"],
+        "Q5": 1 + ((v_cc - v_out) if npn else v_out) / mirror[2]["V_A"],
     }
-    no_early = dict.fromkeys(early, 1)
-    closed_forms = {
-        "ideal_ptat": c.v_t * sp.log(n_area) / r,
-        "finite_beta": _finite_beta_current((q1, q2, q3, q4, q5), r, no_early),
-        "early_first_order": _finite_beta_current((q1, q2, q3, q4, q5), r, early),
-    }
-    j = c.transistors["Q5"]
-    extras = {"r_out_ro": (q5["V_A"] + j["v_ce"]) / j["i_c"]}
-    return c.equations(extras=extras, closed_forms=closed_forms,
-                       hand_parameters=("v_be_on", "v_be_tc"))
+    ideal = c.closed_form("ideal_ptat", v_delta / r, "ideal PTAT cell: V_T ln(N)/R",
+                          (BASE_CURRENT_NEGLECTED.key, ALPHA_ONE.key, NO_EARLY.key, FORWARD_ACTIVE.key,
+                           ISOTHERMAL.key), SOURCE_IDEAL)
+    c.closed_form("finite_beta", _finite_beta_current(devices, r, dict.fromkeys(early, 1)),
+                  "finite β in core and mirror (matched temperatures)",
+                  (NO_EARLY.key, FORWARD_ACTIVE.key, ISOTHERMAL.key),
+                  "derived here from KCL at the two mirror nodes")
+    c.closed_form("early_first_order", _finite_beta_current(devices, r, early),
+                  "finite β and Early effect, junction drops at V_BE(on)",
+                  (VBE_FIXED.key, FORWARD_ACTIVE.key, ISOTHERMAL.key),
+                  "derived here (as finite β, with each device's 1 + V_CE/V_A)")
+    c.extra("r_out_ro", mirror[2].small_signal["r_o"], "R_out = r_o of the output transistor Q5")
+
+    # The zero-current state (every junction off) also satisfies every KCL equation: refuse
+    # it.  A load past the output's saturation edge forward-biases Q5's collector junction,
+    # which can pull the mirror node hard enough to stop the cell: that state is the
+    # circuit's answer there (saturated, outside compliance), so it is kept.
+    running = sp.And(q1.q["v_be"] > CUTOFF_THERMAL_VOLTAGES * v_t, q1.q["i_c"] > ZERO_BRANCH_FRACTION * ideal)
+    c.valid_when(sp.Or(running, mirror[2].q["v_bc"] > 0))
+    _start(c, q1, mirror[0], q2, r, ideal)
 
 
 def _finite_beta_current(devices, r, early):
@@ -158,72 +153,41 @@ def _finite_beta_current(devices, r, early):
     return m5 * k5 * i_c2 / loading
 
 
-def _value(model, q, name):
-    return q[model.operating_index[name]]
+def _start(c, q1, q3, q2, r, current):
+    """Node voltages on the running branch from ``current``; the shut-down state past the output's rail.
 
-
-def guess(model, q):
-    """Node voltages on the non-zero branch, from the closed forms (``model.unknowns`` order)."""
-    forms = model.closed_forms(q)
-    current = forms["ideal_ptat"]
-    # the best closed form that makes sense here: Early effect and base currents in
-    for key in ("finite_beta", "early_first_order"):
-        usable = np.isfinite(forms[key]) & (forms[key] > 0)
-        current = np.where(usable, forms[key], current)
-    current = np.where(np.isfinite(current) & (current > 0), current, 1e-9)
-    v = {name: _value(model, q, name) for name in
-         ("V_T_Q1", "V_T_Q3", "I_S_Q1", "I_S_Q3", "beta_Q2", "R", "V_CC", "V_OUT")}
-    v_be_core = v["V_T_Q1"] * np.log(current / v["I_S_Q1"])
-    v_be_mirror = v["V_T_Q3"] * np.log(current / v["I_S_Q3"])
-    v_r = current * (1 + 1 / v["beta_Q2"]) * v["R"]
-    # A load driven well past the output's rail forward-biases Q5's collector-base
-    # junction and shuts the cell down: then start from that state (core off, the
-    # mirror node a junction drop from the load), not from the running cell.
-    if model.polarity == "npn":
-        overdriven = v["V_OUT"] > v["V_CC"] + OVERDRIVE_GUESS
-        order = {"V_b": np.where(overdriven, 0.0, v_be_core), "V_e": np.where(overdriven, 0.0, v_r),
-                 "V_p": np.where(overdriven, v["V_OUT"] - SATURATED_VBC_GUESS,
-                                 v["V_CC"] - v_be_mirror)}
-    else:
-        overdriven = v["V_OUT"] < -OVERDRIVE_GUESS
-        order = {"V_b": np.where(overdriven, v["V_CC"], v["V_CC"] - v_be_core),
-                 "V_e": np.where(overdriven, v["V_CC"], v["V_CC"] - v_r),
-                 "V_p": np.where(overdriven, v["V_OUT"] + SATURATED_VBC_GUESS, v_be_mirror)}
-    return np.stack([order[name] for name in model.unknowns])
-
-
-def valid_branch(points):
-    """True where the cell runs, or where an overdriven output has shut it down.
-
-    The zero-current state (every junction off) also satisfies every KCL
-    equation; it is refused here so that it is never reported as a valid
-    (0 A) operating point.  A load voltage past the output's saturation edge
-    forward-biases Q5's collector-base junction, which can pull the mirror
-    node hard enough to stop the cell: that state is the circuit's answer
-    there (flagged by the regions, outside compliance), so it is kept.
+    Source stepping ramps the cell up from its zero-current state and stays
+    there, so a start on the running branch is needed.  A load driven well
+    past the output's rail forward-biases Q5's collector junction and shuts
+    the cell down: there the start is that state (core off, the mirror node
+    a junction drop from the load).
     """
-    model = points.model
-    ideal = model.closed_forms(points.q)["ideal_ptat"]
-    q1, q5 = points.junctions["Q1"], points.junctions["Q5"]
-    off = CUTOFF_THERMAL_VOLTAGES * points.q[model.operating_index["V_T_Q1"]]
-    with np.errstate(invalid="ignore"):
-        running = (q1["v_be"] > off) & (q1["i_c"] > ZERO_BRANCH_FRACTION * ideal)
-        overdriven = q5["v_bc"] > 0.0  # the output's collector-base junction forward biased
-    return np.asarray(running | overdriven, dtype=bool)
+    import sympy as sp
+
+    v_cc, v_out = c.voltages["cc"], c.voltages["out"]
+    v_be_core = BJT.start(q1.sense, current, q1.symbols)
+    v_be_mirror = BJT.start(q3.sense, current, q3.symbols)
+    v_r = current * (1 + 1 / q2["beta"]) * r
+    if c.sense == "n":
+        overdriven = v_out > v_cc + OVERDRIVE_START
+        starts = {"b": (0, v_be_core), "e": (0, v_r), "p": (v_out - SATURATED_VBC_START, v_cc - v_be_mirror)}
+    else:
+        overdriven = v_out < -OVERDRIVE_START
+        starts = {"b": (v_cc, v_cc - v_be_core), "e": (v_cc, v_cc - v_r),
+                  "p": (v_out + SATURATED_VBC_START, v_be_mirror)}
+    for node, (shut_down, running) in starts.items():
+        c.start(node, sp.Piecewise((shut_down, overdriven), (running, True)))
 
 
-def draw(design, d):
-    """Schematic with the present values (see :mod:`kit.schematic`).
+def draw(sheet, d):
+    """Schematic with the present values.
 
     The ``npn`` cell has the PNP mirror on top at V_CC and the NPN core below;
     the ``pnp`` complement is the same picture mirrored top to bottom.
     """
     import schemdraw.elements as elm
 
-    from kit.quantities import format_quantity
-    from kit.schematic import value_label
-
-    npn = design.polarity == "npn"
+    npn = sheet.sink
     s = 1 if npn else -1  # y of the npn picture times s
     core, mirror = (elm.BjtNpn, elm.BjtPnp) if npn else (elm.BjtPnp, elm.BjtNpn)
 
@@ -240,7 +204,7 @@ def draw(design, d):
     mirror(circle=True).right().anchor("base").at(at(1.5, 0)).label("Q4", loc="right")
     # core row: Q2 (area N) under Q3, Q1 (diode) under Q4, bases at y = -3
     core(circle=True).right().reverse().anchor("base").at(at(0, -3.0)).label(
-        f"Q2\n×{design.values['n_area']:g}", loc="left")
+        f"Q2\n×{sheet['n_area']:g}", loc="left")
     core(circle=True).right().anchor("base").at(at(1.5, -3.0)).label("Q1", loc="right")
 
     mirror_rail, core_rail = 1.3, -6.2
@@ -262,16 +226,15 @@ def draw(design, d):
     wire((1.0, -3.0), (1.0, -1.9), (2.25, -1.9))  # Q1 diode connection
     elm.Dot().at(at(1.0, -3.0))
     elm.Resistor().at(at(-0.75, -3.7)).to(at(-0.75, core_rail)).label(
-        value_label(design, "r_ptat", "R"), loc="bottom" if npn else "top")
+        sheet.label("r_ptat", "R"), loc="bottom" if npn else "top")
     wire((2.25, -3.7), (2.25, core_rail))
     wire((-0.75, core_rail), (2.25, core_rail))
-    supply = f"V_CC {format_quantity(design.values['v_supply'], 'V')}"
     if npn:
-        elm.Vdd().at(at(0.5, mirror_rail)).label(supply)
+        elm.Vdd().at(at(0.5, mirror_rail)).label(sheet.supply())
         elm.Ground().at(at(0.75, core_rail))
     else:
         elm.Ground().at(at(0.5, mirror_rail))
-        elm.Vdd().at(at(0.75, core_rail)).label(supply)
+        elm.Vdd().at(at(0.75, core_rail)).label(sheet.supply())
 
 
 TOPOLOGY = Topology(
@@ -282,23 +245,14 @@ TOPOLOGY = Topology(
                  "mirror of the other polarity: I = V_T ln(N)/R, proportional to absolute "
                  "temperature. npn: NPN core with a PNP mirror (output sourced); pnp: the "
                  "complement (PNP core, NPN mirror, output sunk)."),
-    polarities=("npn", "pnp"),
-    transistors=("Q1", "Q2", "Q3", "Q4", "Q5"),
-    output_transistor="Q5",
     values=VALUES,
-    simplifications=SIMPLIFICATIONS,
     build=build,
-    guess=guess,
     draw=draw,
-    complementary=("Q3", "Q4", "Q5"),
-    valid_branch=valid_branch,
     notes=(
         "Start-up: zero current is also a DC solution of this cell; the circuit needs a start-up "
         "path (e.g. a high-value resistor or a leaky device injecting current into the diode "
         "node) that leaves the zero state for every supply ramp and then stays out of the way.",
         "The cell's current follows the transistors' temperature: keep Q1 and Q2 thermally "
         "together and ratio-matched (a common-centroid array for N = 8).",
-    ),
-    budget_labels={"N": "area ratio N"},
-    extras={"r_out_ro": "R_out = r_o of the output transistor Q5"},
+    ) + common.SAFETY_NOTES,
 )

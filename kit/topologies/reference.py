@@ -2,22 +2,19 @@
 
 The base is held by a voltage reference fed through ``R_Z`` from the supply;
 the emitter resistor ``R_E`` turns the reference minus ``V_BE`` into the
-output current.  Three references, one topology each:
+output current.  Three references, one topology each, every reference a
+part with its own law (:mod:`kit.devices.zener`, :mod:`kit.devices.diode`):
 
 ``zener_source``
-    a zener, piecewise-linear ``V_Z = V_Z0 + r_z I_Z`` with
-    ``V_Z0(T) = V_Z0 + TC_Z (T - T_ref)`` (valid for ``I_Z > 0``);
+    a zener ``D1``, piecewise linear ``V_Z = V_Z0 + r_z I_Z`` above its knee;
 ``diode_string_source``
-    ``n`` forward diodes, each ``I = I_SD (exp(V/(n_id V_T)) - 1)`` with
-    ``I_SD(T) = I_SD (T/T_ref)^(XTI/n_id) exp[E_g/(n_id V_T) (T/T_ref - 1)]``,
-    the transistor's ``I_S`` law written for a junction of emission
-    coefficient ``n_id`` (so each diode drop follows the same
-    ``V(T) = E_g (1 - T/T_ref) + V(T_ref) T/T_ref - XTI V_T ln(T/T_ref)``);
+    a string ``D1`` of ``count`` equal forward diodes, one junction of
+    emission coefficient ``count n``;
 ``zener_diode_source``
-    a zener in series with one forward diode: ``V_B = V_Z + V_D``, so the
-    emitter sits near ``V_Z`` and the diode's drift cancels the ``V_BE``
-    drift to first order (Tietze & Schenk, *Electronic Circuits*, zener
-    references, from memory).
+    a zener ``D1`` in series with a forward diode ``D2``: ``V_B = V_Z + V_D``,
+    so the emitter sits near ``V_Z`` and the diode's drift cancels the
+    ``V_BE`` drift to first order (Tietze & Schenk, *Electronic Circuits*,
+    zener references, from memory).
 
 NPN sink::
 
@@ -26,19 +23,20 @@ NPN sink::
                 reference (B -> 0)
 
 PNP source: the mirror image, reference from V_CC to B, R_Z from B to 0,
-R_E from V_CC to E, the collector drives the load to 0.
+R_E from V_CC to E, the collector drives the load to 0.  Unknowns: V_B,
+V_E (and V_M between zener and diode).
 
 Closed forms.  A PWL zener fed by ``R_Z`` is a Thevenin source
 ``V_TH = (V_CC r_z + V_Z0 R_Z)/(R_Z + r_z)``, ``R_TH = R_Z || r_z`` (across
 the reference, either polarity), so the divider-biased forms carry over
 exactly (derived here).  A junction reference is linearised at its current
 without base-current loading, found in closed form from
-``R I + n n_id V_T ln(I/I_SD) = V``, i.e.
-``I = (n n_id V_T/R) omega(V/(n n_id V_T) + ln(I_SD R/(n n_id V_T)))``
-(derived here; the series-resistance diode solution of Banwell & Jayakumar,
-Electron. Lett. 36, 2000); its small-signal resistance then completes
-``R_TH``.  The stiff-reference forms are the hand rule
-``I = alpha (V_ref - V_BE)/R_E`` (Tietze & Schenk, from memory).
+``R I + count n V_T ln(I/I_S) = V``
+(:func:`kit.circuit.blocks.junction_behind_resistor`; derived here, the
+series-resistance diode solution of Banwell & Jayakumar, Electron. Lett. 36,
+2000); its small-signal resistance then completes ``R_TH``.  The
+stiff-reference forms are the hand rule ``I = alpha (V_ref - V_BE)/R_E``
+with every junction drop at ``V_BE(on)`` (Tietze & Schenk, from memory).
 
 Output resistance: the hybrid-π form of the divider source with the base
 returned through ``R_B = R_Z || r_ref`` (``r_ref`` the reference's
@@ -49,63 +47,31 @@ Examples
 A 5.6 V zener with 1.5 kΩ in the emitter sinks about (5.6 - 0.68)/1.5k:
 
 >>> import kit
->>> ev = kit.evaluate(kit.design("zener_source", r_e="1k5", v_z0="5.6 V"))
+>>> ev = kit.evaluate(kit.design("zener_source", r_e="1k5", devices={"D1": {"v_z0": "5.6 V"}}))
 >>> round(ev.i_out * 1e3, 1)
 3.3
->>> ev.compliance.low.transistor, ev.compliance.low.cause
+>>> ev.compliance.low.part, ev.compliance.low.cause
 ('Q1', 'saturation')
 """
 
 from __future__ import annotations
 
-import numpy as np
+from kit.circuit.blocks import (degenerated_output_resistance, hand_vbe, junction_behind_resistor, parallel,
+                                positive_or)
+from kit.devices.bjt import FORWARD_ACTIVE, KIND as BJT, NO_EARLY, VBE_FIXED
+from kit.devices.diode import KIND as DIODE
+from kit.devices.zener import KIND as ZENER, STIFF_REFERENCE
+from kit.topologies import common
+from kit.topologies.base import Topology, Value
+from kit.topologies.drawing import UNIT_WIDTH, make_room
+from kit.words import ISOTHERMAL, assumption
 
-from kit.errors import ParameterError
-from kit.topologies.base import Simplification, Topology, ValueSpec
+REFERENCE_LINEARISED = assumption(
+    "reference_linearised", "junction reference linearised at its current without base-current loading")
 
-SATURATED_VBC_GUESS = 0.55  # V; keeps Newton near the right branch when Q1 saturates
-SMALLEST_GUESS_CURRENT = 1e-9  # A
-
-# --- values -----------------------------------------------------------------
-
-def _feed(default):
-    return ValueSpec("r_feed", "Ω", "feed resistor R_Z from the supply to the reference", default,
-                     1e-2, 1e9, "resistor")
-
-
-def _zener_values(v_z0, r_z, tc_z):
-    return (
-        ValueSpec("v_z0", "V", "zener voltage at zero current (PWL intercept), at T_ref", v_z0,
-                  1.0, 400.0),
-        ValueSpec("r_z", "Ω", "zener dynamic resistance", r_z, 0.01, 1e5),
-        ValueSpec("tc_z", "V/K", "zener voltage temperature coefficient", tc_z, -0.02, 0.5),
-        ValueSpec("i_z_min", "A", "least zener current for the PWL law (above the knee)", 1e-3,
-                  1e-7, 1.0),
-        ValueSpec("p_z_max", "W", "zener dissipation limit at the design temperature", 0.5,
-                  1e-3, 100.0),
-    )
-
-
-def _supply_and_load(v_supply, v_load):
-    return (ValueSpec("v_supply", "V", "supply voltage", v_supply, 0.1, 1000.0, "supply"),
-            ValueSpec("v_load", "V", "collector (load) voltage against 0 V", v_load, -1000.0,
-                      1000.0, "load"))
-
-
-def _emitter(default):
-    return ValueSpec("r_e", "Ω", "emitter resistor", default, 1e-2, 1e9, "resistor")
-
-
-DIODE_VALUES = (
-    ValueSpec("i_sd", "A", "diode saturation current at T_ref", 2e-9, 1e-20, 1e-3),
-    ValueSpec("n_id", "", "diode emission coefficient", 1.8, 0.8, 3.0),
-    ValueSpec("xti_d", "", "temperature exponent of I_SD", 3.0, -10.0, 10.0),
-    ValueSpec("e_g_d", "eV", "activation energy of I_SD", 1.11, 0.5, 2.0),
-)
-
-N_DIODES = ValueSpec("n_diodes", "", "number of diodes in the string (whole number)", 2.0, 2.0, 8.0)
-
-# --- simplifications ----------------------------------------------------------
+# In saturation the collector pulls the base: keep the guessed base-collector
+# bias modest so Newton starts near the right branch.
+SATURATED_VBC_START = 0.55  # V
 
 SOURCE_HAND = "Tietze & Schenk, Electronic Circuits, zener-referenced sources (from memory)"
 SOURCE_THEVENIN = ("derived here: Thevenin of the PWL zener into the divider form of "
@@ -115,27 +81,29 @@ SOURCE_LINEARISED = ("derived here: reference linearised at its unloaded current
                      "(Banwell & Jayakumar ω form), then the divider form")
 
 
-def _simplifications(stiff_label, thevenin_source, linearised):
-    extra = ("reference_linearised",) if linearised else ()
+# --- values -------------------------------------------------------------------
+
+def _values(r_feed, r_e, v_supply, v_load):
     return (
-        Simplification("stiff_reference", stiff_label, ("stiff_reference", "vbe_fixed", "no_early"),
-                       SOURCE_HAND),
-        Simplification("fixed_vbe", "fixed V_BE, reference loaded by the base current",
-                       ("vbe_fixed", "no_early") + extra, thevenin_source),
-        Simplification("exponential", "exponential junction (Wright ω form)",
-                       ("no_early", "forward_active") + extra, SOURCE_OMEGA if not linearised
-                       else SOURCE_LINEARISED),
+        Value("r_feed", "Ω", "feed resistor R_Z from the supply to the reference", r_feed, 1e-2, 1e9,
+              "resistor"),
+        Value("r_e", "Ω", "emitter resistor", r_e, 1e-2, 1e9, "resistor"),
+        Value("v_supply", "V", "supply voltage", v_supply, 0.1, 1000.0, "supply"),
+        Value("v_load", "V", "collector (load) voltage against 0 V", v_load, -1000.0, 1000.0, "load"),
     )
 
 
-# --- equations ------------------------------------------------------------------
+# This topology's own defaults for its parts (illustrative values of our own).
+ZENER_TYPICAL = dict(v_z0=5.6, r_z=15.0, tc_z=0.5e-3, i_z_min=1e-3, p_z_max=0.5)
+DIODE_TYPICAL = dict(i_s=2e-9, n=1.8, count=1.0, i_s_temp_exponent=3.0, e_g=1.11)
+PAIRED_ZENER_TYPICAL = ZENER_TYPICAL | dict(r_z=20.0, tc_z=0.2e-3)
 
-def _parts(polarity):
-    """The parts every reference topology shares: rails, R_Z, R_E, Q1 and V_BE(on)."""
-    from kit.circuit import Circuit
 
-    npn = polarity == "npn"
-    c = Circuit(polarity)
+# --- the circuit -----------------------------------------------------------------
+
+def _source(c):
+    """Rails, R_Z, R_E, Q1 and V_BE(on); returns the pieces and the reference's upper and lower node."""
+    npn = c.sense == "n"
     c.rail("0", 0)
     c.rail("cc", c.parameter("v_supply"))
     c.rail("out", c.parameter("v_load"))
@@ -145,313 +113,202 @@ def _parts(polarity):
     if npn:
         r_feed = c.resistor("R_Z", "cc", "b", "r_feed")
         r_e = c.resistor("R_E", "e", "0", "r_e")
-        top, bottom = "b", "0"
     else:
         r_feed = c.resistor("R_Z", "b", "0", "r_feed")
         r_e = c.resistor("R_E", "cc", "e", "r_e")
-        top, bottom = "cc", "b"
-    q1 = c.transistor("Q1", polarity, "b", "out", "e")
-    v_on = c.operating_value(
-        "V_BE_on", c.parameter("v_be_on") + c.parameter("v_be_tc") * (c.temp - c.t_ref))
-    return {"c": c, "top": top, "bottom": bottom, "r_feed": r_feed, "r_e": r_e, "q1": q1,
-            "v_on": v_on}
+    q1 = c.add(BJT, "Q1", b="b", c="out", e="e")
+    s = {"r_feed": r_feed, "r_e": r_e, "q1": q1, "v_on": hand_vbe(c)}
+    return s, ("b", "0") if npn else ("cc", "b")
 
 
-def _zener_law(c):
-    """Operating symbols of the PWL zener: ``(V_Z0(T), r_z)``."""
-    v_z0 = c.operating_value("V_Z0", c.parameter("v_z0") + c.parameter("tc_z") * (c.temp - c.t_ref))
-    r_z = c.operating_value("r_z", c.parameter("r_z"))
-    c.parameter("i_z_min")  # ratings: parameters of the limits, not of the equations
-    c.parameter("p_z_max")
-    return v_z0, r_z
+def _slope(diode):
+    """``count n V_T`` of a diode part: its string is one junction of that emission coefficient."""
+    return diode["N"] * diode["n"] * diode["V_T"]
 
 
-def _zener(c, top, bottom, v_z0, r_z):
-    """PWL zener from ``top`` (cathode) to ``bottom``; returns ``(I_Z, V_Z)`` expressions.
+def _forms(c, s, drive, r_th, r_reference, stiff_drive, stiff, linearised=False):
+    """The three closed forms for a Thevenin drive ``drive`` behind ``r_th``, and the hybrid-π R_out.
 
-    The current goes in as two terms, ``V/r_z`` and ``-V_Z0/r_z``: the same
-    law, but the convergence scale at the node then sees the size of the
-    parts that cancel, so a starved zener (tiny I_Z) is not failed on
-    floating-point noise.
+    ``r_reference`` is the reference's exact small-signal resistance; ``stiff``
+    is ``(label, extra assumptions)`` of the stiff-reference form.
     """
-    across = c.voltages[top] - c.voltages[bottom]
-    c.current_source(top, bottom, across / r_z)
-    c.current_source(top, bottom, -v_z0 / r_z)
-    return (across - v_z0) / r_z, across
-
-
-def _diode_law(c):
-    """Operating symbols of the diode law: ``(I_SD(T), n_id)``."""
-    import sympy as sp
-
-    n_id = c.operating_value("n_id", c.parameter("n_id"))
-    ratio = c.temp / c.t_ref
-    v_t = c.operating[c.v_t]  # k T / q in the parameters
-    i_sd = c.operating_value(
-        "I_SD", c.parameter("i_sd") * ratio ** (c.parameter("xti_d") / c.parameter("n_id"))
-        * sp.exp(c.parameter("e_g_d") / (c.parameter("n_id") * v_t) * (ratio - 1)))
-    return i_sd, n_id
-
-
-def _junction_reference_current(total_resistance, voltage, slope_voltage, i_sd):
-    """Current of ``R I + slope ln(I/I_SD) = V`` (junction reference fed by R), ω form."""
-    import sympy as sp
-
-    from kit.derive import wright_omega_function
-
-    omega = wright_omega_function()
-    return slope_voltage / total_resistance * omega(
-        voltage / slope_voltage + sp.log(i_sd * total_resistance / slope_voltage))
-
-
-def _transistor_forms(parts, drive, r_th, stiff_drive):
-    """The three closed forms for a Thevenin drive ``drive`` behind ``r_th``."""
-    import sympy as sp
-
-    from kit.derive import wright_omega_function
-
-    q1, r_e, v_on = parts["q1"], parts["r_e"], parts["v_on"]
-    beta, i_s, v_t = q1["beta"], q1["I_S"], q1["V_T"]  # Q1 at its own junction temperature
+    q1, r_e, v_on = s["q1"], s["r_e"], s["v_on"]
+    beta = q1["beta"]
     k = (r_th + (beta + 1) * r_e) / beta
-    omega = wright_omega_function()
-    return {
-        "stiff_reference": beta / (beta + 1) * (stiff_drive - v_on) / r_e,
-        "fixed_vbe": beta * (drive - v_on) / (r_th + (beta + 1) * r_e),
-        "exponential": v_t / k * omega(drive / v_t + sp.log(i_s * k / v_t)),
-    }
+    extra = (REFERENCE_LINEARISED.key,) if linearised else ()
+    c.closed_form("stiff_reference", beta / (beta + 1) * (stiff_drive - v_on) / r_e, stiff[0],
+                  (STIFF_REFERENCE.key, VBE_FIXED.key, NO_EARLY.key) + stiff[1], SOURCE_HAND)
+    c.closed_form("fixed_vbe", beta * (drive - v_on) / (r_th + (beta + 1) * r_e),
+                  "fixed V_BE, reference loaded by the base current", (VBE_FIXED.key, NO_EARLY.key) + extra,
+                  SOURCE_LINEARISED if linearised else SOURCE_THEVENIN)
+    # Q1 at its own junction temperature, so the form holds with self-heating too.
+    exponential = c.closed_form(
+        "exponential", junction_behind_resistor(drive, k, q1["V_T"], q1["I_S"]),
+        "exponential junction (Wright ω form)", (NO_EARLY.key, FORWARD_ACTIVE.key) + extra,
+        SOURCE_LINEARISED if linearised else SOURCE_OMEGA)
+    point = q1.small_signal
+    r_base = parallel(s["r_feed"], r_reference)
+    c.extra("r_out_hybrid_pi",
+            degenerated_output_resistance(point["r_o"], point["beta"], point["r_pi"], r_e, r_base),
+            "R_out, hybrid-π form r_o[1 + βR_E/(R_E + r_π + R_B)] + R_E‖(r_π + R_B), "
+            "R_B = R_Z ‖ r_reference")
+    return exponential
 
 
-def _r_out(parts, r_base):
-    """Hybrid-π R_out with the base returned through ``r_base`` (divider form)."""
-    c, r_e = parts["c"], parts["r_e"]
-    j = c.transistors["Q1"]
-    r_o = (parts["q1"]["V_A"] + j["v_ce"]) / j["i_c"]
-    r_pi = parts["q1"]["V_T"] / j["i_b"]
-    beta_ac = j["i_c"] / j["i_b"]
-    return (r_o * (1 + beta_ac * r_e / (r_e + r_pi + r_base))
-            + r_e * (r_pi + r_base) / (r_e + r_pi + r_base))
-
-
-def _parallel(a, b):
-    return a * b / (a + b)
-
-
-def build_zener(polarity):
-    """Exact equations of the zener-referenced source."""
-    parts = _parts(polarity)
-    c, top, bottom, r_feed = parts["c"], parts["top"], parts["bottom"], parts["r_feed"]
-    v_z0, r_z = _zener_law(c)
-    i_zener, across = _zener(c, top, bottom, v_z0, r_z)
-    v_cc = c.voltages["cc"]
-    drive = (v_cc * r_z + v_z0 * r_feed) / (r_feed + r_z)
-    closed = _transistor_forms(parts, drive, _parallel(r_feed, r_z), v_z0)
-    extras = {"r_out_hybrid_pi": _r_out(parts, _parallel(r_feed, r_z)),
-              "i_zener": i_zener, "v_zener": across}
-    return c.equations(extras=extras, closed_forms=closed, hand_parameters=("v_be_on", "v_be_tc"))
-
-
-def build_diode_string(polarity):
-    """Exact equations of the diode-string-referenced source."""
+def _start(c, s, current):
+    """Start at Q1's base and emitter from a closed form of its current (clamped in saturation)."""
     import sympy as sp
 
-    parts = _parts(polarity)
-    c, top, bottom, r_feed = parts["c"], parts["top"], parts["bottom"], parts["r_feed"]
-    i_sd, n_id = _diode_law(c)
-    count = c.operating_value("N_diodes", c.parameter("n_diodes"))
-    slope = count * n_id * c.v_t  # the string is one junction of emission coefficient n n_id
-    across = c.voltages[top] - c.voltages[bottom]
-    c.current_source(top, bottom, i_sd * (sp.exp(across / slope) - 1))
-    v_cc = c.voltages["cc"]
-    unloaded = _junction_reference_current(r_feed, v_cc, slope, i_sd)
-    r_string = slope / unloaded
-    drive = v_cc - r_feed * unloaded
-    closed = _transistor_forms(parts, drive, _parallel(r_feed, r_string),
-                               count * parts["v_on"])
-    r_string_exact = slope / (i_sd * sp.exp(across / slope))
-    extras = {"r_out_hybrid_pi": _r_out(parts, _parallel(r_feed, r_string_exact)),
-              "v_string": across}
-    return c.equations(extras=extras, closed_forms=closed, hand_parameters=("v_be_on", "v_be_tc"))
-
-
-def build_zener_diode(polarity):
-    """Exact equations of the zener-plus-diode-referenced source."""
-    import sympy as sp
-
-    npn = polarity == "npn"
-    parts = _parts(polarity)
-    c, r_feed = parts["c"], parts["r_feed"]
-    v_z0, r_z = _zener_law(c)
-    i_sd, n_id = _diode_law(c)
-    c.node("m")  # between the zener and the diode
-    v = c.voltages
-    # NPN: B -diode-> m -zener-> 0.  PNP: V_CC -zener-> m -diode-> B (mirror image).
-    if npn:
-        diode_drop = v["b"] - v["m"]
-        c.current_source("b", "m", i_sd * (sp.exp(diode_drop / (n_id * c.v_t)) - 1))
-        i_zener, zener_drop = _zener(c, "m", "0", v_z0, r_z)
+    q1, v_cc, v_out = s["q1"], c.voltages["cc"], c.voltages["out"]
+    current = positive_or(current)
+    v_be = BJT.start(q1.sense, current, q1.symbols)
+    v_re = current * (q1["beta"] + 1) / q1["beta"] * s["r_e"]
+    if c.sense == "n":
+        v_b = sp.Min(v_re + v_be, v_out + SATURATED_VBC_START)
+        c.start("e", v_b - v_be)
     else:
-        diode_drop = v["m"] - v["b"]
-        i_zener, zener_drop = _zener(c, "cc", "m", v_z0, r_z)
-        c.current_source("m", "b", i_sd * (sp.exp(diode_drop / (n_id * c.v_t)) - 1))
-    slope = n_id * c.v_t
-    unloaded = _junction_reference_current(r_feed + r_z, v["cc"] - v_z0, slope, i_sd)
-    r_reference = r_z + slope / unloaded
-    drive = v["cc"] - r_feed * unloaded
-    # Stiff: the diode drops V_BE(on) and cancels Q1's V_BE, leaving I = alpha V_Z0 / R_E.
-    closed = _transistor_forms(parts, drive, _parallel(r_feed, r_reference),
-                               v_z0 + parts["v_on"])
-    r_reference_exact = r_z + slope / (i_sd * sp.exp(diode_drop / slope))
-    extras = {"r_out_hybrid_pi": _r_out(parts, _parallel(r_feed, r_reference_exact)),
-              "i_zener": i_zener, "v_zener": zener_drop}
-    return c.equations(extras=extras, closed_forms=closed, hand_parameters=("v_be_on", "v_be_tc"))
+        v_b = sp.Max(v_cc - v_re - v_be, v_out - SATURATED_VBC_START)
+        c.start("e", v_b + v_be)
+    c.start("b", v_b)
+    return v_b
 
 
-# --- starting point, limits -----------------------------------------------------
-
-def _q(model, q, name):
-    return q[model.operating_index[name]]
-
-
-def _base_and_emitter(model, q):
-    """Q1 base and emitter voltages from the exponential closed form."""
-    current = model.closed_forms(q)["exponential"]
-    current = np.where(np.isfinite(current) & (current > 0), current, SMALLEST_GUESS_CURRENT)
-    beta, i_s, v_t = (_q(model, q, n) for n in ("beta_Q1", "I_S_Q1", "V_T_Q1"))
-    v_be = v_t * np.log(current / i_s)
-    v_re = current * (beta + 1) / beta * _q(model, q, "R_E")
-    v_out = _q(model, q, "V_OUT")
-    if model.polarity == "npn":
-        v_b = np.minimum(v_re + v_be, v_out + SATURATED_VBC_GUESS)
-        return v_b, v_b - v_be, current
-    v_b = np.maximum(_q(model, q, "V_CC") - v_re - v_be, v_out - SATURATED_VBC_GUESS)
-    return v_b, v_b + v_be, current
+def build_zener(c):
+    """The zener-referenced source."""
+    s, (top, bottom) = _source(c)
+    d1 = c.add(ZENER, "D1", k=top, a=bottom, typical=ZENER_TYPICAL)
+    v_z0, r_z, r_feed = d1["V_Z0"], d1["r_z"], s["r_feed"]
+    drive = (c.voltages["cc"] * r_z + v_z0 * r_feed) / (r_feed + r_z)
+    exponential = _forms(c, s, drive, parallel(r_feed, r_z), d1.small_signal["r_z"], v_z0,
+                         ("stiff zener, fixed V_BE: α(V_Z0 − V_BE)/R_E", ()))
+    _start(c, s, exponential)
 
 
-def guess(model, q):
-    """Node voltages (in the order of ``model.unknowns``) from the exponential closed form."""
-    v_b, v_e, current = _base_and_emitter(model, q)
-    order = {"V_b": v_b, "V_e": v_e}
-    if "V_m" in model.unknowns:
-        npn = model.polarity == "npn"
-        v_cc = _q(model, q, "V_CC")
-        feed = (v_cc - v_b) / _q(model, q, "R_Z") if npn else v_b / _q(model, q, "R_Z")
-        i_d = np.maximum(feed - current / _q(model, q, "beta_Q1"), SMALLEST_GUESS_CURRENT)
-        v_d = _q(model, q, "n_id") * _q(model, q, "V_T") * np.log1p(i_d / _q(model, q, "I_SD"))
-        order["V_m"] = v_b - v_d if npn else v_b + v_d
-    return np.stack([order[name] for name in model.unknowns])
+def build_diode_string(c):
+    """The diode-string-referenced source."""
+    s, (top, bottom) = _source(c)
+    d1 = c.add(DIODE, "D1", a=top, k=bottom, typical=DIODE_TYPICAL | {"count": 2.0})
+    slope, r_feed, v_cc = _slope(d1), s["r_feed"], c.voltages["cc"]
+    unloaded = junction_behind_resistor(v_cc, r_feed, slope, d1["I_S"])
+    exponential = _forms(c, s, v_cc - r_feed * unloaded, parallel(r_feed, slope / unloaded),
+                         d1.small_signal["r_d"], d1["N"] * s["v_on"],
+                         ("stiff string, each drop V_BE(on): α(N_D − 1)V_BE(on)/R_E", ()), linearised=True)
+    _start(c, s, exponential)
 
 
-def guess_string(model, q):
-    """As :func:`guess`, after checking that the number of diodes is whole."""
-    count = _q(model, q, "N_diodes")
-    if not np.all(count == np.round(count)):
-        bad = float(count[count != np.round(count)][0])
-        raise ParameterError("must be a whole number of diodes", parameter="n_diodes", value=bad,
-                             valid=f"{N_DIODES.low:g}, {N_DIODES.low + 1:g}, … {N_DIODES.high:g}")
-    return guess(model, q)
+def build_zener_diode(c):
+    """The zener-plus-diode-referenced source: NPN B -D2-> M -D1-> 0, PNP V_CC -D1-> M -D2-> B."""
+    s, (top, bottom) = _source(c)
+    c.node("m")
+    if c.sense == "n":
+        d2 = c.add(DIODE, "D2", a=top, k="m", typical=DIODE_TYPICAL)
+        d1 = c.add(ZENER, "D1", k="m", a=bottom, typical=PAIRED_ZENER_TYPICAL)
+    else:
+        d1 = c.add(ZENER, "D1", k=top, a="m", typical=PAIRED_ZENER_TYPICAL)
+        d2 = c.add(DIODE, "D2", a="m", k=bottom, typical=DIODE_TYPICAL)
+    v_z0, r_z, r_feed, v_cc = d1["V_Z0"], d1["r_z"], s["r_feed"], c.voltages["cc"]
+    slope = _slope(d2)
+    unloaded = junction_behind_resistor(v_cc - v_z0, r_feed + r_z, slope, d2["I_S"])
+    # Stiff: each diode drops V_BE(on) and one of them cancels Q1's, which needs both at one temperature.
+    stiff = ("stiff reference, diode cancels V_BE: α(V_Z0 + (N_D − 1)V_BE(on))/R_E, αV_Z0/R_E for one diode",
+             (ISOTHERMAL.key,))
+    exponential = _forms(c, s, v_cc - r_feed * unloaded, parallel(r_feed, r_z + slope / unloaded),
+                         d1.small_signal["r_z"] + d2.small_signal["r_d"], v_z0 + d2["N"] * s["v_on"], stiff,
+                         linearised=True)
+    v_b = _start(c, s, exponential)
+    # The diode carries the feed current less Q1's base current.
+    feed = (v_cc - v_b) / r_feed if c.sense == "n" else v_b / r_feed
+    v_d = DIODE.start(d2.sense, positive_or(feed - exponential / s["q1"]["beta"]), d2.symbols)
+    c.start("m", v_b - v_d if c.sense == "n" else v_b + v_d)
 
 
-def zener_limits(points):
-    """Margins of the zener: current above its knee (A), dissipation below its limit (W)."""
-    model = points.model
-    extras = model.extras(points.x, points.q)
-    i_zener, v_zener = extras["i_zener"], extras["v_zener"]
-    i_z_min = points.p[model.parameter_index["i_z_min"]]
-    p_z_max = points.p[model.parameter_index["p_z_max"]]
-    # A point that did not converge is judged by the solver's own margin, not here.
-    return {("D1", "zener_current"): np.nan_to_num(i_zener - i_z_min, nan=np.inf),
-            ("D1", "power"): np.nan_to_num(p_z_max - v_zener * i_zener, nan=np.inf)}
+# --- schematics --------------------------------------------------------------------
+
+DIODE_LENGTH = 1.5  # schemdraw units; a string of up to 8 stays on the page
 
 
-# --- schematic ---------------------------------------------------------------------
-
-def _draw(design, d, reference):
+def _draw(sheet, d, reference):
     """Schematic with present values; ``reference()`` draws the reference leg downwards."""
     import schemdraw.elements as elm
 
-    from kit.quantities import format_quantity
-    from kit.schematic import value_label
-
-    npn = design.polarity == "npn"
-    supply = format_quantity(design.values["v_supply"], "V")
-    rail = elm.Vdd().label(f"V_CC {supply}")
+    npn = sheet.sink
+    rail = elm.Vdd().label(sheet.supply())
     elm.Line().right(UNIT_WIDTH)
     elm.Line().left(UNIT_WIDTH).at(rail.start)
     if npn:
-        elm.Resistor().down().label(value_label(design, "r_feed", "R_Z"))
+        elm.Resistor().down().label(sheet.label("r_feed", "R_Z"))
     else:
         reference()
     d.push()
     elm.Line().right(1.0)
     if npn:
         q = elm.BjtNpn(circle=True).anchor("base").label("Q1", loc="right")
-        elm.Resistor().down().at(q.emitter).label(value_label(design, "r_e", "R_E"), loc="bottom")
+        elm.Resistor().down().at(q.emitter).label(sheet.label("r_e", "R_E"), loc="bottom")
         elm.Ground()
         elm.Line().up(0.8).at(q.collector)
         elm.Dot(open=True).label("load (sink)", loc="right")
     else:
         q = elm.BjtPnp(circle=True).anchor("base").label("Q1", loc="right")
-        elm.Resistor().up().at(q.emitter).toy(rail.start).label(value_label(design, "r_e", "R_E"),
-                                                                loc="bottom")
+        elm.Resistor().up().at(q.emitter).toy(rail.start).label(sheet.label("r_e", "R_E"), loc="bottom")
         elm.Line().down(0.8).at(q.collector)
         elm.Dot(open=True).label("load (source)", loc="right")
     d.pop()
     if npn:
         reference()
     else:
-        elm.Resistor().down().label(value_label(design, "r_feed", "R_Z"))
+        elm.Resistor().down().label(sheet.label("r_feed", "R_Z"))
     elm.Ground()
 
 
-UNIT_WIDTH = 3.0
-DIODE_LENGTH = 1.5  # schemdraw units; a string of up to 8 stays on the page
+def _labelled(d, part, text):
+    """Place ``part`` downwards with ``text`` on its left, and make room for the text."""
+    placed = part.down().label(text)
+    end = placed.end
+    make_room(placed.center, "left", text)
+    d.here = end  # make_room moved the cursor
+    return placed
 
 
-def _draw_zener(design):
+def _draw_zener(sheet, d):
     import schemdraw.elements as elm
-
-    from kit.quantities import format_quantity
 
     # Drawn cathode up: in breakdown the zener conducts from the upper node downwards.
-    elm.Zener().down().reverse().label(
-        f"D1\n{format_quantity(design.values['v_z0'], 'V')}\n"
-        f"r_z {format_quantity(design.values['r_z'], 'Ω')}")
+    _labelled(d, elm.Zener().reverse(), f"D1\n{sheet.text('D1.v_z0')}\nr_z {sheet.text('D1.r_z')}")
 
 
-def _draw_diodes(design, first, count):
+def _draw_diodes(sheet, d, name):
+    """Every diode of the string ``name``, one label for them all."""
     import schemdraw.elements as elm
 
-    from kit.quantities import format_quantity
-
-    saturation = format_quantity(design.values["i_sd"], "A")
-    names = f"D{first}" if count == 1 else f"D{first}…D{first + count - 1}"
-    for k in range(count):
-        diode = elm.Diode().down().length(DIODE_LENGTH)
-        if k == 0:
-            diode.label(f"{names}\nI_SD {saturation}\nn {design.values['n_id']:g}")
+    count = int(round(sheet[f"{name}.count"]))
+    text = (f"{name if count == 1 else f'{name} ×{count}'}\n"
+            f"I_S {sheet.text(f'{name}.i_s')}\nn {sheet[f'{name}.n']:g}")
+    _labelled(d, elm.Diode().length(DIODE_LENGTH), text)
+    for _ in range(count - 1):
+        elm.Diode().down().length(DIODE_LENGTH)
 
 
-def draw_zener(design, d):
+def draw_zener(sheet, d):
     """Schematic of the zener-referenced source."""
-    _draw(design, d, lambda: _draw_zener(design))
+    _draw(sheet, d, lambda: _draw_zener(sheet, d))
 
 
-def draw_diode_string(design, d):
+def draw_diode_string(sheet, d):
     """Schematic of the diode-string-referenced source (every diode drawn)."""
-    _draw(design, d, lambda: _draw_diodes(design, 1, int(round(design.values["n_diodes"]))))
+    _draw(sheet, d, lambda: _draw_diodes(sheet, d, "D1"))
 
 
-def draw_zener_diode(design, d):
-    """Schematic of the zener-plus-diode-referenced source (diode next to the base)."""
+def draw_zener_diode(sheet, d):
+    """Schematic of the zener-plus-diode-referenced source (the diode next to the base)."""
     def reference():
-        if design.polarity == "npn":
-            _draw_diodes(design, 2, 1)
-            _draw_zener(design)
+        if sheet.sink:
+            _draw_diodes(sheet, d, "D2")
+            _draw_zener(sheet, d)
         else:
-            _draw_zener(design)
-            _draw_diodes(design, 2, 1)
+            _draw_zener(sheet, d)
+            _draw_diodes(sheet, d, "D2")
 
-    _draw(design, d, reference)
+    _draw(sheet, d, reference)
 
 
 # --- the topologies ------------------------------------------------------------------
@@ -459,7 +316,8 @@ def draw_zener_diode(design, d):
 ZENER_NOTES = (
     "Check the zener and R_Z dissipation at the highest supply: P_Z = V_Z I_Z, P_RZ = (V_CC - V_Z)^2/R_Z.",
     "Zener avalanche noise is far above resistor noise; RC-filter the base for low-noise work.",
-    "The PWL zener law holds above its knee current only (i_z_min); compliance ends where I_Z falls below it.",
+    "The PWL zener law holds above its knee current only (D1.i_z_min); compliance ends where I_Z falls "
+    "below it.",
 )
 
 DIODE_NOTES = (
@@ -475,42 +333,24 @@ TOPOLOGIES = (
         description=("One transistor with an emitter resistor, its base held by a zener fed through "
                      "R_Z from the supply (PWL zener, base-current loading included). NPN sinks, "
                      "PNP sources."),
-        polarities=("npn", "pnp"),
-        transistors=("Q1",),
-        output_transistor="Q1",
         # default: a 3.3 mA sink from 15 V, 5.6 V zener (illustrative values of our own)
-        values=((_feed(2.7e3), _emitter(1.5e3)) + _zener_values(5.6, 15.0, 0.5e-3)
-                + _supply_and_load(15.0, 7.5)),
-        simplifications=_simplifications("stiff zener, fixed V_BE: α(V_Z0 − V_BE)/R_E",
-                                         SOURCE_THEVENIN, linearised=False),
+        values=_values(2.7e3, 1.5e3, 15.0, 7.5),
         build=build_zener,
-        guess=guess,
         draw=draw_zener,
-        limits=zener_limits,
-        notes=ZENER_NOTES,
-        budget_labels={"V_Z0": "zener voltage TC_Z"},
-        extras={"r_out_hybrid_pi": "R_out, hybrid-π form with R_B = R_Z ‖ r_z"},
+        notes=ZENER_NOTES + common.SAFETY_NOTES,
     ),
     Topology(
         key="diode_string_source",
         order=21,
         title="Diode-string-referenced emitter-degenerated source",
-        description=("One transistor with an emitter resistor, its base held by a string of n forward "
+        description=("One transistor with an emitter resistor, its base held by a string of forward "
                      "diodes fed through R_Z (exponential diode law with its own temperature law). "
                      "NPN sinks, PNP sources."),
-        polarities=("npn", "pnp"),
-        transistors=("Q1",),
-        output_transistor="Q1",
         # default: about 2 mA from 12 V with two diodes
-        values=(_feed(10e3), _emitter(330.0), N_DIODES) + DIODE_VALUES + _supply_and_load(12.0, 6.0),
-        simplifications=_simplifications("stiff string, each drop V_BE(on): α(n − 1)V_BE/R_E",
-                                         SOURCE_LINEARISED, linearised=True),
+        values=_values(10e3, 330.0, 12.0, 6.0),
         build=build_diode_string,
-        guess=guess_string,
         draw=draw_diode_string,
-        notes=DIODE_NOTES,
-        budget_labels={"I_SD": "diode saturation current I_SD"},
-        extras={"r_out_hybrid_pi": "R_out, hybrid-π form with R_B = R_Z ‖ r_string"},
+        notes=DIODE_NOTES + common.SAFETY_NOTES,
     ),
     Topology(
         key="zener_diode_source",
@@ -519,22 +359,12 @@ TOPOLOGIES = (
         description=("One transistor with an emitter resistor, its base held by a zener in series "
                      "with one forward diode, fed through R_Z: the diode's drift cancels V_BE's to "
                      "first order. NPN sinks, PNP sources."),
-        polarities=("npn", "pnp"),
-        transistors=("Q1",),
-        output_transistor="Q1",
         # default: about 2 mA from 24 V, a 5.6 V zener plus one diode
-        values=((_feed(3.3e3), _emitter(2.7e3)) + _zener_values(5.6, 20.0, 0.2e-3) + DIODE_VALUES
-                + _supply_and_load(24.0, 12.0)),
-        simplifications=_simplifications("stiff reference, diode cancels V_BE: αV_Z0/R_E",
-                                         SOURCE_LINEARISED, linearised=True),
+        values=_values(3.3e3, 2.7e3, 24.0, 12.0),
         build=build_zener_diode,
-        guess=guess,
         draw=draw_zener_diode,
-        limits=zener_limits,
         notes=ZENER_NOTES + (
             "First-order V_BE cancellation needs the diode and Q1 at the same temperature; "
-            "mount them together.",),
-        budget_labels={"V_Z0": "zener voltage TC_Z", "I_SD": "diode saturation current I_SD"},
-        extras={"r_out_hybrid_pi": "R_out, hybrid-π form with R_B = R_Z ‖ (r_z + r_d)"},
+            "mount them together.",) + common.SAFETY_NOTES,
     ),
 )

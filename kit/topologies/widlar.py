@@ -17,10 +17,11 @@ Widlar's relation (β, V_A -> ∞; Widlar, IEEE Trans. Circuit Theory CT-12,
 
     I_out R_E = V_T ln(N I_REF / I_out)
 
-has the explicit solution ``I_out = (V_T/R_E) W(N I_REF R_E / V_T)``, written
-here as ``(V_T/R_E) ω(ln(N I_REF R_E / V_T))`` with the Wright omega
-``ω(x) = W(e^x)`` so nothing overflows (Corless et al., Adv. Comput. Math. 5,
-1996, from memory).  Finite β, derived here from the two KCL equations::
+is a junction behind a resistor with no voltage across the pair, so its
+explicit solution is ``I_out = (V_T/R_E) ω(ln(N I_REF R_E / V_T))`` with
+the Wright omega ``ω(x) = W(e^x)`` (nothing overflows; Corless & Jeffrey,
+LNCS 2385, 2002, from memory).  Finite β, derived here from the two KCL
+equations::
 
     V_T ln(N I_C1 / I_C2) = (1 + 1/β2) I_C2 R_E,    I_C1 = β1 (I_REF - I_C2/β2) / (β1 + 1)
 
@@ -28,73 +29,57 @@ First order (Q2's base current dropped from the reference node):
 ``I_out ≈ [V_T/(R_E (1 + 1/β2))] ω(ln(N I_C1 R_E (1 + 1/β2)/V_T))`` with
 ``I_C1 = β1 I_REF/(β1 + 1)``.  With the Early effect each β becomes
 ``β (1 + V_CE/V_A)`` and N becomes ``N (1 + V_CE2/V_A2)/(1 + V_CE1/V_A1)``.
+With R_REF the diode current itself is a junction behind a resistor,
+``R_REF (1 + 1/β1) I_C1 + V_T ln(I_C1/I_S1) = V_CC``.
 
-Output resistance (hybrid-π; Sedra & Smith, *Microelectronic Circuits*,
-Widlar source, from memory): ``R_out ≈ r_o2 [1 + g_m2 (R_E || r_π2)] +
-R_E || r_π2``; the exact form returns Q2's base through Q1's diode
-impedance (and R_REF).
+Output resistance (hybrid-π): Q2 is a degenerated stage whose base returns
+through Q1's diode impedance (and R_REF), ``r_o2 [1 + β R_E/(R_E + r_π2 +
+R_B)] + R_E ‖ (r_π2 + R_B)``; with ``R_B = 0`` it is Sedra & Smith's
+``r_o2 [1 + g_m2 (R_E ‖ r_π2)] + R_E ‖ r_π2`` (*Microelectronic Circuits*,
+Widlar source, from memory).
+
+Examples
+--------
+>>> import kit
+>>> ev = kit.evaluate(kit.design("widlar_source", i_ref="1 mA", r_e="5k6"))
+>>> 10e-6 < ev.i_out < 30e-6, ev.compliance.low.part
+(True, 'Q2')
 """
 
 from __future__ import annotations
 
-import numpy as np
+from kit.circuit.blocks import (degenerated_output_resistance, hand_vbe, junction_behind_resistor,
+                                parallel, positive_or, reference_current)
+from kit.devices.bjt import (ALPHA_ONE, BASE_CURRENT_NEGLECTED, FORWARD_ACTIVE, KIND as BJT,
+                             NO_EARLY, VBE_FIXED)
+from kit.topologies import common, drawing
+from kit.topologies.base import Topology, Value
+from kit.words import ISOTHERMAL, assumption
 
-from kit.topologies import mirrors_common as _common
-from kit.topologies.base import Simplification, Topology, ValueSpec
-
-SATURATED_VBC_GUESS = 0.55  # V; forward bias of a saturated output collector junction
-SATURATED_VCE_GUESS = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
-LABEL_ROOM = 1.8  # drawing units beside the reference for its two-line label
+OUTPUT_BASE_LOAD_NEGLECTED = assumption(
+    "output_base_load_neglected", "output base current not drawn from the reference node")
 
 WIDLAR = "Widlar, IEEE Trans. Circuit Theory CT-12 (1965), from memory"
 LAMBERT = "Lambert-W solution (Wright ω form) derived here"
+EARLY_SOURCE = "derived here (Early factor 1 + V_CE/V_A on each collector current)"
 
+SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
+SATURATED_VCE_START = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
 
-def _values(reference):
-    from kit.topologies import mirrors_common as common
-
-    head = ((common.i_ref_spec(1.2e-3), common.I_REF_TC) if reference == "ideal" else
-            (ValueSpec("r_ref", "Ω", "reference resistor from the supply to the diode Q1", 10e3,
-                       1.0, 1e9, "resistor"),))
-    return head + (
-        ValueSpec("r_e", "Ω", "emitter resistor of the output transistor Q2", 4.7e3, 1e-2, 1e9,
-                  "resistor"),
-        common.n_area_spec(1.0),
-        common.supply_spec(12.0, "supply voltage (emitter rail of a PNP source)"),
-        common.load_spec(6.0),
-    )
-
-
-SIMPLIFICATIONS_IDEAL = (
-    Simplification("widlar", "Widlar's relation (Lambert W)",
-                   ("base_current_neglected", "alpha_one", "no_early", "forward_active"),
-                   f"{WIDLAR}; {LAMBERT}"),
-    Simplification("first_order_beta", "first order in base current (Lambert W)",
-                   ("no_early", "forward_active", "output_base_load_neglected"),
-                   f"derived here from {WIDLAR}"),
-    Simplification("first_order_beta_early", "first order in base current, Early effect",
-                   ("vbe_fixed", "forward_active", "output_base_load_neglected"),
-                   "derived here (Early factor 1 + V_CE/V_A on each collector current)"),
-)
-
-SIMPLIFICATIONS_RESISTOR = (
-    Simplification("widlar_fixed_vbe", "Widlar's relation, I_REF = (V_CC - V_BE(on))/R_REF",
-                   ("base_current_neglected", "alpha_one", "vbe_fixed", "no_early"),
-                   f"{WIDLAR}; {LAMBERT}"),
-    Simplification("first_order_beta", "exponential diode and first order in base current",
-                   ("no_early", "forward_active", "output_base_load_neglected"),
-                   f"derived here (Wright ω twice) from {WIDLAR}"),
-    Simplification("first_order_beta_early", "as above with the Early effect",
-                   ("vbe_fixed", "forward_active", "output_base_load_neglected"),
-                   "derived here (Early factor 1 + V_CE/V_A on each collector current)"),
-)
+R_E = Value("r_e", "Ω", "emitter resistor of the output transistor Q2", 4.7e3, 1e-2, 1e9, "resistor")
+TAIL = (R_E, common.n_area(1.0), common.supply(12.0, "supply voltage (emitter rail of a PNP source)"),
+        common.load(6.0))
+VALUES_IDEAL = (common.i_ref(1.2e-3), common.I_REF_TC) + TAIL
+VALUES_RESISTOR = (Value("r_ref", "Ω", "reference resistor from the supply to the diode Q1", 10e3, 1.0, 1e9,
+                         "resistor"),) + TAIL
 
 
 def widlar_current(i_c1, r_e, n, v_t, beta_2=None):
     """Output current of Widlar's relation for a given diode current (SymPy).
 
-    Solves ``V_T ln(N I_C1 / I) = (1 + 1/β2) I R_E`` for ``I`` with the Wright
-    omega; ``beta_2=None`` drops the base current (β2 -> ∞).
+    ``V_T ln(N I_C1 / I) = (1 + 1/β2) I R_E`` is a junction of saturation
+    current ``N I_C1`` behind ``R_E (1 + 1/β2)`` with nothing across the
+    pair; ``beta_2=None`` drops the base current (β2 -> ∞).
 
     Examples
     --------
@@ -103,36 +88,13 @@ def widlar_current(i_c1, r_e, n, v_t, beta_2=None):
     >>> widlar_current(i1, r, n, vt)
     V_T*wright_omega(log(I_1*N*R/V_T))/R
     """
-    import sympy as sp
-
-    from kit.derive import wright_omega_function
-
-    omega = wright_omega_function()
     r_eff = r_e if beta_2 is None else r_e * (1 + 1 / beta_2)
-    return v_t / r_eff * omega(sp.log(n * i_c1 * r_eff / v_t))
+    return junction_behind_resistor(0, r_eff, v_t, n * i_c1)
 
 
-def diode_current(v_drive, r_series, i_s, v_t):
-    """Collector current of a diode-connected transistor fed through ``r_series``.
-
-    ``r_series`` already includes the (1 + 1/β) of the diode's own base
-    current: ``K I + V_T ln(I/I_S) = V_drive`` gives
-    ``I = (V_T/K) ω(V_drive/V_T + ln(I_S K/V_T))`` (same structure as
-    Banwell & Jayakumar, Electron. Lett. 36, 2000).
-    """
-    import sympy as sp
-
-    from kit.derive import wright_omega_function
-
-    omega = wright_omega_function()
-    return v_t / r_series * omega(v_drive / v_t + sp.log(i_s * r_series / v_t))
-
-
-def _build(polarity, reference):
-    from kit.circuit import Circuit, degenerated_output_resistance
-
-    npn = polarity == "npn"
-    c = Circuit(polarity)
+def _build(c, reference):
+    """Rails, the reference, Q1 (diode), Q2 (area N) with R_E; closed forms and R_out forms."""
+    npn = c.sense == "n"
     c.rail("0", 0)
     c.rail("cc", c.parameter("v_supply"))
     c.rail("out", c.parameter("v_load"))
@@ -141,158 +103,136 @@ def _build(polarity, reference):
     c.node("e")
     rail = "0" if npn else "cc"
     if reference == "ideal":
-        i_ref = c.operating_value(
-            "I_REF", c.parameter("i_ref") * (1 + c.parameter("i_ref_tc") * (c.temp - c.t_ref)))
-        c.current_source(*(("cc", "b") if npn else ("b", "0")), i_ref)
+        i_ref = reference_current(c, "b", sink=npn)
     else:
         r_ref = c.resistor("R_REF", *(("cc", "b") if npn else ("b", "0")), "r_ref")
-    q1 = c.transistor("Q1", polarity, "b", "b", rail)
-    q2 = c.transistor("Q2", polarity, "b", "out", "e", area=c.parameter("n_area"))
+    q1 = c.add(BJT, "Q1", b="b", c="b", e=rail)
+    q2 = c.add(BJT, "Q2", b="b", c="out", e="e", scale=c.parameter("n_area"))
     r_e = c.resistor("R_E", "e", rail, "r_e")
-    v_on = c.operating_value(
-        "V_BE_on", c.parameter("v_be_on") + c.parameter("v_be_tc") * (c.temp - c.t_ref))
+    v_on = hand_vbe(c)
 
-    v_t = c.v_t
+    v_t = q1["V_T"]  # the relation runs through Q1's junction (Q2 at the same temperature)
     v_cc = c.voltages["cc"]
-    n = q2["I_S"] / q1["I_S"]  # N A_E-ratio times any I_S mismatch
+    n = q2["I_S"] / q1["I_S"]  # N times any I_S mismatch
     b1, b2 = q1["beta"], q2["beta"]
-    height = c.voltages["out"] - c.voltages[rail] if npn else c.voltages[rail] - c.voltages["out"]
+    height = c.voltages["out"] if npn else v_cc - c.voltages["out"]  # above Q2's emitter rail
 
     def early_terms(i_textbook):
         # V_CE1 = V_BE(on); V_CE2 = V_out - I R_E from the textbook current.
-        q_1 = 1 + v_on / q1["V_A"]
-        q_2 = 1 + (height - i_textbook * r_e) / q2["V_A"]
-        return q_1, q_2
+        return 1 + v_on / q1["V_A"], 1 + (height - i_textbook * r_e) / q2["V_A"]
 
+    ideal = (BASE_CURRENT_NEGLECTED.key, ALPHA_ONE.key, NO_EARLY.key, FORWARD_ACTIVE.key, ISOTHERMAL.key)
+    first_order = (NO_EARLY.key, FORWARD_ACTIVE.key, OUTPUT_BASE_LOAD_NEGLECTED.key, ISOTHERMAL.key)
+    early = (VBE_FIXED.key, FORWARD_ACTIVE.key, OUTPUT_BASE_LOAD_NEGLECTED.key, ISOTHERMAL.key)
     if reference == "ideal":
         textbook = widlar_current(i_ref, r_e, n, v_t)
         q_1, q_2 = early_terms(textbook)
-        closed_forms = {
-            "widlar": textbook,
-            "first_order_beta": widlar_current(b1 * i_ref / (b1 + 1), r_e, n, v_t, b2),
-            "first_order_beta_early": widlar_current(
-                b1 * q_1 * i_ref / (b1 * q_1 + 1), r_e, n * q_2 / q_1, v_t, b2 * q_2),
-        }
+        c.closed_form("widlar", textbook, "Widlar's relation (Lambert W)", ideal, f"{WIDLAR}; {LAMBERT}")
+        first = c.closed_form("first_order_beta", widlar_current(b1 * i_ref / (b1 + 1), r_e, n, v_t, b2),
+                              "first order in base current (Lambert W)", first_order,
+                              f"derived here from {WIDLAR}")
+        current = positive_or(first)
+        diode_current = b1 * (i_ref - current / b2) / (b1 + 1)
+        c.closed_form("first_order_beta_early",
+                      widlar_current(b1 * q_1 * i_ref / (b1 * q_1 + 1), r_e, n * q_2 / q_1, v_t, b2 * q_2),
+                      "first order in base current, Early effect", early, EARLY_SOURCE)
     else:
         textbook = widlar_current((v_cc - v_on) / r_ref, r_e, n, v_t)
         q_1, q_2 = early_terms(textbook)
-        i_c1 = diode_current(v_cc, r_ref * (1 + 1 / b1), q1["I_S"], v_t)
-        i_c1_early = diode_current(v_cc, r_ref * (1 + 1 / (b1 * q_1)), q1["I_S"] * q_1, v_t)
-        closed_forms = {
-            "widlar_fixed_vbe": textbook,
-            "first_order_beta": widlar_current(i_c1, r_e, n, v_t, b2),
-            "first_order_beta_early": widlar_current(i_c1_early, r_e, n * q_2 / q_1, v_t, b2 * q_2),
-        }
+        # The diode fed through R_REF: R_REF (1 + 1/β1) I_C1 + V_T ln(I_C1/I_S1) = V_CC.
+        i_c1 = junction_behind_resistor(v_cc, r_ref * (1 + 1 / b1), v_t, q1["I_S"])
+        i_c1_early = junction_behind_resistor(v_cc, r_ref * (1 + 1 / (b1 * q_1)), v_t, q1["I_S"] * q_1)
+        c.closed_form("widlar_fixed_vbe", textbook, "Widlar's relation, I_REF = (V_CC - V_BE(on))/R_REF",
+                      (BASE_CURRENT_NEGLECTED.key, ALPHA_ONE.key, VBE_FIXED.key, NO_EARLY.key, ISOTHERMAL.key),
+                      f"{WIDLAR}; {LAMBERT}")
+        first = c.closed_form("first_order_beta", widlar_current(i_c1, r_e, n, v_t, b2),
+                              "exponential diode and first order in base current", first_order,
+                              f"derived here (Wright ω twice) from {WIDLAR}")
+        current, diode_current = positive_or(first), i_c1
+        c.closed_form("first_order_beta_early", widlar_current(i_c1_early, r_e, n * q_2 / q_1, v_t, b2 * q_2),
+                      "as above with the Early effect", early, EARLY_SOURCE)
 
-    ss1, ss2 = c.small_signal("Q1"), c.small_signal("Q2")
+    # Q2's base returns through Q1's diode impedance (and R_REF) to an AC ground.
+    ss1, ss2 = q1.small_signal, q2.small_signal
     diode = 1 / (ss1["g_m"] + 1 / ss1["r_pi"] + 1 / ss1["r_o"])
-    r_base = diode if reference == "ideal" else diode * r_ref / (diode + r_ref)
-    extras = {
-        "r_out_hybrid_pi": degenerated_output_resistance(ss2["r_o"], ss2["beta"], ss2["r_pi"],
-                                                         r_e, r_base),
-        "r_out_sedra_smith": degenerated_output_resistance(ss2["r_o"], ss2["beta"], ss2["r_pi"],
-                                                           r_e, 0),
-    }
-    return c.equations(extras=extras, closed_forms=closed_forms,
-                       hand_parameters=("v_be_on", "v_be_tc"))
+    r_base = diode if reference == "ideal" else parallel(diode, r_ref)
+    c.extra("r_out_hybrid_pi",
+            degenerated_output_resistance(ss2["r_o"], ss2["beta"], ss2["r_pi"], r_e, r_base),
+            "R_out, hybrid-π r_o[1 + βR_E/(R_E + r_π + R_B)] + R_E‖(r_π + R_B), R_B = Q1's diode impedance")
+    c.extra("r_out_sedra_smith", degenerated_output_resistance(ss2["r_o"], ss2["beta"], ss2["r_pi"], r_e, 0),
+            "R_out ≈ r_o[1 + g_m(R_E‖r_π)] + R_E‖r_π (Sedra & Smith, from memory)")
+    _start(c, q1, q2, current, diode_current, r_e, height)
 
 
-def build_ideal(polarity):
-    """Exact equations of the Widlar source fed by an ideal reference current."""
-    return _build(polarity, "ideal")
+def _start(c, q1, q2, current, diode_current, r_e, height):
+    """Node voltages from the first-order form: Q1's drop and the drop across R_E.
 
+    Source stepping from 0 V finds no point with Q2's collector beyond its
+    emitter rail and leaves a third of a PNP Monte-Carlo run unconverged.
+    A saturated Q2 pulls its base towards its collector, and in deep
+    saturation its emitter follows too.
+    """
+    import sympy as sp
 
-def build_resistor(polarity):
-    """Exact equations of the Widlar source fed through R_REF from the supply."""
-    return _build(polarity, "resistor")
-
-
-def guess(model, q):
-    """Node voltages from the first-order closed form."""
-    from scipy.special import wrightomega
-
-    index = model.operating_index
-
-    def op(name):
-        return q[index[name]]
-
-    npn = model.polarity == "npn"
-    v_t, b1, b2 = op("V_T"), op("beta_Q1"), op("beta_Q2")
-    with np.errstate(invalid="ignore", divide="ignore"):  # far outside compliance the forms fail
-        current = model.closed_forms(q)["first_order_beta"]
-    if "I_REF" in index:
-        i_ref = op("I_REF")
-        current = np.where(np.isfinite(current) & (current > 0), current, 1e-3 * i_ref)
-        i_c1 = b1 * (i_ref - current / b2) / (b1 + 1)
+    diode_current = sp.Max(diode_current, current / 1000)
+    h_b = sp.Min(BJT.start(q1.sense, diode_current, q1.symbols), height + SATURATED_VBC_START)
+    h_e = sp.Min(current * (1 + 1 / q2["beta"]) * r_e, height + SATURATED_VCE_START)
+    if c.sense == "n":
+        c.start("b", h_b)
+        c.start("e", h_e)
     else:
-        k = op("R_REF") * (1 + 1 / b1)
-        v_cc = op("V_CC")
-        i_c1 = v_t / k * np.real(wrightomega(v_cc / v_t + np.log(op("I_S_Q1") * k / v_t)))
-        current = np.where(np.isfinite(current) & (current > 0), current, 1e-3 * i_c1)
-    i_c1 = np.maximum(i_c1, 1e-3 * current)
-    h_b = op("V_T_Q1") * np.log(i_c1 / op("I_S_Q1"))
-    h_e = current * (1 + 1 / b2) * op("R_E")
-    rail = 0.0 if npn else op("V_CC")
-    h_out = op("V_OUT") - rail if npn else rail - op("V_OUT")
-    # A saturated Q2 pulls its base towards its collector, and in deep saturation
-    # its emitter follows the collector too.
-    h_b = np.minimum(h_b, h_out + SATURATED_VBC_GUESS)
-    h_e = np.minimum(h_e, h_out + SATURATED_VCE_GUESS)
-    sign = 1.0 if npn else -1.0
-    heights = {"V_b": h_b, "V_e": h_e}
-    return np.stack([rail + sign * heights[name] for name in model.unknowns])
+        c.start("b", c.voltages["cc"] - h_b)
+        c.start("e", c.voltages["cc"] - h_e)
+
+
+def build_ideal(c):
+    """The Widlar source fed by an ideal reference current."""
+    _build(c, "ideal")
+
+
+def build_resistor(c):
+    """The Widlar source fed through R_REF from the supply."""
+    _build(c, "resistor")
 
 
 # ---------------------------------------------------------------------------
-# schematic
+# schematics
 
-def _draw(design, d, reference):
+def _draw(sheet, d, resistor=None):
     """Q1 (diode, facing left) and Q2 on one base line; R_E under Q2; the reference above Q1.
 
     The PNP picture is the NPN one mirrored top to bottom.
     """
     import schemdraw.elements as elm
 
-    from kit.topologies import mirrors_common as common
-
-    npn = design.polarity == "npn"
-    s = 1.0 if npn else -1.0
-    q1 = common.transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
-    common.emitter_return(design, d, q1.emitter, npn)
-    elm.Line().at(q1.base).right(common.GAP)
-    q2 = common.transistor(npn, label=f"Q2\nN = {design.values['n_area']:g}").anchor("base")
-    common.emitter_return(design, d, q2.emitter, npn, resistor="r_e", designator="R_E")
-    common.output_terminal(q2.collector, npn)
+    npn = sheet.sink
+    q1 = drawing.transistor(npn, facing_left=True, label="Q1")
+    drawing.emitter_return(sheet, q1.emitter, npn)
+    elm.Line().at(q1.base).right(drawing.GAP)
+    q2 = drawing.transistor(npn, label=f"Q2\nN = {sheet['n_area']:g}").anchor("base")
+    drawing.emitter_return(sheet, q2.emitter, npn, resistor="r_e", designator="R_E")
+    drawing.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the base line.
-    node = (q1.collector[0], q1.collector[1] + s * 0.6)
-    elm.Line().at(q1.collector).to(node)
-    elm.Dot().at(node)
+    node = getattr(elm.Line().at(q1.collector), drawing.toward_top(npn))(drawing.LEAD * 0.6).end
+    elm.Dot()
     elm.Line().at(node).tox(q1.base[0] + 0.8)
     elm.Line().toy(q1.base[1])
     elm.Dot()
-    common.reference_feed(design, d, node, npn, resistor="r_ref" if reference != "ideal" else None)
-    # schemdraw underestimates text width: leave room for the reference's label.
-    elm.Gap().at((node[0], node[1] + s * 1.5)).left(LABEL_ROOM)
+    drawing.reference_feed(sheet, node, npn, resistor=resistor)
 
 
-def draw_ideal(design, d):
+def draw_ideal(sheet, d):
     """Schematic with the present values."""
-    _draw(design, d, "ideal")
+    _draw(sheet, d)
 
 
-def draw_resistor(design, d):
+def draw_resistor(sheet, d):
     """Schematic with the present values."""
-    _draw(design, d, "resistor")
+    _draw(sheet, d, resistor="r_ref")
 
-
-EXTRAS = {
-    "r_out_hybrid_pi": ("R_out, hybrid-π r_o[1 + βR_E/(R_E + r_π + R_B)] + R_E‖(r_π + R_B), "
-                        "R_B = Q1's diode impedance"),
-    "r_out_sedra_smith": "R_out ≈ r_o[1 + g_m(R_E‖r_π)] + R_E‖r_π (Sedra & Smith, from memory)",
-}
 
 NOTES = ("The output current depends on the diode Q1 and the output transistor Q2 sharing one "
-         "temperature: keep them thermally coupled (a matched pair or an array).",)
+         "temperature: keep them thermally coupled (a matched pair or an array).",) + common.SAFETY_NOTES
 
 TOPOLOGIES = (
     Topology(
@@ -302,18 +242,10 @@ TOPOLOGIES = (
         description=("Diode Q1 carries the reference current; Q2 (N times the area) has an "
                      "emitter resistor that takes up the V_BE difference, so the output current "
                      "is a small, roughly PTAT fraction of the reference."),
-        polarities=("npn", "pnp"),
-        transistors=("Q1", "Q2"),
-        output_transistor="Q2",
-        values=_values("ideal"),
-        simplifications=SIMPLIFICATIONS_IDEAL,
+        values=VALUES_IDEAL,
         build=build_ideal,
-        guess=guess,
         draw=draw_ideal,
-        limits=_common.reference_headroom('b'),
-        extras=EXTRAS,
         notes=NOTES,
-        budget_labels={"I_REF": "reference current I_REF"},
     ),
     Topology(
         key="widlar_resistor_reference",
@@ -322,15 +254,9 @@ TOPOLOGIES = (
         description=("The Widlar source with its diode fed through R_REF from the supply: the "
                      "output current follows the supply through (V_CC - V_BE)/R_REF, softened by "
                      "the logarithm of Widlar's relation."),
-        polarities=("npn", "pnp"),
-        transistors=("Q1", "Q2"),
-        output_transistor="Q2",
-        values=_values("resistor"),
-        simplifications=SIMPLIFICATIONS_RESISTOR,
+        values=VALUES_RESISTOR,
         build=build_resistor,
-        guess=guess,
         draw=draw_resistor,
-        extras=EXTRAS,
         notes=NOTES,
     ),
 )

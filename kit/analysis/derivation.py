@@ -4,12 +4,13 @@
 how the exact sensitivities follow from them (implicit function theorem),
 every named simplification with its closed form, and closed-form
 sensitivities differentiated by SymPy.  It is the twin of
-:func:`kit.evaluate`, which evaluates the same expressions numerically.
+:func:`kit.evaluate`, which evaluates the same expressions numerically; reports
+render it (:mod:`kit.report`).
 
 Examples
 --------
 >>> import kit
->>> from kit.derivation import derivation
+>>> from kit.analysis.derivation import derivation
 >>> der = derivation(kit.design("divider_source"))
 >>> der.closed_form("stiff_divider")
 (R2*V_CC/(R1 + R2) - V_BE_on)/R_E
@@ -21,10 +22,9 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-from kit import display
-from kit.derive import latex
 from kit.errors import ParameterError
-from kit.topologies.base import ASSUMPTIONS
+from kit.model.codegen import latex
+from kit.model.structure import structure
 
 
 @lru_cache(maxsize=None)
@@ -41,22 +41,28 @@ class Derivation:
         self.topology = topology
         self.polarity = polarity
         self.equations = _equations(topology.key, polarity)
+        self.structure = structure(topology, polarity)
 
-    def _latex(self, expression):
-        return latex(expression, self.equations.transistors)
+    def latex(self, expression):
+        """LaTeX of an expression with the circuit's own symbol names."""
+        return latex(expression, self.equations.labels)
+
+    @property
+    def unknowns_latex(self):
+        return [self.latex(u) for u in self.equations.unknowns]
 
     @property
     def residuals_latex(self):
         """The exact KCL residuals, one LaTeX line per unknown node."""
-        return [self._latex(r) + " = 0" for r in self.equations.residuals]
+        return [self.latex(r) + " = 0" for r in self.equations.residuals]
 
     def closed_form(self, key):
         """SymPy expression of closed form ``key``."""
-        try:
-            return self.equations.closed_forms[key]
-        except KeyError:
-            raise ParameterError("no such closed form", parameter="key", value=key,
-                                 valid=", ".join(self.equations.closed_forms)) from None
+        for form in self.equations.closed_forms:
+            if form.key == key:
+                return form.expression
+        raise ParameterError("no such closed form", parameter="key", value=key,
+                             valid=", ".join(f.key for f in self.equations.closed_forms))
 
     def symbol(self, name):
         """The operating symbol called ``name`` (``"beta_Q1"``, ``"R_E"``, ``"V_T"``)."""
@@ -72,29 +78,14 @@ class Derivation:
 
         return sp.factor(sp.cancel(sp.diff(self.closed_form(key), self.symbol(name))))
 
-    def _repr_html_(self):
-        unknowns = ", ".join(self._latex(u) for u in self.equations.unknowns)
-        parts = [display.section(
-            f"{self.topology.title} ({self.polarity.upper()}): exact equations",
-            f"<p>Unknowns ${unknowns}$; Kirchhoff's current law at each unknown node "
-            "(Ebers–Moll transport model with the Early factor on the transport current):</p>"
-            + "".join(f"<p>$${r}$$</p>" for r in self.residuals_latex)
-            + "<p>Exact sensitivities follow from the implicit function theorem at the solved point: "
-            r"$$\frac{\partial x}{\partial p} = -J_x^{-1}\,\frac{\partial F}{\partial p},\qquad"
-            r"\frac{dI_{out}}{dp} = \frac{\partial I_{out}}{\partial p}"
-            r" + \frac{\partial I_{out}}{\partial x}\frac{\partial x}{\partial p}$$</p>")]
-        rows = []
-        for s in self.topology.simplifications:
-            rows.append([s.label, display.Raw(f"$${self._latex(self.closed_form(s.key))}$$"),
-                         "; ".join(ASSUMPTIONS[a] for a in s.assumptions), s.source])
-        parts.append(display.section("Named simplifications and their closed forms for I_out",
-                                     display.table(["simplification", "I_out", "assumes", "source"], rows)))
-        return display.wrap("".join(parts))
+    def forms_latex(self):
+        """``[(FormInfo, LaTeX of I_out)]`` for every named simplification."""
+        return [(self.structure.form(f.key), self.latex(f.expression)) for f in self.equations.closed_forms]
 
 
 def derivation(design_or_topology, polarity=None):
     """The :class:`Derivation` of a design (or of a topology and polarity)."""
-    if hasattr(design_or_topology, "spec"):
-        return Derivation(design_or_topology.spec, design_or_topology.polarity)
+    if hasattr(design_or_topology, "structure") and hasattr(design_or_topology, "values"):
+        return Derivation(design_or_topology.topology, design_or_topology.polarity)
     design_or_topology.check_polarity(polarity)
     return Derivation(design_or_topology, polarity)

@@ -1,14 +1,15 @@
 """Schematics of designs, drawn with schemdraw and labelled with present values.
 
-Each topology module has a ``draw(design, d)`` function that adds its parts
-to a schemdraw drawing ``d``; :func:`render` runs it and returns a
+Each topology module has a ``draw(sheet, d)`` function that adds its parts to
+a schemdraw drawing ``d``; :func:`render` gives it a
+:class:`kit.topologies.drawing.Sheet` made from the design and returns a
 :class:`Schematic` that shows itself as SVG in Jupyter and embeds in reports.
-schemdraw is imported only here, so ``import kit`` stays light.
+schemdraw is imported only here and in the drawing functions, so
+``import kit`` stays light.
 
 Examples
 --------
 >>> import kit
->>> from kit.schematic import render
 >>> sch = render(kit.design("divider_source"))
 >>> sch.svg.startswith("<svg") or sch.svg.startswith("<?xml")
 True
@@ -17,7 +18,7 @@ True
 from __future__ import annotations
 
 from kit.errors import ParameterError
-from kit.quantities import format_quantity
+from kit.topologies.drawing import Sheet
 
 FONT_SIZE = 11
 UNIT = 2.5  # schemdraw length of one part
@@ -39,25 +40,26 @@ class Schematic:
             handle.write(self.svg)
 
 
-def value_label(design, name, designator=None):
-    """``"R1\\n33 kΩ"``: a part's designator over its present value."""
-    spec = design.spec.value_spec(name)
-    text = format_quantity(design.values[name], spec.unit)
-    return f"{designator or name.upper()}\n{text}"
+def sheet_of(design):
+    """The :class:`Sheet` a topology's drawing reads: every flat value with its unit."""
+    words = design.vocabulary
+    values = design.parameters()
+    return Sheet(values=values, units={name: e.unit for name, e in words.items()},
+                 polarity=design.polarity, sink=design.sense == "n")
 
 
 def render(design):
     """Draw ``design`` with its topology's drawing function."""
     import schemdraw
 
-    draw = design.spec.draw
+    draw = design.topology.draw
     if draw is None:
         raise ParameterError("this topology has no schematic yet", parameter="topology",
-                             value=design.topology)
+                             value=design.topology.key)
     schemdraw.use("svg")
     with schemdraw.Drawing(show=False) as d:
         d.config(unit=UNIT, fontsize=FONT_SIZE)
-        draw(design, d)
+        draw(sheet_of(design), d)
     data = d.get_imagedata("svg")
     svg = data.decode("utf-8") if isinstance(data, bytes) else data
-    return Schematic(svg, design.spec.title)
+    return Schematic(svg, design.topology.title)

@@ -6,12 +6,17 @@ than :data:`JUNCTION_STEP` volts, the classic guard against the exponential
 overshooting.  Every point reports whether it converged; a point that did
 not is never returned as a valid current (:meth:`OperatingPoints.require`).
 
-Operating regions use normalised junction voltages (forward bias positive):
+Starting points.  A topology may declare starting voltages for its unknowns
+(compiled with its equations, from a closed form and the device laws
+inverted).  Otherwise — and for every point that does not converge from its
+declared start — the solve continues from the trivial state: every rail
+voltage and reference current is stepped up from a small fraction of its
+value, each step starting from the last (source stepping, a generic
+continuation that needs nothing of the circuit but its equations).
 
-``cutoff``     collector current below :data:`kit.devices.bjt.CUTOFF_CURRENT`, v_BC not forward
-``reverse``    v_BE below :data:`kit.devices.bjt.CUTOFF_THERMAL_VOLTAGES` V_T, v_BC above it
-``saturated``  conducting with V_CE < V_CE(sat) (edge ``"vce_sat"``) or V_CB < 0 (edge ``"vcb_zero"``)
-``active``     otherwise (forward active)
+Every part's regions and limits are its kind's own
+(:meth:`kit.devices.base.DeviceKind.regions`), judged from the solved
+node voltages.
 """
 
 from __future__ import annotations
@@ -21,7 +26,6 @@ from functools import cached_property
 
 import numpy as np
 
-from kit.devices import KINDS
 from kit.errors import ConvergenceError, ParameterError
 
 JUNCTION_STEP = 0.1  # V per Newton step for a junction that is forward biased
@@ -30,6 +34,17 @@ STEP_TOLERANCE = 1e-12  # relative; plus an absolute 1e-14 V
 MAX_ITERATIONS = 200
 RESIDUAL_FLOOR = 1e-15  # A
 EDGES = ("vce_sat", "vcb_zero")
+# Source stepping: fractions of the rails and reference currents, each solved
+# from the last (a few Newton iterations each suffice on the way).
+STEPPING = (0.02, 0.05, 0.1, 0.2, 0.35, 0.5, 0.7, 0.85, 1.0)
+STEPPING_ITERATIONS = 40
+
+
+def check_edge(edge):
+    """Refuse an unknown saturation criterion."""
+    if edge not in EDGES:
+        raise ParameterError("unknown saturation edge", parameter="edge", value=edge,
+                             valid=" or ".join(EDGES))
 
 
 @dataclass
@@ -38,7 +53,7 @@ class OperatingPoints:
 
     Attributes
     ----------
-    model : kit.derive.CompiledModel
+    model : kit.model.compiled.CompiledModel
     p, q, x : ndarray
         Parameters (P, N), operating values (M, N) and node voltages (n, N).
     converged : ndarray of bool, shape (N,)
@@ -63,43 +78,65 @@ class OperatingPoints:
 
     @cached_property
     def junctions(self):
-        """Transistor name -> dict of normalised ``v_be, v_bc, v_ce, i_c, i_b``."""
+        """Part name -> dict of its exported quantities (``v_be, i_c, ...``)."""
         return self.model.junctions(self.x, self.q)
 
-    def _kind(self, name):
-        return KINDS[self.model.transistor_kinds[name]]
+    @property
+    def temp(self):
+        return self.p[self.model.parameter_index["temp"]]
 
     @cached_property
     def dissipation(self):
-        """Transistor name -> power in W (for a BJT ``V_CE I_C + V_BE I_B``)."""
-        return {name: self._kind(name).dissipation(j) for name, j in self.junctions.items()}
+        """Device name -> power in W (for a BJT ``V_CE I_C + V_BE I_B``)."""
+        return {part.name: part.kind.dissipation(self.junctions[part.name])
+                for part in self.model.structure.devices}
 
-    def _devices(self, devices):
-        devices = devices or {}
-        return {name: devices.get(name) or self._kind(name).typical(_device_polarity(self, name))
-                for name in self.junctions}
+    def regions(self, edge="vce_sat"):
+        """Device name -> array of region names (each kind's own words)."""
+        check_edge(edge)
+        return {part.name: part.kind.regions(self.junctions[part.name], self.model.params(self.p, part),
+                                             self.temp, edge)
+                for part in self.model.structure.devices}
 
-    def regions(self, edge="vce_sat", devices=None):
-        """Transistor name -> array of region names (see the module docstring).
-
-        ``devices`` maps transistor name -> device model (for its ratings, such
-        as V_CE(sat)); missing ones use the typical model.
-        """
-        if edge not in EDGES:
-            raise ParameterError("unknown saturation edge", parameter="edge", value=edge,
-                                 valid=" or ".join(EDGES))
-        v_t = self.q[self.model.operating_index["V_T"]]
-        models = self._devices(devices)
-        return {name: self._kind(name).regions(j, v_t, models[name], edge)
-                for name, j in self.junctions.items()}
-
-    def in_good_region(self, edge="vce_sat", devices=None):
-        """Boolean array: every transistor in the region its kind needs (forward active)."""
-        regions = self.regions(edge, devices)
+    def in_good_region(self, edge="vce_sat"):
+        """Boolean array: every device in the region its kind needs."""
         good = np.ones(self.size, dtype=bool)
-        for name, region in regions.items():
-            good &= region == self._kind(name).GOOD_REGION
+        kinds = {part.name: part.kind for part in self.model.structure.devices}
+        for name, region in self.regions(edge).items():
+            good &= region == kinds[name].good_region
         return good
+
+    def margins(self, edge="vce_sat"):
+        """``(part, cause) -> margin`` (>= 0 inside) of every part, then ``(None, "solve")``.
+
+        Transistors come first (their causes name an edge before a
+        reference's headroom at a tie); a point that did not converge gets
+        ``-inf`` under cause ``"solve"``.
+        """
+        check_edge(edge)
+        parts = sorted(self.model.parts, key=lambda part: part.kind.key not in ("bjt", "mos", "jfet"))
+        out = {}
+        for part in parts:
+            j = self.junctions[part.name]
+            for cause, margin in part.kind.margins(j, self.model.params(self.p, part), self.temp,
+                                                   edge).items():
+                out[part.name, cause] = margin
+        out[None, "solve"] = np.where(self.converged, np.inf, -np.inf)
+        return out
+
+    def worst_margin(self, edge="vce_sat"):
+        """Smallest margin at each point and its ``(part, cause)`` key."""
+        table = self.margins(edge)
+        keys = list(table)
+        stack = np.stack([np.broadcast_to(table[k], (self.size,)) for k in keys])
+        worst = np.argmin(stack, axis=0)
+        return stack[worst, np.arange(stack.shape[1])], [keys[i] for i in worst]
+
+    def cause_text(self, part, cause):
+        """How the report words ``cause`` of ``part``."""
+        if part is None:
+            return "has no converged operating point"
+        return self.model.structure.part(part).kind.cause_text(cause)
 
     @cached_property
     def _gradients(self):
@@ -185,9 +222,14 @@ def parameter_array(model, values, size=None):
     shape = shape or (1,)
     p = np.stack([np.broadcast_to(a, shape) for a in arrays])
     for name, row in zip(model.parameter_names, p):
-        if not np.all(np.isfinite(row) | (np.isposinf(row) & name.endswith(".v_a"))):
+        if not np.all(np.isfinite(row) | (np.isposinf(row) & _may_be_infinite(name))):
             raise ParameterError("must be finite", parameter=name, value=float(row[~np.isfinite(row)][0]))
     return p
+
+
+def _may_be_infinite(name):
+    # An ideal Early voltage, an unrated resistor.
+    return name.endswith(".v_a") or name.startswith("p_rated_")
 
 
 def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
@@ -195,11 +237,12 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
 
     Parameters
     ----------
-    model : kit.derive.CompiledModel
+    model : kit.model.compiled.CompiledModel
     values : dict
         Every parameter name -> scalar or 1-D array.
     x0 : ndarray, optional
-        Starting node voltages (n, N); default the topology's closed-form guess.
+        Starting node voltages (n, N); default the declared start, else
+        source stepping.
 
     Returns
     -------
@@ -207,13 +250,51 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     """
     p = parameter_array(model, values)
     q = model.operating(p)
-    x = model.topology.initial_guess(model, q) if x0 is None else np.array(x0, dtype=float)
-    x = np.broadcast_to(x, (len(model.unknowns), p.shape[1])).copy()
-    converged = np.zeros(p.shape[1], dtype=bool)
-    iterations = np.zeros(p.shape[1], dtype=int)
-    pending = np.arange(p.shape[1])
+    size = p.shape[1]
+    n = len(model.unknowns)
+    if x0 is not None:
+        x = np.broadcast_to(np.array(x0, dtype=float), (n, size)).copy()
+    elif model.started:
+        x = np.broadcast_to(model.starts(q), (n, size)).copy()
+    else:
+        x = _source_stepping(model, q, np.zeros((n, size)))
+    x, converged, iterations = _newton(model, x, q, max_iterations)
+    if model.started and x0 is None and not converged.all():
+        # A declared start that failed: try the generic continuation for those points.
+        retry = np.flatnonzero(~converged)
+        x_retry = _source_stepping(model, q[:, retry], np.zeros((n, retry.size)))
+        x_retry, ok, its = _newton(model, x_retry, q[:, retry], max_iterations)
+        x[:, retry[ok]] = x_retry[:, ok]
+        converged[retry[ok]] = True
+        iterations[retry] += its
+    converged &= _confirmed(model, x, q)
+    points = OperatingPoints(model, p, q, x, converged, iterations)
+    # Self-biased cells also solve at zero current: a topology can refuse that branch.
+    if model.has_valid:
+        with np.errstate(invalid="ignore"):
+            points.converged &= model.valid(x, q)
+    return points
+
+
+def _source_stepping(model, q, x):
+    """Continue from the trivial state with every rail and reference stepped up to its value."""
+    sources = model.manifest["sources"]
+    for fraction in STEPPING:
+        stepped = q.copy()
+        stepped[sources] *= fraction
+        x, _, _ = _newton(model, x, stepped, STEPPING_ITERATIONS)
+    return x
+
+
+def _newton(model, x, q, max_iterations):
+    """Damped Newton from ``x``; returns ``(x, converged, iterations)``."""
+    size = x.shape[1]
+    converged = np.zeros(size, dtype=bool)
+    iterations = np.zeros(size, dtype=int)
+    pending = np.arange(size)
+    x = x.copy()
     for iteration in range(1, max_iterations + 1):
-        every = pending.size == p.shape[1]  # no copies while every point is still going
+        every = pending.size == size  # no copies while every point is still going
         xs, qs = (x, q) if every else (x[:, pending], q[:, pending])
         step = _newton_step(model, xs, qs)
         done = np.all(np.abs(step) <= STEP_TOLERANCE * np.abs(xs) + 1e-14, axis=0)
@@ -228,8 +309,11 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
         pending = pending[~done & finite]
         if pending.size == 0:
             break
-    # A converged step may still sit on a large residual if the Jacobian was
-    # singular there; confirm against the currents flowing at each node.
+    return x, converged, iterations
+
+
+def _confirmed(model, x, q):
+    """Converged steps that also sit on small residuals (a singular Jacobian can stall Newton)."""
     f, jac = model.newton_terms(x, q)
     scale = model.scales(x, q)
     # Rounding of the node voltages themselves: a few ulps of the largest
@@ -237,20 +321,7 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     rounding = 8 * np.finfo(float).eps * np.max(np.abs(x), axis=0) * np.sum(np.abs(jac), axis=1)
     # The absolute floor (1 fA) covers a node whose currents are tiny but whose
     # voltage is large (a cut-off device at a high supply).
-    converged &= np.all(np.abs(f) <= 1e-9 * scale + rounding + RESIDUAL_FLOOR, axis=0)
-    points = OperatingPoints(model, p, q, x, converged, iterations)
-    # Self-biased cells also solve at zero current: a topology can refuse that branch.
-    valid_branch = getattr(model.topology, "valid_branch", None)
-    if valid_branch is not None:
-        points.converged &= valid_branch(points)
-    return points
-
-
-def _device_polarity(points, name):
-    """Polarity of a device as its topology places it."""
-    from kit.designs import transistor_polarity
-
-    return transistor_polarity(points.model.topology, points.model.polarity, name)
+    return np.all(np.abs(f) <= 1e-9 * scale + rounding + RESIDUAL_FLOOR, axis=0)
 
 
 def _newton_step(model, x, q):

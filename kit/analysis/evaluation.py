@@ -1,0 +1,317 @@
+"""Evaluate a design: the exact operating point and everything a review asks of it.
+
+:func:`evaluate` solves the exact equations at the design point and returns
+an :class:`Evaluation` — plain numbers, frozen: output current, compliance
+range with the part that limits each end, exact output resistance beside
+the small-signal forms, sensitivities to every parameter (absolute and
+normalised), the tempco and its budget, every part's operating point and
+dissipation across the compliance range, and the ledger — each named
+simplification's closed form, its value and its error against the exact
+solution.  Reports (:mod:`kit.report`) render it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from kit.errors import OperatingPointError, ParameterError
+from kit.model.compiled import compile_model
+from kit.model.compliance import find_compliance
+from kit.model.solve import check_edge, solve_points
+
+DISSIPATION_POINTS = 101
+PPM = 1e6
+
+
+def model_of(design):
+    """The compiled exact model of a design's topology and polarity."""
+    return compile_model(design.topology, design.polarity)
+
+
+def sweep(design, name, values, **fixed):
+    """Exact operating points with parameter ``name`` swept over ``values``.
+
+    Other parameters may be overridden by keyword (flat names, e.g.
+    ``**{"Q1.beta_f": 150}``).  Every value is checked against its valid
+    range first.  Returns :class:`kit.model.solve.OperatingPoints`.
+
+    Examples
+    --------
+    >>> import kit
+    >>> d = kit.design("divider_source")
+    >>> pts = sweep(d, "v_load", [4.0, 8.0])
+    >>> bool(pts.converged.all()), bool(pts.i_out[1] > pts.i_out[0])
+    (True, True)
+    """
+    from kit.model.vocabulary import entry
+
+    changes = fixed | {name: values}
+    for key, value in changes.items():
+        e = entry(design.topology, design.polarity, key)
+        array = np.asarray(value, dtype=float)
+        bad = ~((array >= e.low) & (array <= e.high)) & ~(e.allow_inf & np.isposinf(array))
+        if np.any(bad):
+            raise ParameterError("out of range", parameter=key, value=float(array[bad].flat[0]), valid=e.valid)
+        if e.whole and np.any(array != np.round(array)):
+            raise ParameterError("must be a whole number", parameter=key,
+                                 value=float(array[array != np.round(array)].flat[0]), valid=e.valid)
+    params = design.parameters() | {k: np.asarray(v, dtype=float) for k, v in changes.items()}
+    return solve_points(model_of(design), params)
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    """dI_out/dp of one parameter at the design point."""
+
+    parameter: str
+    value: float
+    unit: str
+    derivative: float  # A per unit of the parameter
+    normalised: float  # (p / I) dI/dp; for temperature, (1/I) dI/dT in 1/K
+
+    def to_dict(self):
+        return dict(self.__dict__)
+
+
+@dataclass(frozen=True)
+class LedgerEntry:
+    """One named simplification weighed against the exact solution."""
+
+    key: str
+    label: str
+    assumptions: tuple  # their words
+    source: str
+    latex: str
+    value: float
+    error: float  # (closed form - exact) / exact
+    sensitivities: dict  # parameter -> closed-form dI/dp
+    tempco: float  # closed-form (1/I) dI/dT, 1/K
+
+    def to_dict(self):
+        out = dict(self.__dict__)
+        out["assumptions"] = list(self.assumptions)
+        return out
+
+
+@dataclass(frozen=True)
+class PartPoint:
+    """One device at the design point: kind, region, exported quantities, dissipation."""
+
+    name: str
+    kind: str
+    polarity: str
+    region: str
+    quantities: dict
+    dissipation: float
+
+    def to_dict(self):
+        out = dict(self.quantities)
+        if "i_b" in out and out["i_b"]:
+            out["beta_measured"] = out["i_c"] / out["i_b"]
+        return out | {"kind": self.kind, "polarity": self.polarity, "region": self.region,
+                      "dissipation": self.dissipation}
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    """Everything :func:`evaluate` finds at one design point (see the module docstring)."""
+
+    design: object
+    edge: str
+    i_out: float
+    compliance: object
+    r_out: float
+    r_out_forms: dict
+    parts: dict  # device name -> PartPoint
+    derivatives: dict  # flat parameter name -> exact dI_out/dp
+    sensitivities: tuple
+    tempco: float  # (1/I) dI/dT in 1/K
+    tempco_budget: tuple  # (label, contribution in 1/K), largest first
+    ledger: tuple
+    dissipation_sweep: tuple  # (load voltages, {device: watts})
+    max_dissipation: tuple  # (device, watts, load voltage)
+    hottest: tuple | None  # (device, watts, load voltage, junction temperature in K) of the hottest junction
+    node_voltages: dict
+    points: object  # the exact operating point (kit.model.solve.OperatingPoints, one point)
+
+    def derivative(self, name):
+        """Exact dI_out/dp of flat parameter ``name``."""
+        return self.derivatives[name]
+
+    @property
+    def regions(self):
+        return {name: part.region for name, part in self.parts.items()}
+
+    @property
+    def structure(self):
+        return self.design.structure
+
+    def to_dict(self):
+        part, watts, at = self.max_dissipation
+        return {
+            "design": self.design.to_dict(),
+            "i_out": self.i_out,
+            "compliance": self.compliance.to_dict(),
+            "r_out": self.r_out,
+            "r_out_forms": dict(self.r_out_forms),
+            "tempco_ppm_per_k": self.tempco * PPM,
+            "tempco_budget_ppm_per_k": {label: v * PPM for label, v in self.tempco_budget},
+            "sensitivities": [s.to_dict() for s in self.sensitivities],
+            "devices": {name: p.to_dict() for name, p in self.parts.items()},
+            "max_dissipation": {"part": part, "watts": watts, "v_load": at},
+            "ledger": [e.to_dict() for e in self.ledger],
+            "node_voltages": dict(self.node_voltages),
+        }
+
+
+def _sensitivities(design, gradient, i_out):
+    """Values (but the load voltage), each device's reported parameters, and temperature."""
+    params = design.parameters()
+    words = design.vocabulary
+    names = [v.name for v in design.topology.values if v.kind != "load"]
+    for part in design.structure.devices:
+        names += [f"{part.name}.{key}" for key in part.kind.sensitivity]
+    names.append("temp")
+    out = []
+    for name in names:
+        if name not in gradient:
+            continue
+        d = gradient[name]
+        scale = 1.0 if name == "temp" else params[name]
+        normalised = scale * d / i_out if np.isfinite(scale) else 0.0
+        out.append(Sensitivity(name, params[name], words[name].unit, d, normalised))
+    return tuple(out)
+
+
+def _tempco_budget(points, model, i_out):
+    temp_index = model.parameter_index["temp"]
+    di_dq = points.di_dq[:, 0]
+    dq_dt = points.dq_dp[:, temp_index, 0]
+    out = []
+    for name, a, b in zip(model.operating_names, di_dq, dq_dt):
+        if b != 0 and a != 0:
+            label = model.structure.budget_label(name) or f"temperature law of {name}"
+            out.append((label, float(a * b / i_out)))
+    return tuple(sorted(out, key=lambda item: -abs(item[1])))
+
+
+def _ledger(points, model, i_out, wanted):
+    q = points.q
+    values = model.closed_forms(q)
+    grads = model.closed_form_gradients(q)
+    dq_dp = points.dq_dp[..., 0]
+    latex = model.manifest.get("latex", {})
+    names = model.parameter_names
+    out = []
+    for form in model.structure.closed_forms:
+        value = float(values[form.key][0])
+        di_dp = grads[form.key][:, 0] @ dq_dp
+        gradient = dict(zip(names, (float(v) for v in di_dp)))
+        out.append(LedgerEntry(
+            key=form.key, label=form.label, assumptions=form.assumption_texts, source=form.source,
+            latex=latex.get(form.key, ""), value=value, error=(value - i_out) / i_out,
+            sensitivities={n: gradient[n] for n in wanted if n in gradient},
+            tempco=gradient["temp"] / value if value else 0.0,
+        ))
+    return tuple(out)
+
+
+def evaluate(design, *, edge="vce_sat"):
+    """Solve a design exactly and weigh everything a review asks of it.
+
+    Parameters
+    ----------
+    design : kit.model.design.Design
+    edge : {"vce_sat", "vcb_zero"}
+        Saturation criterion for regions and compliance.
+
+    Returns
+    -------
+    Evaluation
+
+    Raises
+    ------
+    kit.errors.OperatingPointError
+        If the load voltage is outside compliance (``parameter="v_load"``) or the
+        supply cannot turn the circuit on (``parameter="v_supply"``).
+    kit.errors.ConvergenceError
+        If the exact solve did not converge.
+    """
+    check_edge(edge)
+    model = model_of(design)
+    values = design.parameters()
+    points = solve_points(model, values).require("design point")
+    try:
+        compliance = find_compliance(model, values, edge=edge)
+    except OperatingPointError as err:
+        raise _supply_error(model, values, design, edge) from err
+    v_load = values["v_load"]
+    worst, keys = points.worst_margin(edge)
+    if worst[0] < 0 or not compliance.contains(v_load):
+        part, cause = keys[0]
+        raise OperatingPointError(
+            f"load voltage outside compliance: {part} {points.cause_text(part, cause)} here",
+            parameter="v_load", value=v_load,
+            valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
+    i_out = float(points.i_out[0])
+    gradient = dict(zip(model.parameter_names, (float(v) for v in points.di_dp[:, 0])))
+    sensitivities = _sensitivities(design, gradient, i_out)
+    regions = points.regions(edge)
+    parts = {}
+    for part in model.structure.devices:
+        j = {k: float(v[0]) for k, v in points.junctions[part.name].items()}
+        parts[part.name] = PartPoint(part.name, part.kind.key, part.polarity, str(regions[part.name][0]), j,
+                                     float(points.dissipation[part.name][0]))
+    v_sweep = np.linspace(compliance.low.voltage, compliance.high.voltage, DISSIPATION_POINTS)
+    swept = sweep(design, "v_load", v_sweep)
+    power = dict(swept.dissipation)
+    biggest = max(power, key=lambda n: power[n].max())
+    k = int(np.argmax(power[biggest]))
+    hottest = _hottest(model, values, v_sweep, power)
+    with np.errstate(divide="ignore"):  # an ideal part (V_A = inf) gives an infinite small-signal form
+        extras = model.extras(points.x, points.q)
+    return Evaluation(
+        design=design, edge=edge, i_out=i_out, compliance=compliance, r_out=float(points.r_out[0]),
+        r_out_forms={k: float(v[0]) for k, v in extras.items() if k.startswith("r_out")},
+        parts=parts, derivatives=gradient, sensitivities=sensitivities,
+        tempco=gradient["temp"] / i_out, tempco_budget=_tempco_budget(points, model, i_out),
+        ledger=_ledger(points, model, i_out, [s.parameter for s in sensitivities]),
+        dissipation_sweep=(v_sweep, power), max_dissipation=(biggest, float(power[biggest][k]), float(v_sweep[k])),
+        hottest=hottest,
+        node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points)
+
+
+def _hottest(model, values, v_load, power):
+    """``(part, watts, load voltage, junction temperature)`` of the hottest junction across compliance.
+
+    Each part with a thermal resistance of its own rises ``theta_JA P_D``
+    above the design temperature (no coupling between packages).
+    """
+    best = None
+    for part in model.structure.devices:
+        if "theta_ja" not in part.params or part.name not in power:
+            continue
+        rise = values[part.params["theta_ja"]] * power[part.name]
+        k = int(np.argmax(rise))
+        junction = values["temp"] + float(rise[k])
+        if best is None or junction > best[3]:
+            best = (part.name, float(power[part.name][k]), float(v_load[k]), junction)
+    return best
+
+
+def _supply_error(model, values, design, edge):
+    """The error for a design no load voltage can serve, with the supply it would need."""
+    spec = design.topology.value("v_supply")
+    trial = np.geomspace(max(values["v_supply"], spec.low), spec.high, 60)
+    points = solve_points(model, values | {"v_supply": trial})
+    worst, _ = points.worst_margin(edge)
+    good = np.flatnonzero(worst >= 0)
+    if good.size:
+        return OperatingPointError(
+            "too low to bias the circuit", parameter="v_supply",
+            value=values["v_supply"], valid=f"≥ {trial[good[0]]:.3g} V at v_load = {values['v_load']:.3g} V")
+    return OperatingPointError(
+        "no load voltage and no higher supply bias the circuit; check the bias values",
+        parameter="v_supply", value=values["v_supply"], valid="a supply and bias that turn the circuit on")

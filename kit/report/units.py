@@ -1,0 +1,58 @@
+"""Units of derived quantities, composed and simplified (dI/dp of a parameter in V/K is A·K/V).
+
+The kit's units are products of a few symbols with integer powers; this
+module multiplies and divides them and writes the result the way an
+engineer does: positive powers first, then ``/`` and the rest.
+
+Examples
+--------
+>>> per("A", "K"), per("A", "1/K"), per("A", "A/V²"), per("A", ""), per("A", "A")
+('A/K', 'A·K', 'V²', 'A', '')
+"""
+
+from __future__ import annotations
+
+import re
+
+_SUPERSCRIPTS = {"²": 2, "³": 3}
+_TO_SUPERSCRIPT = {2: "²", 3: "³"}
+_FACTOR = re.compile(r"([^·/*]+?)(\^-?\d+|[²³])?$")
+
+
+def parse_unit(unit):
+    """``"A/V²"`` -> ``{"A": 1, "V": -2}``; ``"1/K"`` -> ``{"K": -1}``; ``""`` -> ``{}``."""
+    powers = {}
+    if not unit:
+        return powers
+    numerator, _, denominator = unit.partition("/")
+    for part, sign in ((numerator, 1), (denominator, -1)):
+        for factor in filter(None, re.split(r"[·*]", part)):
+            factor = factor.strip()
+            if factor == "1":
+                continue
+            match = _FACTOR.match(factor)
+            name, power = match.group(1), match.group(2)
+            exponent = _SUPERSCRIPTS[power] if power in _SUPERSCRIPTS else int(power[1:]) if power else 1
+            powers[name] = powers.get(name, 0) + sign * exponent
+    return {k: v for k, v in powers.items() if v}
+
+
+def write_unit(powers):
+    """The inverse of :func:`parse_unit`, positive powers first."""
+    def factor(name, power):
+        return name + (_TO_SUPERSCRIPT.get(power, f"^{power}") if power != 1 else "")
+
+    up = [factor(n, p) for n, p in powers.items() if p > 0]
+    down = [factor(n, -p) for n, p in powers.items() if p < 0]
+    if not up and not down:
+        return ""
+    head = "·".join(up) or "1"
+    return head + ("/" + "·".join(down) if down else "")
+
+
+def per(numerator, denominator):
+    """The unit of ``numerator`` per ``denominator`` (the unit of a derivative)."""
+    powers = parse_unit(numerator)
+    for name, power in parse_unit(denominator).items():
+        powers[name] = powers.get(name, 0) - power
+    return write_unit({k: v for k, v in powers.items() if v})
