@@ -9,9 +9,11 @@ SHA-256 of ``pyproject.toml`` matches the one recorded in ``.venv``.
 Usage
 -----
 ``python3 dev.py setup``
-    Create ``.venv`` and install the project into it.
+    Create ``.venv`` and install the project into it; in a git checkout, also
+    register the notebook filter ``keep-check-outputs`` (see .gitattributes).
 ``python3 dev.py tour``
-    Open the tour notebook in JupyterLab.
+    Open the tour notebook in JupyterLab; saving a notebook under notebooks/
+    strips it (tools/jupyter/jupyter_server_config.py).
 ``python3 dev.py test [pytest args...]``
     Run the test suite; extra arguments go to pytest unchanged.
 
@@ -36,6 +38,10 @@ ROOT = Path(__file__).resolve().parent
 VENV = ROOT / ".venv"
 BIN = VENV / ("Scripts" if os.name == "nt" else "bin")
 STAMP = VENV / "biasbook-install.sha256"
+# Jupyter settings of the repository: the pre-save hook that strips notebooks.
+JUPYTER_SETTINGS = ROOT / "tools" / "jupyter"
+# The git clean filter named in .gitattributes for *.ipynb.
+NOTEBOOK_FILTER = "keep-check-outputs"
 
 # Debian packages the browser and PDF tests use, with a file each one installs.
 BROWSER_PACKAGES = {
@@ -98,6 +104,46 @@ def ensure_browser() -> None:
         say("apt-get failed: browser tests will be skipped")
 
 
+def register_notebook_filter(root: Path = ROOT) -> bool:
+    """Register the notebook clean filter in the local git config of ``root``.
+
+    ``git add`` then stores every notebook the way tools/notebooks.py strips
+    it, even one saved by a Jupyter that never loaded the pre-save hook.  The
+    command is standard library only and runs with this interpreter; git
+    starts it in the top folder of the working tree.  Returns False (and says
+    why) outside a git checkout.
+    """
+    if shutil.which("git") is None:
+        say("git not found: notebook filter not registered")
+        return False
+    inside = subprocess.run(["git", "-C", str(root), "rev-parse", "--show-toplevel"],
+                            capture_output=True, text=True)
+    if inside.returncode != 0:
+        say("not a git checkout: notebook filter not registered")
+        return False
+    if Path(inside.stdout.strip()).resolve() != root.resolve():
+        # .gitattributes and the filter's relative command assume the top folder
+        say(f"{root} is not the top of its git checkout: notebook filter not registered")
+        return False
+    python = Path(sys.executable).as_posix()
+    settings = {
+        "clean": f'"{python}" tools/notebooks.py strip -',
+        # a notebook that cannot be stripped stops `git add` instead of going in whole
+        "required": "true",
+    }
+    for key, value in settings.items():
+        subprocess.run(["git", "-C", str(root), "config", "--local", f"filter.{NOTEBOOK_FILTER}.{key}", value],
+                       check=True)
+    say(f"git filter {NOTEBOOK_FILTER} registered: notebooks are stripped on `git add`")
+    return True
+
+
+def jupyter_environment() -> dict[str, str]:
+    """Environment for a Jupyter server on the repository: inline Bokeh, our settings first."""
+    paths = [str(JUPYTER_SETTINGS), *filter(None, os.environ.get("JUPYTER_CONFIG_PATH", "").split(os.pathsep))]
+    return dict(os.environ, BOKEH_RESOURCES="inline", JUPYTER_CONFIG_PATH=os.pathsep.join(paths))
+
+
 def tour() -> int:
     """Start JupyterLab on the tour notebook (or the notebooks folder)."""
     targets = [t for t in ("notebooks/tour.ipynb", "notebooks") if (ROOT / t).exists()]
@@ -109,9 +155,8 @@ def tour() -> int:
         command.append("--allow-root")  # JupyterLab refuses to start as root otherwise
     say("starting JupyterLab; if no browser opens, use the http://127.0.0.1:8888/lab?token=... "
         "URL it prints below. Ctrl-C twice stops it.")
-    env = dict(os.environ, BOKEH_RESOURCES="inline")
     say("$ " + " ".join(str(part) for part in command))
-    process = subprocess.Popen([str(part) for part in command], cwd=ROOT, env=env)
+    process = subprocess.Popen([str(part) for part in command], cwd=ROOT, env=jupyter_environment())
     while True:
         try:
             return process.wait()
@@ -139,6 +184,7 @@ def main(argv: list[str]) -> int:
         return tour()
     if argv[0] == "test":
         return test(argv[1:])
+    register_notebook_filter()
     say(f"ready: {BIN / 'python'}")
     return 0
 

@@ -51,6 +51,7 @@ SIZES = {
         "scipy_points": 500, "scipy_repeats": 3,
         "derive_repeats": 3,
         "mc_samples": 200_000, "mc_closed_form_samples": 5_000_000, "panel_changes": 20,
+        "mc_memory_samples": 1_000_000, "mc_compare_samples": 50_000, "mc_compare_repeats": 3,
         "panel_points": 200, "notebooks": True, "review": True,
     },
     "quick": {
@@ -59,6 +60,7 @@ SIZES = {
         "scipy_points": 10, "scipy_repeats": 1,
         "derive_repeats": 1,
         "mc_samples": 2_000, "mc_closed_form_samples": 20_000, "panel_changes": 3,
+        "mc_memory_samples": 2_000, "mc_compare_samples": 500, "mc_compare_repeats": 1,
         "panel_points": 20, "notebooks": False, "review": False,
     },
 }
@@ -514,6 +516,76 @@ def monte_carlo(sizes):
     return {"monte_carlo_exact_samples_per_s": sizes["mc_samples"] / times["exact"],
             "monte_carlo_closed_form_samples_per_s": sizes["mc_closed_form_samples"] / times["closed"],
             "monte_carlo_exact_all_converged": converged}
+
+
+# Runs in a fresh interpreter: the Monte Carlo of worst_case on the example record
+# spec-bridge-excitation-fails.toml (12 condition points, self-heating on) with
+# argv[1] samples; argv[2] > 0 sets the points solved per chunk (the whole run
+# in one chunk is how the analysis worked before it streamed).  Reports its
+# peak resident size, the size before the run and the run's time.
+MC_MEMORY_CHILD = """
+import dataclasses, json, resource, sys, time
+from kit.analysis import worstcase
+from kit.record import load_record
+samples, chunk_points = int(sys.argv[1]), int(sys.argv[2])
+if chunk_points:
+    worstcase.MONTE_CARLO_CHUNK_POINTS = chunk_points
+record = load_record(sys.argv[3])
+spec = dataclasses.replace(record.spec, samples=samples)
+worstcase.worst_case(record.design, dataclasses.replace(spec, samples=10), methods=("Monte Carlo",))  # compile
+unit = 1 if sys.platform == "darwin" else 1024  # ru_maxrss: bytes on macOS, KiB on Linux
+before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * unit
+start = time.perf_counter()
+mc = worstcase.worst_case(record.design, spec, methods=("Monte Carlo",)).methods["Monte Carlo"]
+seconds = time.perf_counter() - start
+print(json.dumps({"peak_bytes": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * unit,
+                  "before_bytes": before, "seconds": seconds, "samples": mc.detail["samples"],
+                  "condition_points": mc.detail["condition_points"]}))
+"""
+MC_MEMORY_RECORD = os.path.join(ROOT, "examples", "spec-bridge-excitation-fails.toml")
+
+
+def _monte_carlo_child(samples, chunk_points=0):
+    """The child's report (see MC_MEMORY_CHILD) as a dict."""
+    result = subprocess.run([sys.executable, "-c", MC_MEMORY_CHILD, str(samples), str(chunk_points),
+                             MC_MEMORY_RECORD], capture_output=True, text=True, check=True, cwd=ROOT)
+    return json.loads(result.stdout.strip().splitlines()[-1])
+
+
+@benchmark(
+    "monte_carlo_memory",
+    goals={"monte_carlo_peak_rss_mb": "<= 1000", "monte_carlo_streamed_vs_one_chunk_time": "<= 1.1"},
+    note="worst_case Monte Carlo of examples/spec-bridge-excitation-fails.toml (12 condition points, "
+         "self-heating on), each run in a fresh interpreter: monte_carlo_peak_rss_mb is the peak resident "
+         "size (ru_maxrss) of a run of {mc_memory_samples} samples, monte_carlo_run_rss_growth_mb what that "
+         "run added to the interpreter (warmed up, model compiled), monte_carlo_worst_case_samples_per_s its "
+         "rate (each sample solved at 12 points); side by side at {mc_compare_samples} samples, the same run "
+         "with all points solved in one chunk (how it worked before streaming) and streamed: peak sizes "
+         "and the ratio of the times, medians of {mc_compare_repeats} alternating runs",
+)
+def monte_carlo_memory(sizes):
+    """Peak memory of a large Monte Carlo, and streamed against one chunk at a size both can do."""
+    big = _monte_carlo_child(sizes["mc_memory_samples"])
+    whole_run = sizes["mc_compare_samples"] * big["condition_points"]
+    runs = {"streamed": [], "one_chunk": []}
+    for _ in range(sizes["mc_compare_repeats"]):
+        runs["streamed"].append(_monte_carlo_child(sizes["mc_compare_samples"]))
+        runs["one_chunk"].append(_monte_carlo_child(sizes["mc_compare_samples"], chunk_points=whole_run))
+
+    def median(kind, key):
+        return statistics.median(run[key] for run in runs[kind])
+
+    mb = 1e-6
+    return {
+        "monte_carlo_peak_rss_mb": big["peak_bytes"] * mb,
+        "monte_carlo_run_rss_growth_mb": max(big["peak_bytes"] - big["before_bytes"], 0) * mb,
+        "monte_carlo_worst_case_samples_per_s": big["samples"] / big["seconds"],
+        "monte_carlo_memory_samples": big["samples"],
+        "monte_carlo_condition_points": big["condition_points"],
+        "monte_carlo_streamed_peak_rss_mb": median("streamed", "peak_bytes") * mb,
+        "monte_carlo_one_chunk_peak_rss_mb": median("one_chunk", "peak_bytes") * mb,
+        "monte_carlo_streamed_vs_one_chunk_time": median("streamed", "seconds") / median("one_chunk", "seconds"),
+    }
 
 
 @benchmark(
