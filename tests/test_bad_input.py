@@ -108,6 +108,21 @@ def test_random_digitless_text_is_refused(text):
 
 def test_bool_is_not_a_number():
     _raises_naming("r1", kit.design, "divider_source", r1=True)
+    _raises_naming("r1", kit.design, "divider_source", r1=np.bool_(True))
+    _raises_naming("Q1.beta_f", kit.design, "divider_source", devices={"Q1": {"beta_f": np.bool_(True)}})
+
+
+def test_numpy_scalars_are_design_values():
+    """The issue's reproducer: np.float32 and np.int64 were refused as design values."""
+    plain = kit.design("divider_source", r1=33e3, r_e=2200.0, v_load=8.0, devices={"Q1": {"beta_f": 150.0}})
+    scalars = kit.design("divider_source", r1=np.float32(33e3), r_e=np.int64(2200), v_load=np.float64(8.0),
+                         devices={"Q1": {"beta_f": np.int32(150)}})
+    assert scalars.values == plain.values and scalars.devices == plain.devices
+    assert all(type(v) is float for v in scalars.values.values())
+    assert type(scalars.devices["Q1"].beta_f) is float
+    assert kit.evaluate(scalars).i_out == kit.evaluate(plain).i_out
+    # NaN is still no value, whatever its type
+    _raises_naming("r1", kit.design, "divider_source", r1=np.float32("nan"))
 
 
 # --- names -----------------------------------------------------------------------------
@@ -172,8 +187,10 @@ def test_supply_too_low_names_v_supply_and_a_supply_that_works():
     assert e.parameter == "v_supply"
     # the message offers a supply; at that supply the design must evaluate
     found = re.search(r"≥\s*([0-9.eE+-]+)\s*V", e.valid or "")
-    if found:
-        kit.evaluate(design.with_values(v_supply=float(found.group(1)) * 1.01))
+    assert found, f"the error offers no supply that works: {e}"
+    offered = float(found.group(1))
+    assert offered > 0.6  # above the supply just refused
+    assert kit.evaluate(design.with_values(v_supply=offered * 1.01)).i_out > 0
 
 
 @pytest.mark.parametrize("polarity, v_load, side", [("npn", 0.5, "low"), ("npn", 60.0, "high"),

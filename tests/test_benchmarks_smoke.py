@@ -27,9 +27,14 @@ FIGURES = (
     "derive_warm_preimported_s", "benchmark_run_s",
     "monte_carlo_exact_samples_per_s", "monte_carlo_closed_form_samples_per_s", "synthesis_s",
     "panel_update_s", "panel_update_evaluate_s",
+    "monte_carlo_peak_rss_mb", "monte_carlo_worst_case_samples_per_s",
+    "monte_carlo_memory_samples", "monte_carlo_condition_points", "monte_carlo_streamed_peak_rss_mb",
+    "monte_carlo_one_chunk_peak_rss_mb", "monte_carlo_streamed_vs_one_chunk_time",
 )
 # Agreement between the kit and the hand-written reference: may be exactly 0.
 DIFFERENCES = ("closed_form_max_rel_diff", "exact_solve_max_rel_diff")
+# Growth of a process's peak size: 0 when a small run fits in memory already taken.
+GROWTHS = ("monte_carlo_run_rss_growth_mb",)
 GOALS = ("closed_form_vs_numpy", "exact_solve_vectorised_speedup", "derive_warm_s")
 CHECKS = ("exact_solve_kit_all_converged", "exact_solve_scipy_all_succeeded",
           "derive_warm_without_sympy")
@@ -52,7 +57,7 @@ def _is_number(value):
 def test_every_figure_is_a_finite_positive_number(report):
     for key in FIGURES:
         assert _is_number(report.get(key)) and report[key] > 0, (key, report.get(key))
-    for key in DIFFERENCES:
+    for key in DIFFERENCES + GROWTHS:
         assert _is_number(report.get(key)) and report[key] >= 0, (key, report.get(key))
 
 

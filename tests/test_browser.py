@@ -49,7 +49,10 @@ def lab(tmp_path_factory):
     (config / "labconfig").mkdir()
     (config / "labconfig" / "page_config.json").write_text(json.dumps(
         {"disabledExtensions": {"@jupyterlab/apputils-extension:announcements": True}}))
-    env = dict(os.environ, BOKEH_RESOURCES="inline", JUPYTER_CONFIG_DIR=str(config))
+    # The repository's settings as `dev.py tour` gives them: an autosave during
+    # the run strips the tracked tour instead of writing megabytes of Bokeh into it.
+    env = dict(os.environ, BOKEH_RESOURCES="inline", JUPYTER_CONFIG_DIR=str(config),
+               JUPYTER_CONFIG_PATH=str(ROOT / "tools" / "jupyter"))
     log = open(tmp_path_factory.mktemp("lab") / "server.log", "w")
     server = subprocess.Popen(
         [sys.executable, "-m", "jupyterlab", "--allow-root", "--no-browser", "--ip=127.0.0.1",

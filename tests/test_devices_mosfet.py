@@ -6,7 +6,8 @@ The reference laws are written out by hand here (no kit code):
   ``I_D = (K/2)(V_GS - V_th)^2 (1 + lambda V_DS)`` and triode
   ``I_D = K[(V_GS - V_th) V_DS - V_DS^2/2](1 + lambda V_DS)`` (Sedra & Smith,
   Microelectronic Circuits, MOSFET chapter; Razavi, Design of Analog CMOS
-  Integrated Circuits, ch. 2 -- from memory);
+  Integrated Circuits, ch. 2 -- from memory), and its small-signal
+  ``g_m = 2 I_D/V_ov``, ``r_o = (1 + lambda V_DS)/(lambda I_D)`` (Razavi ch. 2);
 * weak inversion ``I_D ∝ exp(V_GS/(n V_T))`` (Tsividis, Operation and Modeling
   of the MOS Transistor -- from memory);
 * mobility ``∝ T^-mu_exp`` and ``dV_th/dT = tc_vth`` (Sedra & Smith; Razavi;
@@ -18,6 +19,7 @@ The reference laws are written out by hand here (no kit code):
 from __future__ import annotations
 
 import math
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -28,27 +30,29 @@ from kit.devices import KINDS, mosfet
 from kit.errors import ParameterError
 
 K_OVER_Q = scipy.constants.k / scipy.constants.e  # V/K, CODATA 2018 (exact)
+MOS = mosfet.KIND
 
 
-def law_function(polarity="npn"):
+def law_function(sense):
     """The kit's drain current as a NumPy function of (v_g, v_d, v_s, K, V_th, lambda, n, V_T)."""
     v_g, v_d, v_s = sp.symbols("v_g v_d v_s", real=True)
-    symbols = mosfet.operating_symbols("M")
-    law = mosfet.channel_laws(polarity, v_g, v_d, v_s, symbols, symbols["V_T"])
-    args = (v_g, v_d, v_s, symbols["K"], symbols["V_th"], symbols["lambda"], symbols["n"],
-            symbols["V_T"])
-    into = {k: sp.lambdify(args, law[k], "numpy") for k in ("into_d", "into_s", "i_d", "v_dsat")}
-    return into, law, args
+    symbols = MOS.operating_symbols("M")
+    currents, quantities = MOS.stamp(sense, {"g": v_g, "d": v_d, "s": v_s}, symbols)
+    args = (v_g, v_d, v_s, symbols["K"], symbols["V_th"], symbols["lambda"], symbols["n"], symbols["V_T"])
+    law = {"into_d": currents["d"], "into_s": currents["s"], "into_g": currents["g"],
+           "i_d": quantities["i_d"], "v_dsat": quantities["v_dsat"]}
+    numeric = {k: sp.lambdify(args, law[k], "numpy") for k in ("into_d", "into_s", "i_d", "v_dsat")}
+    return numeric, law, args
 
 
 @pytest.fixture(scope="module")
 def nmos():
-    return law_function("npn")
+    return law_function("n")
 
 
 @pytest.fixture(scope="module")
 def pmos():
-    return law_function("pnp")
+    return law_function("p")
 
 
 def textbook_drain_current(v_gs, v_ds, k, v_th, lam):
@@ -143,14 +147,19 @@ def test_pmos_is_the_mirror_image_of_nmos(nmos, pmos):
                                                                      rel=1e-14, abs=1e-300)
 
 
+def _temperature_map(temp, t_ref, scale=1, t_rise=0):
+    """The kind's operating values at ``temp`` with parameter symbols named after the parameters."""
+    params = {p.name: sp.Symbol(p.name) for p in MOS.params}
+    return MOS.temperature_map("M", params, temp + t_rise, t_ref, scale), params, MOS.operating_symbols("M")
+
+
 def test_temperature_laws():
     # k'(T) = k'(T0)(T/T0)^-mu_exp, V_th(T) = V_th + tc_vth (T - T0), V_T = kT/q at the
     # channel temperature temp + t_rise (Sedra & Smith / Razavi, from memory; CODATA 2018).
-    temp, t_ref = sp.Symbol("temp"), sp.Symbol("t_ref")
-    mapping, ref = mosfet.temperature_map("M", temp, t_ref, scale=3)
-    op = mosfet.operating_symbols("M")
+    temp, t_ref, rise = sp.symbols("temp t_ref rise")
+    mapping, ref, op = _temperature_map(temp, t_ref, scale=3, t_rise=rise)
     values = {temp: 348.15, t_ref: 298.15, ref["k_prime"]: 2e-4, ref["w_over_l"]: 10.0,
-              ref["mu_exp"]: 1.5, ref["v_th"]: 0.5, ref["tc_vth"]: -2e-3, ref["t_rise"]: 5.0,
+              ref["mu_exp"]: 1.5, ref["v_th"]: 0.5, ref["tc_vth"]: -2e-3, rise: 5.0,
               ref["lambda_clm"]: 0.05, ref["n_sub"]: 1.4}
     channel = 353.15
     assert float(mapping[op["K"]].subs(values)) == pytest.approx(
@@ -164,14 +173,13 @@ def test_zero_tc_gate_bias():
     # V_ov = -2 a T/m: the zero-TC point (Filanovsky & Allam, IEEE TCAS-I 48,
     # 2001, from memory; follows from the square law).  Check it on the kit's laws.
     temp = sp.Symbol("temp", positive=True)
-    mapping, ref = mosfet.temperature_map("M", temp, 298.15)
-    op = mosfet.operating_symbols("M")
+    mapping, ref, op = _temperature_map(temp, 298.15)
     m, a, t0 = 1.5, -2e-3, 298.15
     v_ov_zero_tc = -2 * a * t0 / m
     v_gs = 1.0 + v_ov_zero_tc
     current = op["K"] / 2 * (v_gs - op["V_th"]) ** 2
     current = current.subs(mapping).subs({ref["k_prime"]: 0.2, ref["w_over_l"]: 1.0, ref["mu_exp"]: m,
-                                          ref["v_th"]: 1.0, ref["tc_vth"]: a, ref["t_rise"]: 0.0})
+                                          ref["v_th"]: 1.0, ref["tc_vth"]: a})
     tempco = sp.diff(current, temp) / current
     assert abs(float(tempco.subs(temp, t0))) < 1e-14
     # ... and only there: 50 K warmer the threshold has fallen 0.1 V and its slope wins
@@ -180,16 +188,27 @@ def test_zero_tc_gate_bias():
     assert float(tempco.subs(temp, t0 + 50.0)) == pytest.approx(expected, rel=1e-12)
 
 
+def test_small_signal_parameters_are_the_textbook_ones():
+    # In saturation g_m = 2 I_D/V_ov and r_o = (1 + lambda V_DS)/(lambda I_D) (Razavi ch. 2,
+    # from memory), for the hand-written square law.
+    k, v_th, lam, v_gs, v_ds = 0.2, 2.0, 0.02, 2.6, 7.0
+    i_d = textbook_drain_current(v_gs, v_ds, k, v_th, lam)
+    symbols = {"K": k, "lambda": lam}
+    s = MOS.small_signal({"v_ov": v_gs - v_th, "v_ds": v_ds}, symbols)
+    assert s["g_m"] == pytest.approx(2 * i_d / (v_gs - v_th), rel=1e-13)
+    assert s["r_o"] == pytest.approx((1 + lam * v_ds) / (lam * i_d), rel=1e-9)
+
+
 # --- model, ranges and the kind interface ------------------------------------------
 
 def test_typical_models_are_labelled_typical_and_polarised():
-    for polarity, channel in (("npn", "nmos"), ("pnp", "pmos")):
-        model = mosfet.typical(polarity)
-        assert model.polarity == polarity and model.channel == channel
-        assert "typical" in model.label
-        assert model.k == model.k_prime * model.w_over_l
-    assert KINDS["mos"] is mosfet
-    assert mosfet.MOSFETModel(polarity="pmos").polarity == "pnp"
+    for sense, word in (("n", "nmos"), ("p", "pmos")):
+        for given in (sense, word):
+            model = MOS.typical(given)
+            assert model.polarity == word and model.sense == sense
+            assert "typical" in model.label
+    assert KINDS["mos"] is MOS
+    assert MOS.sense_of("pmos") == "p"
 
 
 @pytest.mark.parametrize("name, bad", [("k_prime", -1e-3), ("k_prime", 2e3), ("v_th", 0.0),
@@ -198,39 +217,63 @@ def test_typical_models_are_labelled_typical_and_polarised():
                                        ("tc_vth", 0.02), ("w_over_l", "10")])
 def test_bad_parameters_name_themselves_and_the_range(name, bad):
     with pytest.raises(ParameterError) as info:
-        mosfet.TYPICAL_NMOS.with_values(**{name: bad})
+        MOS.typical("nmos").with_values(**{name: bad})
     assert info.value.parameter == name
-    low, high, unit = mosfet.MODEL_LIMITS[name]
-    assert f"{low:g}" in info.value.valid and f"{high:g}" in info.value.valid
+    param = MOS.param(name)
+    assert f"{param.low:g}" in info.value.valid and f"{param.high:g}" in info.value.valid
 
 
 def test_unknown_parameter_and_polarity_are_refused():
     with pytest.raises(ParameterError, match="unknown MOSFET parameter") as info:
-        mosfet.TYPICAL_NMOS.with_values(beta_f=100)
+        MOS.typical("nmos").with_values(beta_f=100)
     assert info.value.parameter == "beta_f"
-    with pytest.raises(ParameterError) as info:
-        mosfet.MOSFETModel(polarity="nfet")
-    assert info.value.parameter == "polarity"
+    for word in ("nfet", "npn"):
+        with pytest.raises(ParameterError) as info:
+            MOS.typical(word)
+        assert info.value.parameter == "polarity" and "nmos" in info.value.valid
 
 
 def test_regions_and_margins():
     j = {"v_gs": np.array([2.5, 2.5, 1.5]), "v_ds": np.array([5.0, 0.2, 5.0]),
          "v_ov": np.array([0.5, 0.5, -0.5]), "v_dsat": np.array([0.5, 0.5, 0.01]),
          "i_d": np.array([0.025, 0.015, 1e-9])}
-    device = mosfet.TYPICAL_NMOS
-    assert list(mosfet.regions(j, 0.0257, device)) == ["saturation", "triode", "cutoff"]
-    margins = mosfet.margins(j, 0.0257, 298.15, device)
+    p = SimpleNamespace(**MOS.typical("nmos").numbers())
+    assert list(MOS.regions(j, p, 298.15, "vce_sat")) == ["saturation", "triode", "cutoff"]
+    margins = MOS.margins(j, p, 298.15, "vce_sat")
     assert margins["triode"][1] == pytest.approx(-0.3)
     assert margins["cutoff"][2] == pytest.approx(-0.5)
     assert margins["breakdown"][0] == pytest.approx(55.0)
     # allowed power (T_J,max - T)/theta_JA less V_DS I_D (common practice, no source)
     assert margins["power"][0] == pytest.approx((423.15 - 298.15) / 350.0 - 5.0 * 0.025)
-    assert mosfet.dissipation(j)[0] == pytest.approx(0.125)
+    assert MOS.dissipation(j)[0] == pytest.approx(0.125)
+    # every cause and region is worded for a MOSFET, none for a bipolar part
+    words = " ".join(MOS.cause_text(c) for c in margins).lower() + " " + " ".join(
+        label for _, _, label in MOS.symbol_roles.values()).lower()
+    for bipolar in ("saturates", "bv_ceo", "beta", "β", "collector", "forward active"):
+        assert bipolar not in words
 
 
-def test_guess_inverse_reproduces_the_current():
-    # The starting-point inverse of the law, checked on the hand-written square law.
+@pytest.mark.parametrize("current, v_ds", [(0.01, 6.0), (0.01, 0.1), (0.05, 0.5)])
+def test_start_inverse_reproduces_the_current(current, v_ds):
+    # The starting-point inverse of the law (numeric and its compiled SymPy twin), checked
+    # on the hand-written square law.
     k, lam, join = 0.2, 0.02, 2 * 1.5 * V_T_25C
-    for current, v_ds in [(0.01, 6.0), (0.01, 0.1), (0.05, 0.5)]:
-        v_ov = float(mosfet.overdrive_for_current(current, v_ds, k, lam, join))
+    i, v = sp.symbols("i v", positive=True)
+    twin = sp.lambdify((i, v), mosfet.overdrive_for_current_expression(i, v, k, lam, join), "numpy")
+    for v_ov in (float(mosfet.overdrive_for_current(current, v_ds, k, lam, join)), float(twin(current, v_ds))):
         assert textbook_drain_current(2.0 + v_ov, v_ds, k, 2.0, lam) == pytest.approx(current, rel=1e-12)
+
+
+def test_start_inverse_below_the_join_inverts_the_continuation(nmos):
+    # Below the join the inverse is the exponential continuation's: the kit's law at the
+    # returned overdrive carries the current again (saturated and not).
+    into, _, _ = nmos
+    k, lam, n = 0.2, 0.02, 1.5
+    join = 2 * n * V_T_25C
+    i, v = sp.symbols("i v", positive=True)
+    twin = sp.lambdify((i, v), mosfet.overdrive_for_current_expression(i, v, k, lam, join), "numpy")
+    for current, v_ds in [(1e-6, 5.0), (1e-9, 0.02)]:
+        v_ov = float(twin(current, v_ds))
+        assert v_ov < join
+        assert v_ov == pytest.approx(float(mosfet.overdrive_for_current(current, v_ds, k, lam, join)), rel=1e-13)
+        assert into["i_d"](2.0 + v_ov, v_ds, 0.0, k, 2.0, lam, n, V_T_25C) == pytest.approx(current, rel=1e-12)

@@ -324,7 +324,12 @@ def test_worst_case_view_draws_the_analysis_samples(spec_panel, base, spec):
     assert result.design == panel.design
     mc = result.methods["Monte Carlo"]
     counts = panel.worst.sources["histogram"].data["top"]
-    assert sum(counts) == int(mc.arrays["ok"].sum())
+    # every valid point of every sample is in a bar (the kept samples are all of them here)
+    assert sum(counts) == mc.detail["valid_points"] == int(mc.arrays["ok"].sum())
+    valid = mc.arrays["current"][mc.arrays["ok"]] / 1e-3  # the spec's 2 mA is shown in mA
+    lefts, rights = panel.worst.sources["histogram"].data["left"], panel.worst.sources["histogram"].data["right"]
+    assert lefts[0] <= valid.min() and valid.max() < rights[-1] and len(counts) <= 40
+    assert list(counts) == list(np.histogram(valid, bins=np.append(lefts, rights[-1]))[0])  # numpy as reference
     scale = 1e-3  # the spec's 2 mA is shown in mA
     np.testing.assert_allclose(panel.worst.sources["limits"].data["x"], np.array(spec.limits) / scale)
     assert f"{mc.detail['yield']:.2%}" in panel.worst.figures["histogram"].title.text

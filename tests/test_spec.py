@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import math
 
+import numpy as np
 import pytest
 
 import kit
@@ -91,16 +92,17 @@ def test_factors_defaults_and_overrides():
 
 @pytest.mark.parametrize("bounds", [{"r_e": (1.45e3, 1.55e3)}, {"temp": (273.15, 323.15)}],
                          ids=["resistor", "condition"])
-def test_factor_names_are_unique_or_refused(bounds):
+def test_a_bounds_entry_for_a_value_already_varied_is_refused(bounds):
     """The corner grid and the Monte Carlo draws are keyed by factor name, so two factors of
-    one name silently become one (and the budget lists the value twice): either refuse such
-    a bounds entry, naming it, or let it replace the other range."""
+    one name would silently become one (and the budget would list the value twice): a bounds
+    entry for a value the spec already varies is refused, naming it."""
     spec = Spec(1.4e-3, 0.05, temp=(233.15, 358.15), bounds=bounds)
-    try:
-        names = [f.name for f in factors(spec, _sink())]
-    except ParameterError as err:
-        assert err.parameter == f"bounds.{next(iter(bounds))}"
-        return
+    with pytest.raises(ParameterError) as caught:
+        factors(spec, _sink())
+    assert caught.value.parameter == f"bounds.{next(iter(bounds))}"
+    assert "already varied" in caught.value.message
+    # without the clash the names are unique
+    names = [f.name for f in factors(Spec(1.4e-3, 0.05, temp=(233.15, 358.15)), _sink())]
     assert len(names) == len(set(names)), names
 
 
@@ -151,10 +153,38 @@ BAD_SPECS = [
     (dict(beta_distribution="normal"), "beta_distribution"),
     (dict(samples=5), "samples"),  # below range
     (dict(samples=2_000_000), "samples"),  # above range
-    (dict(samples=100.0), "samples"),  # not an integer
+    (dict(samples=100.5), "samples"),  # not a whole number
+    (dict(samples=True), "samples"),  # a bool is no count
+    (dict(samples=float("nan")), "samples"),
+    (dict(samples=float("inf")), "samples"),
+    (dict(samples="1000"), "samples"),
     (dict(seed=-1), "seed"),
     (dict(seed=1.5), "seed"),
+    (dict(i_target="1 mA"), "i_target"),  # text: the record reader parses units, Spec does not
+    (dict(p_max="1 W"), "p_max"),
+    (dict(tolerance=np.bool_(True)), "tolerance"),
+    (dict(v_load=("4", "9")), "v_load"),
+    (dict(v_load=(True, 9.0)), "v_load"),
 ]
+
+
+@pytest.mark.parametrize("count", [1e5, 100000.0, np.int64(100_000), np.float32(1e5), np.uint32(100_000)],
+                         ids=["1e5", "float", "int64", "float32", "uint32"])
+def test_whole_numbers_of_any_type_are_counts(count):
+    """The issue's reproducer: Spec(samples=1e5) and NumPy integers were refused as out of range."""
+    spec = Spec(1e-3, 0.05, samples=count, seed=np.int64(7))
+    assert spec.samples == 100_000 and type(spec.samples) is int
+    assert spec.seed == 7 and type(spec.seed) is int
+
+
+def test_numpy_scalars_are_numbers_in_a_spec():
+    spec = Spec(np.float32(1e-3), np.float64(0.05), v_load=(np.float32(4.0), np.int64(9)),
+                beta={"npn": (np.int32(100), np.float32(300.0))}, resistor_tolerance=np.float32(0.01),
+                resistor_tcr=np.float64(100e-6), p_max=np.float32(0.25), mismatch=np.float32(0.02))
+    assert spec.v_load == (4.0, 9.0) and spec.beta["npn"] == (100.0, 300.0)
+    for value in (spec.i_target, spec.tolerance, spec.resistor_tolerance, spec.p_max, spec.mismatch, *spec.v_load):
+        assert type(value) is float
+    assert spec.i_target == pytest.approx(1e-3, rel=1e-7)  # float32 holds about 7 digits
 
 
 @pytest.mark.parametrize("changes, parameter", BAD_SPECS,

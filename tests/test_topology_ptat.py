@@ -7,16 +7,18 @@ an independent solve of hand-written Kirchhoff equations by
 ``scipy.optimize.root`` (MINPACK) with the Ebers–Moll law of the conftest
 reference model (Ebers & Moll, Proc. IRE 42, 1954) and Getreu's temperature
 laws (from memory); the Early law ``I_C ∝ 1 + V_CE/V_A`` (Early, Proc. IRE
-40, 1952); finite differences of the exact solve; facts of the trade (a
+40, 1952); facts of the trade (a
 self-biased cell also rests at zero current and needs a start-up path —
 Gray et al. ch. 4, from memory).  Designs are scenarios invented for these tests.
+
+Checks every topology shares (finite-difference sensitivities and R_out, the
+NPN/PNP mirror image, random designs converging or failing clearly, the
+drawing, example records) live in the contract module, not here.
 """
 
 from __future__ import annotations
 
 import math
-from pathlib import Path
-
 import numpy as np
 import pytest
 import scipy.constants
@@ -25,10 +27,8 @@ from hypothesis import strategies as st
 from scipy.optimize import root
 
 import kit
-from kit.compliance import margins
-from kit.errors import OperatingPointError
-from kit.evaluation import model_of
-from kit.solve import solve_points
+from kit.analysis.evaluation import model_of
+from kit.model.solve import solve_points
 
 KEY = "ptat_cell"
 NAMES = ("Q1", "Q2", "Q3", "Q4", "Q5")
@@ -39,7 +39,7 @@ def uniform(**model):
     return {name: dict(model) for name in NAMES}
 
 
-IDEAL = uniform(beta_f=1e5, v_a=math.inf, xtb=0.0)
+IDEAL = uniform(beta_f=1e5, v_a=math.inf, beta_temp_exponent=0.0)
 
 # scenarios of our own: a 25 µA bias cell on a 3.3 V rail with N = 4, and its
 # complement with unlike transistors, running warm
@@ -70,9 +70,9 @@ def design_for(polarity, **kwargs):
 def device_values(p, name, area=1.0):
     """One transistor at the temperature of the point (Getreu's laws, from memory)."""
     t, t0 = p["temp"], p["t_ref"]
-    i_s = (area * p[f"{name}.i_s"] * (t / t0) ** p[f"{name}.xti"]
+    i_s = (area * p[f"{name}.i_s"] * (t / t0) ** p[f"{name}.i_s_temp_exponent"]
            * np.exp(p[f"{name}.e_g"] / K_OVER_Q * (1 / t0 - 1 / t)))
-    beta = p[f"{name}.beta_f"] * (t / t0) ** p[f"{name}.xtb"] * (1 + p[f"{name}.beta_tc"] * (t - t0))
+    beta = p[f"{name}.beta_f"] * (t / t0) ** p[f"{name}.beta_temp_exponent"] * (1 + p[f"{name}.beta_tc"] * (t - t0))
     return {"v_t": K_OVER_Q * t, "i_s": i_s, "beta": beta, "beta_r": p[f"{name}.beta_r"],
             "v_a": p[f"{name}.v_a"]}
 
@@ -183,18 +183,27 @@ def test_early_factors_explain_the_rest(polarity):
 
 @pytest.mark.parametrize("polarity", ["npn", "pnp"])
 def test_zero_current_solution_is_refused(polarity):
+    # A self-biased cell also rests at zero current (Gray et al. ch. 4, from memory).
     design = design_for(polarity)
     model = model_of(design)
     v_cc = design.values["v_supply"]
     # every junction off: b and e at the core rail, p at the mirror rail
-    zero = np.array([[0.0], [0.0], [v_cc]]) if polarity == "npn" else np.array([[v_cc], [v_cc], [0.0]])
-    points = solve_points(model, design.parameters(), x0=zero)
-    # Newton sits on a true solution of the KCL equations (leakage-level currents) ...
-    assert np.max(np.abs(model.residuals(points.x, points.q))) < 1e-13
-    assert abs(points.i_out[0]) < 1e-9
-    # ... which the kit refuses to call a valid operating point
-    assert not points.converged[0]
-    # while the closed-form start lands on the running branch
+    zero = np.array([0.0, 0.0, v_cc]) if polarity == "npn" else np.array([v_cc, v_cc, 0.0])
+    from_zero = solve_points(model, design.parameters(), x0=zero[:, None])
+    # Newton from there finds leakage-level currents, never a valid operating point
+    assert abs(from_zero.i_out[0]) < 1e-9 and not from_zero.converged[0]
+    # The zero-current state is a true solution of the KCL equations: MINPACK finds one
+    # from the all-off state (residuals scaled to order one; the junctions' leakage
+    # leaves the node voltages far from the rails)
+    q = from_zero.q
+    found = root(lambda x: model.residuals(x[:, None], q)[:, 0] * 1e14, zero, method="hybr",
+                 options={"xtol": 1e-15}).x[:, None]
+    assert np.max(np.abs(model.residuals(found, q))) < 1e-18
+    assert abs(model.output(found, q)[0]) < 1e-12
+    # ... which the circuit declares off its running branch, so the solve refuses it
+    assert not model.valid(found, q)[0]
+    assert not solve_points(model, design.parameters(), x0=found).converged[0]
+    # while the declared start lands on the running branch
     running = solve(design)
     assert running.i_out[0] == pytest.approx(running.model.closed_forms(running.q)["ideal_ptat"][0],
                                              rel=0.15)
@@ -211,61 +220,16 @@ def test_pnp_variant_is_the_complement():
 
 
 # ---------------------------------------------------------------------------
-# exact sensitivities and output resistance
-
-ZERO_STEPS = {"beta_tc": 4e-5, "t_rise": 0.3}  # 1/K, K: small against what they multiply
-ROUNDING = 1e-12  # of I_out: what the finite differences may lose to rounding (generous)
-
-
-def central_differences(design, names, start, relative_step=1e-3):
-    """dI_out/dp by central differences with one Richardson step (O(h^4)), one solve."""
-    base = design.parameters()
-    values = {n: np.full(4 * len(names), v, dtype=float) for n, v in base.items()}
-    steps = []
-    for k, name in enumerate(names):
-        step = (relative_step * abs(base[name]) if base[name]
-                else ZERO_STEPS.get(name.rpartition(".")[2], 1e-6))
-        values[name][4 * k:4 * k + 4] += np.array([step, -step, step / 2, -step / 2])
-        steps.append(step)
-    current = solve_points(model_of(design), values, x0=start).require().i_out
-    out = {}
-    for k, name in enumerate(names):
-        i = current[4 * k:4 * k + 4]
-        coarse, fine = (i[0] - i[1]) / (2 * steps[k]), (i[2] - i[3]) / steps[k]
-        out[name] = ((4 * fine - coarse) / 3, steps[k])
-    return out
-
+# output resistance
 
 def warm(polarity):
     return design_for(polarity, devices=UNLIKE, temp=323.15, tcr={"r_ptat": -60e-6})
 
 
 @pytest.mark.parametrize("polarity", ["npn", "pnp"])
-def test_exact_sensitivities_match_central_differences(polarity):
-    design = warm(polarity)
-    points = solve(design)
-    assert points.in_good_region().all()
-    skip = {"t_ref", "v_be_on", "v_be_tc"}
-    names = [n for n in points.model.parameter_names if n not in skip]
-    numeric = central_differences(design, names, points.x)
-    params, i_out = design.parameters(), points.i_out[0]
-    for k, name in enumerate(points.model.parameter_names):
-        if name in skip:
-            continue
-        scale = abs(params[name]) or 1.0
-        derivative, step = numeric[name]
-        assert points.di_dp[k, 0] * scale / i_out == pytest.approx(
-            derivative * scale / i_out, rel=1e-6, abs=ROUNDING * scale / step), name
-
-
-@pytest.mark.parametrize("polarity", ["npn", "pnp"])
 def test_output_resistance_is_r_o_of_the_output_transistor(polarity):
     design = warm(polarity)
     points = solve(design)
-    v, step = design.values["v_load"], 0.05
-    ends = solve_points(model_of(design), design.parameters() | {"v_load": np.array([v - step, v + step])})
-    sign = -1 if polarity == "npn" else 1  # the npn cell sources
-    assert points.r_out[0] == pytest.approx(sign * 2 * step / (ends.i_out[1] - ends.i_out[0]), rel=1e-4)
     # the load voltage reaches only Q5's collector: R_out = r_o5 = (V_A + V_CE)/I_C
     # (Early 1952; Gray et al. ch. 4, from memory)
     q5 = points.junctions["Q5"]
@@ -293,8 +257,8 @@ def test_compliance_edges_name_the_output_transistor(polarity):
         saturation, breakdown = ev.compliance.low, ev.compliance.high
         assert saturation.voltage == pytest.approx(q5.v_ce_sat, abs=1e-5)
         assert breakdown.voltage == pytest.approx(q5.bv_ceo, abs=1e-4)
-    assert (saturation.transistor, saturation.cause) == ("Q5", "saturation")
-    assert (breakdown.transistor, breakdown.cause) == ("Q5", "breakdown")
+    assert (saturation.part, saturation.cause) == ("Q5", "saturation")
+    assert (breakdown.part, breakdown.cause) == ("Q5", "breakdown")
 
 
 @pytest.mark.parametrize("polarity", ["npn", "pnp"])
@@ -309,53 +273,31 @@ def test_load_sweep_across_compliance(polarity):
     # junction drop further, pulls the mirror node until the cell stops: still a
     # solution (saturated, outside compliance), found everywhere.
     assert points.converged.all()
-    worst = np.min(np.stack(list(margins(points, design.devices).values())), axis=0)
+    worst, _ = points.worst_margin()
     outside = (grid < low - 1e-3) | (grid > high + 1e-3)
     assert (worst[outside] < 0).all() and (worst[inside] > -1e-6).all()
 
 
-@settings(max_examples=20, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=20, deadline=None, derandomize=True, database=None,
+          suppress_health_check=[HealthCheck.too_slow])
 @given(polarity=st.sampled_from(["npn", "pnp"]), r_ptat=st.floats(100.0, 1e6),
        n_area=st.floats(2.0, 24.0), v_supply=st.floats(2.5, 30.0), load_fraction=st.floats(0.0, 1.0),
        beta_core=st.floats(30.0, 500.0), beta_mirror=st.floats(20.0, 300.0),
        v_a=st.floats(30.0, 300.0))
-def test_random_designs_converge_or_fail_clearly(polarity, r_ptat, n_area, v_supply, load_fraction,
-                                                 beta_core, beta_mirror, v_a):
+def test_running_cells_follow_the_early_form(polarity, r_ptat, n_area, v_supply, load_fraction,
+                                             beta_core, beta_mirror, v_a):
+    # Loads at least 0.5 V inside the output's rail, where Q5 cannot saturate (V_CE(sat)
+    # 0.2-0.25 V, common practice) and the rest of the cell has its supply to itself:
+    # every such design runs, all parts active.
     devices = {n: {"beta_f": beta_core if n in ("Q1", "Q2") else beta_mirror, "v_a": v_a}
                for n in NAMES}
-    design = kit.design(KEY, polarity, devices=devices, r_ptat=r_ptat, n_area=n_area,
-                        v_supply=v_supply, v_load=load_fraction * v_supply)
-    try:
-        ev = kit.evaluate(design)
-    except OperatingPointError:
-        return  # a clear refusal
+    room = load_fraction * (v_supply - 0.5)
+    design = kit.design(KEY, polarity, devices=devices, r_ptat=r_ptat, n_area=n_area, v_supply=v_supply,
+                        v_load=room if polarity == "npn" else v_supply - room)
+    ev = kit.evaluate(design)
     assert set(ev.regions.values()) == {"active"}
     # on the running branch: V_T ln(N)/R (Gray et al. ch. 4, from memory) with base
     # currents and the Early law (Early 1952), junction drops at Q1's
-    at_vbe = solve(design, v_be_on=ev.transistors["Q1"]["v_be"])
+    at_vbe = solve(design, v_be_on=ev.parts["Q1"].quantities["v_be"])
     early = at_vbe.model.closed_forms(at_vbe.q)["early_first_order"][0]
     assert early == pytest.approx(ev.i_out, rel=2e-3)
-
-
-EXAMPLES = sorted((Path(__file__).parent.parent / "examples").glob(f"{KEY}-*.toml"))
-
-
-def test_there_is_an_example():
-    assert EXAMPLES
-
-
-@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.name)
-def test_example_records_evaluate(path, capsys):
-    from kit.cli import main
-
-    assert main(["evaluate", str(path)]) == 0
-    assert "I_out" in capsys.readouterr().out
-
-
-@pytest.mark.parametrize("polarity", ["npn", "pnp"])
-def test_schematic_names_the_parts(polarity):
-    from kit.schematic import render
-
-    svg = render(kit.design(KEY, polarity)).svg
-    for text in ("Q1", "Q2", "Q3", "Q4", "Q5", "5.1 kΩ"):
-        assert text in svg

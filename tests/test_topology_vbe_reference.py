@@ -6,34 +6,33 @@ conftest reference model (Ebers & Moll, Proc. IRE 42, 1954) and Getreu's
 temperature laws (from memory); the hand rule ``I ≈ V_BE/R_S`` and the
 ``(β + 1) r_o`` ceiling of a feedback-held output (Gray, Hurst, Lewis &
 Meyer, *Analysis and Design of Analog ICs*, ch. 4, from memory); the V_BE
-slope at constant current ``(V_BE - E_g)/T - XTI k/q`` (Gray et al. ch. 1;
-Tsividis, IEEE JSSC SC-15, 1980; from memory); ``k`` and ``q`` from
-``scipy.constants``; finite differences of the exact solve; facts of the
+slope at constant current ``(V_BE - E_g)/T - m_IS k/q``, ``m_IS`` the
+temperature exponent of I_S (Gray et al. ch. 1; Tsividis, IEEE JSSC SC-15,
+1980; from memory); ``k`` and ``q`` from ``scipy.constants``; facts of the
 trade.  Designs are scenarios invented for these tests.
+
+Checks every topology shares (finite-difference sensitivities and R_out, the
+NPN/PNP mirror image, random designs, the drawing, example records) live in
+the contract module, not here.
 """
 
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
 import scipy.constants
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
 from scipy.optimize import root
 
 import kit
-from kit.compliance import margins
-from kit.errors import OperatingPointError
-from kit.evaluation import model_of
-from kit.solve import solve_points
+from kit.analysis.evaluation import model_of
+from kit.model.solve import solve_points
 
 KEY = "vbe_reference_source"
 K_OVER_Q = scipy.constants.k / scipy.constants.e  # V/K, CODATA 2018 (exact in the 2019 SI)
-E_G, XTI = 1.11, 3.0  # the typical model's I_S law (kit.devices.bjt.BJTModel defaults)
-IDEAL = {name: {"beta_f": 1e5, "v_a": math.inf, "xtb": 0.0} for name in ("Q1", "Q2")}
+E_G, M_IS = 1.11, 3.0  # the typical model's I_S law (kit.devices.bjt typical values)
+IDEAL = {name: {"beta_f": 1e5, "v_a": math.inf, "beta_temp_exponent": 0.0} for name in ("Q1", "Q2")}
 
 # scenarios of our own: a 12 mA heater-monitor sink from 15 V, a 3 mA source
 # from 9 V, with unlike transistors
@@ -61,9 +60,9 @@ def node_voltages(points):
 def device_values(p, name):
     """One transistor at the temperature of the point (Getreu's laws, from memory)."""
     t, t0 = p["temp"], p["t_ref"]
-    i_s = (p[f"{name}.i_s"] * (t / t0) ** p[f"{name}.xti"]
+    i_s = (p[f"{name}.i_s"] * (t / t0) ** p[f"{name}.i_s_temp_exponent"]
            * np.exp(p[f"{name}.e_g"] / K_OVER_Q * (1 / t0 - 1 / t)))
-    beta = p[f"{name}.beta_f"] * (t / t0) ** p[f"{name}.xtb"] * (1 + p[f"{name}.beta_tc"] * (t - t0))
+    beta = p[f"{name}.beta_f"] * (t / t0) ** p[f"{name}.beta_temp_exponent"] * (1 + p[f"{name}.beta_tc"] * (t - t0))
     return {"v_t": K_OVER_Q * t, "i_s": i_s, "beta": beta, "beta_r": p[f"{name}.beta_r"],
             "v_a": p[f"{name}.v_a"]}
 
@@ -138,22 +137,29 @@ def test_sense_junction_is_a_vbe_reference():
     # the sense transistor sits at a V_BE of 0.55-0.75 V and the current at V_BE/R_S
     # (common practice, no source)
     ev = kit.evaluate(kit.design(KEY, "npn", **SINK))
-    v_be = ev.transistors["Q1"]["v_be"]
+    v_be = ev.parts["Q1"].quantities["v_be"]
     assert 0.55 < v_be < 0.75
     assert ev.i_out * SINK["r_s"] == pytest.approx(v_be, rel=0.02)
 
 
 def vbe_slope(v_be, temp):
     """dV_BE/dT at constant current (Gray et al. ch. 1; Tsividis 1980; from memory)."""
-    return (v_be - E_G) / temp - XTI * K_OVER_Q
+    return (v_be - E_G) / temp - M_IS * K_OVER_Q
 
 
 @pytest.mark.parametrize("polarity", ["npn", "pnp"])
 def test_tempco_follows_the_vbe_slope(polarity):
     design = scenario(polarity, devices=IDEAL, temp=310.0)
-    ev = kit.evaluate(design)
+    # With no Early effect (V_A -> inf) the collector voltage reaches nothing (Early
+    # 1952): the hybrid-π R_out is infinite and the exact one is held finite only by the
+    # collector junction's reverse current, e^(-V_CB/V_T) small.  The nodal form is
+    # 1/(test conductance) = 1/0 here and NumPy warns of the division; the evaluation
+    # does not yet silence it as it does for the exact R_out (reported, core).
+    with np.errstate(divide="ignore"):
+        ev = kit.evaluate(design)
+    assert ev.r_out > 1e60 and ev.r_out_forms["r_out_hybrid_pi"] == math.inf
     temp, v_t = design.temp, K_OVER_Q * design.temp
-    v1, v2 = ev.transistors["Q1"]["v_be"], ev.transistors["Q2"]["v_be"]
+    v1, v2 = ev.parts["Q1"].quantities["v_be"], ev.parts["Q2"].quantities["v_be"]
     feed = design.values["v_supply"] - v1 - v2  # across R_B
     # beta -> inf: I R_S = V_BE1 and I_C1 R_B = V_CC - V_BE1 - V_BE2, each
     # dV_BE/dT = slope + V_T (1/I) dI/dT; solve the three linear equations for
@@ -168,64 +174,21 @@ def test_tempco_follows_the_vbe_slope(polarity):
 
 
 # ---------------------------------------------------------------------------
-# exact sensitivities and output resistance
-
-ZERO_STEPS = {"beta_tc": 4e-5, "t_rise": 0.3}  # 1/K, K: small against what they multiply
-ROUNDING = 1e-12  # of I_out: what the finite differences may lose to rounding (generous)
-
-
-def central_differences(design, names, start, relative_step=1e-3):
-    """dI_out/dp by central differences with one Richardson step (O(h^4)), one solve."""
-    base = design.parameters()
-    values = {n: np.full(4 * len(names), v, dtype=float) for n, v in base.items()}
-    steps = []
-    for k, name in enumerate(names):
-        step = (relative_step * abs(base[name]) if base[name]
-                else ZERO_STEPS.get(name.rpartition(".")[2], 1e-6))
-        values[name][4 * k:4 * k + 4] += np.array([step, -step, step / 2, -step / 2])
-        steps.append(step)
-    current = solve_points(model_of(design), values, x0=start).require().i_out
-    out = {}
-    for k, name in enumerate(names):
-        i = current[4 * k:4 * k + 4]
-        coarse, fine = (i[0] - i[1]) / (2 * steps[k]), (i[2] - i[3]) / steps[k]
-        out[name] = ((4 * fine - coarse) / 3, steps[k])
-    return out
-
+# output resistance
 
 def warm(polarity):
     return scenario(polarity, devices=UNLIKE, temp=318.15, tcr={"r_s": 80e-6, "r_bias": -250e-6})
 
 
 @pytest.mark.parametrize("polarity", ["npn", "pnp"])
-def test_exact_sensitivities_match_central_differences(polarity):
-    design = warm(polarity)
-    points = solve(design)
-    assert points.in_good_region().all()
-    skip = {"t_ref", "v_be_on", "v_be_tc"}
-    names = [n for n in points.model.parameter_names if n not in skip]
-    numeric = central_differences(design, names, points.x)
-    params, i_out = design.parameters(), points.i_out[0]
-    for k, name in enumerate(points.model.parameter_names):
-        if name in skip:
-            continue
-        scale = abs(params[name]) or 1.0
-        derivative, step = numeric[name]
-        assert points.di_dp[k, 0] * scale / i_out == pytest.approx(
-            derivative * scale / i_out, rel=1e-6, abs=ROUNDING * scale / step), name
-
-
-@pytest.mark.parametrize("polarity", ["npn", "pnp"])
 def test_output_resistance(polarity):
     design = warm(polarity)
     points = solve(design)
-    v, step = design.values["v_load"], 0.05
-    ends = solve_points(model_of(design), design.parameters() | {"v_load": np.array([v - step, v + step])})
-    sign = 1 if polarity == "npn" else -1
-    assert points.r_out[0] == pytest.approx(sign * 2 * step / (ends.i_out[1] - ends.i_out[0]), rel=1e-4)
     extras = points.model.extras(points.x, points.q)
-    # the hybrid-π model of both transistors (derived here) linearises the same laws
-    assert extras["r_out_hybrid_pi"][0] == pytest.approx(points.r_out[0], rel=1e-3)
+    # the hybrid-π models of both transistors (Gray et al. ch. 1, from memory), solved by
+    # nodal analysis, linearise the same laws as the exact solve; they leave out only
+    # the collector junctions' leakage
+    assert extras["r_out_hybrid_pi"][0] == pytest.approx(points.r_out[0], rel=1e-7)
     # feedback holds the output up to the (β + 1) r_o ceiling, never beyond
     # (Gray et al. ch. 4, from memory)
     assert 0.2 * extras["r_out_beta_ro"][0] < points.r_out[0] < extras["r_out_beta_ro"][0]
@@ -245,8 +208,8 @@ def test_compliance_edges_name_the_pass_transistor(polarity):
     q2 = design.devices["Q2"]
     # the pass transistor saturates at V_E ± V_CE(sat) and breaks down at V_E ± BV_CEO
     # (Sedra & Smith, BJT current sources; from memory); V_E moves a little with the load
-    assert (saturation.transistor, saturation.cause) == ("Q2", "saturation")
-    assert (breakdown.transistor, breakdown.cause) == ("Q2", "breakdown")
+    assert (saturation.part, saturation.cause) == ("Q2", "saturation")
+    assert (breakdown.part, breakdown.cause) == ("Q2", "breakdown")
     assert saturation.voltage == pytest.approx(v_e + sign * q2.v_ce_sat, abs=5e-3)
     assert breakdown.voltage == pytest.approx(v_e + sign * q2.bv_ceo, abs=5e-2)
 
@@ -259,47 +222,6 @@ def test_load_sweep_across_compliance_converges(polarity):
     grid = np.linspace(low - 8.0, high + 8.0, 161)
     points = solve_points(model_of(design), design.parameters() | {"v_load": grid})
     assert points.converged.all()
-    worst = np.min(np.stack(list(margins(points, design.devices).values())), axis=0)
+    worst, _ = points.worst_margin()
     outside = (grid < low - 1e-3) | (grid > high + 1e-3)
     assert (worst[outside] < 0).all() and (worst[~outside] > -1e-6).all()
-
-
-@settings(max_examples=20, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(polarity=st.sampled_from(["npn", "pnp"]), r_s=st.floats(5.0, 20e3),
-       r_bias=st.floats(1e3, 1e6), v_supply=st.floats(2.0, 60.0), load_fraction=st.floats(0.0, 1.0),
-       beta1=st.floats(30.0, 600.0), beta2=st.floats(30.0, 600.0), v_a=st.floats(20.0, 300.0))
-def test_random_designs_converge_or_fail_clearly(polarity, r_s, r_bias, v_supply, load_fraction,
-                                                 beta1, beta2, v_a):
-    design = kit.design(KEY, polarity, r_s=r_s, r_bias=r_bias, v_supply=v_supply,
-                        v_load=load_fraction * v_supply,
-                        devices={"Q1": {"beta_f": beta1, "v_a": v_a}, "Q2": {"beta_f": beta2}})
-    try:
-        ev = kit.evaluate(design)
-    except OperatingPointError:
-        return  # a clear refusal
-    assert set(ev.regions.values()) == {"active"}
-    assert np.isfinite(ev.i_out) and ev.i_out > 0
-
-
-EXAMPLES = sorted((Path(__file__).parent.parent / "examples").glob(f"{KEY}-*.toml"))
-
-
-def test_there_is_an_example():
-    assert EXAMPLES
-
-
-@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.name)
-def test_example_records_evaluate(path, capsys):
-    from kit.cli import main
-
-    assert main(["evaluate", str(path)]) == 0
-    assert "I_out" in capsys.readouterr().out
-
-
-@pytest.mark.parametrize("polarity", ["npn", "pnp"])
-def test_schematic_names_the_parts(polarity):
-    from kit.schematic import render
-
-    svg = render(kit.design(KEY, polarity)).svg
-    for text in ("R_S", "R_B", "Q1", "Q2"):
-        assert text in svg

@@ -6,27 +6,27 @@ Lambert-W solution, evaluated here with ``scipy.special.lambertw`` and a
 ``scipy.optimize.brentq`` root independent of the kit, the hybrid-π output
 resistance of an emitter-degenerated stage (Sedra & Smith, *Microelectronic
 Circuits*; UC Berkeley EE105 notes, from memory), k/q from
-``scipy.constants``, finite differences of the exact solve and facts of the
-trade.  Designs are scenarios invented for these tests.
+``scipy.constants``, and facts of the trade.  Designs are scenarios invented
+for these tests.
+
+Checks every topology shares (finite-difference sensitivities and R_out, the
+NPN/PNP mirror image, random designs, the drawing, example records) live in
+the contract module, not here.
 """
 
 from __future__ import annotations
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest
 import scipy.constants
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
 from scipy.optimize import brentq
 from scipy.special import lambertw
 
 import kit
-from kit.compliance import worst_margin
+from kit.analysis.evaluation import sweep
 from kit.errors import OperatingPointError, ParameterError
-from kit.evaluation import sweep
 
 K_OVER_Q = scipy.constants.k / scipy.constants.e  # CODATA 2018 via scipy.constants
 KEYS = ("widlar_source", "widlar_resistor_reference")
@@ -37,19 +37,6 @@ def solve(design):
     points = sweep(design, "v_load", [design.values["v_load"]])
     assert points.converged.all() and points.in_good_region().all()
     return points
-
-
-def exact(design, name, values):
-    points = sweep(design, name, np.asarray(values, dtype=float))
-    assert points.converged.all()
-    return points.i_out
-
-
-def richardson_derivative(design, name, step):
-    """Central difference with one Richardson step (error O(step^4))."""
-    p = design.parameters()[name]
-    i = exact(design, name, [p - step, p + step, p - step / 2, p + step / 2])
-    return (4 * (i[3] - i[2]) / step - (i[1] - i[0]) / (2 * step)) / 3
 
 
 def ideal_parts(beta=1e5):
@@ -120,8 +107,8 @@ def test_finite_beta_relation_rederived(key, beta1, beta2):
     point = solve(d)
     v_t = K_OVER_Q * d.temp
     j1 = point.junctions["Q1"]
-    i_ref = j1["i_c"][0] + j1["i_b"][0] + point.junctions["Q2"]["i_b"][0] if key != "widlar_source" \
-        else 800e-6
+    i_ref = (800e-6 if key == "widlar_source"
+             else j1["i_c"][0] + j1["i_b"][0] + point.junctions["Q2"]["i_b"][0])
 
     def residual(i_c2):
         i_c1 = beta1 * (i_ref - i_c2 / beta2) / (beta1 + 1)
@@ -172,37 +159,21 @@ def test_sensitivities_of_widlars_relation():
     assert ev.tempco == pytest.approx(x / ((1 + x) * d.temp) + 800e-6 / (1 + x), rel=1e-3)
 
 
-@pytest.mark.parametrize("key", KEYS)
-@pytest.mark.parametrize("name, step", [("r_e", 1.0), ("n_area", 1e-3), ("Q1.beta_f", 0.5),
-                                        ("Q2.beta_f", 0.5), ("Q2.v_a", 0.5), ("Q1.i_s", 1e-17),
-                                        ("temp", 0.05), ("v_load", 0.05), ("v_supply", 0.01)])
-def test_exact_sensitivities_against_finite_differences(key, name, step):
-    # Implicit-function-theorem derivatives against a Richardson-extrapolated central
-    # difference of the exact solve.
-    d = kit.design(key, temp=320.0)
-    point = solve(d)
-    derivative = point.di_dp[point.model.parameter_index[name], 0]
-    fd = richardson_derivative(d, name, step)
-    assert derivative == pytest.approx(fd, rel=1e-6, abs=1e-12 * point.i_out[0] / step)
-
-
 # --- output resistance ----------------------------------------------------------
 
 @pytest.mark.parametrize("key", KEYS)
 @pytest.mark.parametrize("polarity", ["npn", "pnp"])
-def test_r_out_against_finite_difference_and_hybrid_pi(key, polarity):
+def test_r_out_hybrid_pi_forms(key, polarity):
     d = kit.design(key, polarity, v_load=6.0)
     ev = kit.evaluate(d)
-    # Richardson-extrapolated difference over +-0.5 V (curvature of I(V) cancels)
-    r_fd = (1.0 if polarity == "npn" else -1.0) / richardson_derivative(d, "v_load", 0.5)
-    assert ev.r_out == pytest.approx(r_fd, rel=1e-6)
     # r_o2[1 + beta R_E/(R_E + r_pi2 + R_B)] + R_E||(r_pi2 + R_B) with R_B = Q1's diode
     # impedance (|| R_REF) is exact for the hybrid-π network (EE105 notes; Sedra & Smith).
     assert ev.r_out_forms["r_out_hybrid_pi"] == pytest.approx(ev.r_out, rel=1e-7)
     # Sedra & Smith's R_B = 0 form differs by R_B/r_pi2 ~ I_out/(beta I_REF): < 1e-3 here.
     assert ev.r_out_forms["r_out_sedra_smith"] == pytest.approx(ev.r_out, rel=1e-3)
-    # and the degeneration multiplies r_o2 by 1 + g_m2 (R_E || r_pi2) > 1 + x/2
-    q2 = ev.transistors["Q2"]
+    # and the degeneration multiplies r_o2 = (V_A + V_CE)/I_C (Early 1952) by
+    # 1 + g_m2 (R_E || r_pi2) > 1 + x/2
+    q2 = ev.parts["Q2"].quantities
     r_o2 = (d.devices["Q2"].v_a + q2["v_ce"]) / q2["i_c"]
     assert ev.r_out > 2 * r_o2
 
@@ -214,11 +185,23 @@ def test_compliance_low_edge_is_emitter_plus_vce_sat(key):
     # V_out >= I_E2 R_E + V_CE(sat) (Gray et al. ch. 4, from memory); Q2 limits it.
     d = kit.design(key)
     low = kit.evaluate(d).compliance.low
-    assert (low.transistor, low.cause) == ("Q2", "saturation")
+    assert (low.part, low.cause) == ("Q2", "saturation")
     edge = sweep(d, "v_load", [low.voltage])
     v_e2 = edge.x[edge.model.unknowns.index("V_e"), 0]
     assert low.voltage == pytest.approx(v_e2 + 0.2, abs=1e-5)
     assert 0.2 < low.voltage < 0.6  # a few V_T of emitter drop over V_CE(sat): common practice
+
+
+def test_reference_current_needs_headroom():
+    # An ideal reference fed from V_CC needs its node below the rail (common practice,
+    # no source): on a 0.5 V supply Q1's diode drop (about 0.7 V at 1.2 mA) has no room,
+    # and the kit says so instead of reporting a current.
+    with pytest.raises(OperatingPointError) as err:
+        kit.evaluate(kit.design("widlar_source", v_supply=0.5, v_load=0.4))
+    assert err.value.parameter in ("v_load", "v_supply")
+    point = sweep(kit.design("widlar_source", v_supply=0.5, v_load=0.4), "v_load", [0.4])
+    margin, keys = point.worst_margin()
+    assert margin[0] < 0 and keys[0] == ("I_REF", "headroom")
 
 
 @pytest.mark.parametrize("key", KEYS)
@@ -257,66 +240,7 @@ def test_load_at_the_emitter_rail():
     assert (points.regions()["Q2"] == "saturated").all()
 
 
-@settings(max_examples=14, deadline=None, derandomize=True, database=None,
-          suppress_health_check=[HealthCheck.too_slow])
-@given(key=st.sampled_from(KEYS), polarity=st.sampled_from(["npn", "pnp"]),
-       reference=st.floats(1e-6, 1e-2), r_e=st.floats(10.0, 1e6), n=st.floats(0.1, 20.0),
-       v_supply=st.floats(1.0, 30.0), depth=st.floats(-2.0, 45.0),
-       gains=st.lists(st.floats(30.0, 500.0), min_size=2, max_size=2),
-       early=st.lists(st.floats(20.0, 200.0), min_size=2, max_size=2),
-       temp=st.floats(233.15, 398.15))
-def test_random_designs_solve_active_or_fail_clearly(key, polarity, reference, r_e, n, v_supply,
-                                                     depth, gains, early, temp):
-    # Load voltages from 2 V beyond the emitter rail (deep saturation) to past BV_CEO.
-    devices = {q: {"beta_f": g, "v_a": a} for q, g, a in zip(("Q1", "Q2"), gains, early)}
-    values = {"i_ref": reference} if key == "widlar_source" else {"r_ref": v_supply / reference}
-    v_load = depth if polarity == "npn" else v_supply - depth
-    d = kit.design(key, polarity, devices=devices, r_e=r_e, n_area=n, v_supply=v_supply,
-                   v_load=v_load, temp=temp, **values)
-    point = sweep(d, "v_load", [v_load])
-    assert point.converged[0]
-    worst, _ = worst_margin(point, d.devices, "vce_sat")
-    if worst[0] >= 0:
-        ev = kit.evaluate(d)
-        assert all(r == "active" for r in ev.regions.values())
-        assert ev.i_out > 0 and ev.r_out > 0
-    else:
-        with pytest.raises(OperatingPointError) as err:
-            kit.evaluate(d)
-        assert err.value.parameter in ("v_load", "v_supply")
-
-
-# --- symmetry, input checks, schematic, records ------------------------------------
-
-@pytest.mark.parametrize("key", KEYS)
-def test_pnp_is_the_mirror_image_of_npn(key):
-    # Mirroring every voltage about the emitter rail (common practice, no source).
-    same = {n: {"beta_f": 170.0, "v_a": 80.0, "v_ce_sat": 0.2} for n in ("Q1", "Q2")}
-    npn = kit.evaluate(kit.design(key, "npn", devices=same, v_supply=12.0, v_load=4.0))
-    pnp = kit.evaluate(kit.design(key, "pnp", devices=same, v_supply=12.0, v_load=8.0))
-    assert pnp.i_out == pytest.approx(npn.i_out, rel=1e-12)
-    assert pnp.r_out == pytest.approx(npn.r_out, rel=1e-9)
-    assert pnp.tempco == pytest.approx(npn.tempco, rel=1e-9)
-
-
 def test_bad_area_ratio_names_the_parameter():
     with pytest.raises(ParameterError) as err:
         kit.design("widlar_source", n_area=0.0)
     assert err.value.parameter == "n_area" and "100" in err.value.valid
-
-
-@pytest.mark.parametrize("key", KEYS)
-@pytest.mark.parametrize("polarity", ["npn", "pnp"])
-def test_schematic_renders_with_values(key, polarity):
-    from kit.schematic import render
-
-    svg = render(kit.design(key, polarity, r_e=3.9e3)).svg
-    assert "3.9" in svg and "Q2" in svg and ("R_REF" in svg) == (key != "widlar_source")
-
-
-@pytest.mark.parametrize("path", sorted(Path(__file__).resolve().parents[1].joinpath("examples")
-                                        .glob("widlar_*-*.toml")))
-def test_example_records_evaluate(path):
-    from kit import cli
-
-    assert cli.main(["evaluate", str(path)]) == 0

@@ -184,12 +184,11 @@ def test_box_contains_the_design_itself():
     must lie inside the extreme-value range, and RSS and extreme values must describe the
     same box (the RSS range, a linearisation about the nominal, must overlap it)."""
     d = kit.design("divider_source", "npn", tcr={"r_e": 3e-3}, temp=333.15)
-    try:
-        spec = Spec(0.95e-3, 0.10, temp=(313.15, 343.15), resistor_tolerance=0.0, resistor_tcr=100e-6)
-        wc = worst_case(d, spec, self_heating=False, methods=("extreme-value", "RSS"))
-    except ParameterError as err:  # refusing a design TCR outside the spec's bound is a fix too
-        assert err.parameter.startswith(("tcr", "resistor_tcr"))
-        return
+    spec = Spec(0.95e-3, 0.10, temp=(313.15, 343.15), resistor_tolerance=0.0, resistor_tcr=100e-6)
+    # the spec's TCR bound is a spread about the design's own TCR (kit.analysis.spec.factors)
+    tcr = {f.name: f for f in factors(spec, d)}["tcr_r_e"]
+    assert (tcr.low, tcr.nominal, tcr.high) == pytest.approx((3e-3 - 100e-6, 3e-3, 3e-3 + 100e-6), rel=1e-12)
+    wc = worst_case(d, spec, self_heating=False, methods=("extreme-value", "RSS"))
     eva, rss = wc.methods["extreme-value"], wc.methods["RSS"]
     assert eva.low <= wc.nominal <= eva.high
     assert rss.low <= eva.high and eva.low <= rss.high
@@ -273,8 +272,11 @@ def test_yield_one_uniform_resistor():
     mc = worst_case(d, spec, self_heating=False, methods=("Monte Carlo",)).methods["Monte Carlo"]
     se = math.sqrt(expected * (1 - expected) / n)  # standard error of a proportion
     assert abs(mc.detail["yield"] - expected) < 3 * se
-    assert mc.detail["yield_standard_error"] == pytest.approx(
-        math.sqrt(mc.detail["yield"] * (1 - mc.detail["yield"]) / n), rel=1e-9)
+    # the yield's interval is Wilson's score interval (Wilson 1927), as SciPy computes it
+    passing = n - mc.detail["failing_samples"]
+    wilson = stats.binomtest(passing, n).proportion_ci(confidence_level=0.95, method="wilson")
+    assert mc.detail["yield_interval"] == pytest.approx([wilson.low, wilson.high], rel=1e-12)
+    assert mc.detail["yield_confidence"] == 0.95
     # sample by sample: a sample passes exactly when its R_E lies between the two roots
     draws = mc.arrays["draws"]["r_e"]
     assert np.array_equal(mc.arrays["passed"], (draws >= r_a) & (draws <= r_b))
@@ -430,19 +432,69 @@ def test_dissipation_limit(reference):
     assert "Q1 dissipates more than the spec's limit" in tight.reasons()
 
 
-def test_empty_box_is_the_nominal_point_or_refused():
-    """With every tolerance zero and no ranges the box is the nominal point: the answer is
-    the nominal current (or a ParameterError saying the spec varies nothing)."""
+def test_empty_box_is_the_nominal_point():
+    """With every tolerance zero and no ranges the box is the nominal point: every method
+    answers the nominal current, and every Monte Carlo sample is that point."""
     d = _sink()
-    spec = Spec(1.4e-3, 0.10, resistor_tolerance=0.0, resistor_tcr=0.0)
+    spec = Spec(1.4e-3, 0.10, resistor_tolerance=0.0, resistor_tcr=0.0, samples=50)
     assert factors(spec, d) == []
-    try:
-        wc = worst_case(d, spec, self_heating=False)
-    except ParameterError:
-        return
+    wc = worst_case(d, spec, self_heating=False)
     i0 = float(_solve(d, {}, False).i_out[0])
+    assert spec.limits[0] < i0 < spec.limits[1]
     for m in wc.methods.values():
         assert m.low == pytest.approx(i0, rel=1e-12) and m.high == pytest.approx(i0, rel=1e-12)
+        assert m.passed
+    mc = wc.methods["Monte Carlo"]
+    assert mc.detail["yield"] == 1.0 and mc.detail["valid_points"] == 50
+    assert mc.detail["percentiles"]["50"] == pytest.approx(i0, rel=1e-12)
+
+
+# --------------------------------------------------------------------------------------
+# choosing the methods
+
+@pytest.mark.parametrize("methods", [("Monte Carlo",), ("RSS",), ("RSS", "Monte Carlo"), "RSS"],
+                         ids=["Monte Carlo", "RSS", "RSS and Monte Carlo", "one name as text"])
+def test_single_method_verdict_names_its_method(methods):
+    """The issue's reproducer: without the extreme-value run, .met, .text() and .to_dict()
+    raised KeyError: 'extreme-value'.  Now the verdict is the method's that ran (RSS before
+    Monte Carlo) and says it is no guarantee."""
+    spec = Spec(1.4e-3, 0.10, v_load=(4.0, 9.0), beta={"npn": (100.0, 300.0)}, samples=200)
+    wc = worst_case(_sink(), spec, self_heating=False, methods=methods)
+    expected = "RSS" if "RSS" in methods else "Monte Carlo"
+    assert wc.decided_by == expected and wc.met is wc.methods[expected].passed
+    assert "no guarantee" in wc.verdict() and expected in wc.verdict()
+    text = wc.text()
+    assert f"verdict: {wc.verdict()}" in text
+    data = json.loads(json.dumps(json_ready(wc.to_dict()), allow_nan=False))
+    assert data["decided_by"] == expected and data["met"] is wc.met and set(data["methods"]) <= set(methods) | {
+        "RSS", "Monte Carlo"}
+    assert "no guarantee" in wc._repr_html_()
+    assert isinstance(wc.reasons(), list)
+
+
+def test_single_method_that_fails_gives_its_reason():
+    spec = Spec(1.4e-3, 0.01, v_load=(4.0, 9.0), beta={"npn": (100.0, 300.0)}, samples=200)
+    for method in ("RSS", "Monte Carlo"):
+        wc = worst_case(_sink(), spec, self_heating=False, methods=(method,))
+        assert not wc.met and "spec NOT met" in wc.verdict()
+        assert wc.reasons(), method
+
+
+def test_extreme_value_verdict_is_the_guarantee():
+    spec = Spec(1.4e-3, 0.10, v_load=(4.0, 9.0), samples=100)
+    wc = worst_case(_sink(), spec, self_heating=False)
+    assert wc.decided_by == "extreme-value" and wc.met is wc.methods["extreme-value"].passed
+    assert wc.verdict() == "spec met (extreme-value bound)" and "no guarantee" not in wc.text()
+
+
+@pytest.mark.parametrize("methods, value", [(("extreme value",), "extreme value"), (("monte carlo",), "monte carlo"),
+                                            ((), ()), (42, 42)], ids=["misspelt", "lower case", "none", "number"])
+def test_unknown_method_is_refused_naming_it(methods, value):
+    with pytest.raises(ParameterError) as caught:
+        worst_case(_sink(), Spec(1.4e-3, 0.10), methods=methods)
+    err = caught.value
+    assert err.parameter == "methods" and err.value == value
+    assert err.valid == "extreme-value, RSS, Monte Carlo"
 
 
 # --------------------------------------------------------------------------------------
