@@ -132,9 +132,6 @@ def register_notebook_filter(root: Path = ROOT) -> bool:
         # filter without a smudge command (`git worktree add` failed).  `cat`, not
         # a script of the tree: the tree may not be checked out yet.
         "smudge": "cat",
-        # checkout passes notebooks through unchanged; git refuses a required
-        # filter without a smudge command (e.g. in `git worktree add`)
-        "smudge": f'"{python}" tools/notebooks.py pass -',
         # a notebook that cannot be stripped stops `git add` instead of going in whole
         "required": "true",
     }
