@@ -184,6 +184,30 @@ class Circuit:
             self.voltages[node] = self.operating_value(f"V_{node.upper()}", voltage)
             self.sources.append(self.voltages[node])
 
+    def supply_and_load(self, supply="cc", *, sinks=None):
+        """Ground, the supply rail and the load rail; declare the load rail the output.
+
+        The supply rail (``supply``, held at ``v_supply``) and the output rail
+        ``out`` (held at ``v_load``) are what every current source here shares.
+        ``sinks`` says whether the circuit sinks the output current; by default
+        an n-sense circuit (NPN, NMOS) sinks it and a p-sense one sources it.
+        Returns ``True`` for the n sense, which most builds branch on.
+
+        Examples
+        --------
+        >>> c = Circuit("npn", "n")
+        >>> c.supply_and_load()
+        True
+        >>> sorted(c.voltages)
+        ['0', 'cc', 'out']
+        """
+        n_sense = self.sense == "n"
+        self.rail("0", 0)
+        self.rail(supply, self.parameter("v_supply"))
+        self.rail("out", self.parameter("v_load"))
+        self.output("out", 1 if (n_sense if sinks is None else sinks) else -1)
+        return n_sense
+
     def node(self, node):
         """An unknown node; its voltage is solved for."""
         symbol = sp.Symbol(f"V_{node}", real=True)

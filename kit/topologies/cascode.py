@@ -64,11 +64,7 @@ EARLY_SOURCE = "derived here (Early factor 1 + V_CE/V_A on each collector curren
 
 def _rails(c):
     """Supply, load and the emitter rail (0 V for the NPN sink, V_CC for the PNP source)."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     rail = "0" if npn else "cc"
     # The output's distance from the emitter rail, in the forward sense.
     height = c.voltages["out"] - c.voltages[rail] if npn else c.voltages[rail] - c.voltages["out"]

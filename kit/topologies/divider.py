@@ -53,11 +53,7 @@ def build(c):
     """The exact circuit: divider, Q1 with its emitter resistor, load at the collector."""
     import sympy as sp
 
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     r1 = c.resistor("R1", "cc", "b", "r1")

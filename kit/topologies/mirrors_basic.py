@@ -92,11 +92,7 @@ EARLY = (FORWARD_ACTIVE.key, ISOTHERMAL.key)
 
 def _mirror(c, reference, extra_outputs=False):
     """Rails, the reference, the pair Q1 (diode) and Q2 (area N), and optional further outputs."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     emitter_rail = "0" if npn else "cc"
     s = {}

@@ -81,11 +81,7 @@ def build(c):
     """The exact circuit: reference into the strapped input, both emitters degenerated."""
     import sympy as sp
 
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e1")
     c.node("e2")

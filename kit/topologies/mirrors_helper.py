@@ -79,11 +79,7 @@ def _build(c, pulldown):
     """The exact circuit, its closed forms and R_out form; ``pulldown`` adds R_x."""
     import sympy as sp
 
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("x")
     c.node("b")
     rail, far = ("0", "cc") if npn else ("cc", "0")

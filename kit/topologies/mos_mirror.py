@@ -64,11 +64,7 @@ def build(c):
     """The mirror fed by an ideal reference current from the V_DD side (NMOS) or to 0 V (PMOS)."""
     import sympy as sp
 
-    nmos = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("dd", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if nmos else -1)
+    nmos = c.supply_and_load("dd")
     c.node("g")
     source_rail, far_rail = ("0", "dd") if nmos else ("dd", "0")
     i_ref = c.drifting("I_REF", "i_ref", latex="I_{REF}", budget="reference current I_REF")

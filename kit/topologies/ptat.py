@@ -85,10 +85,8 @@ def build(c):
 
     npn = c.sense == "n"
     core_rail, mirror_rail = ("0", "cc") if npn else ("cc", "0")
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", -1 if npn else 1)  # the mirror's output transistor sources (npn) or sinks
+    # the mirror's output transistor sources (npn core) or sinks (pnp core)
+    c.supply_and_load(sinks=not npn)
     c.node("b")
     c.node("e")
     c.node("p")

@@ -103,11 +103,7 @@ PAIRED_ZENER_TYPICAL = ZENER_TYPICAL | dict(r_z=20.0, tc_z=0.2e-3)
 
 def _source(c):
     """Rails, R_Z, R_E, Q1 and V_BE(on); returns the pieces and the reference's upper and lower node."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     if npn:

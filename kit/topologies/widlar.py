@@ -94,11 +94,7 @@ def widlar_current(i_c1, r_e, n, v_t, beta_2=None):
 
 def _build(c, reference):
     """Rails, the reference, Q1 (diode), Q2 (area N) with R_E; closed forms and R_out forms."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     rail = "0" if npn else "cc"

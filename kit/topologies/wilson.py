@@ -87,11 +87,7 @@ def wilson_ratio(beta_1, beta_2, beta_3, a=1):
 
 def _build(c, four):
     """The exact circuit; ``four`` adds the diode Q4 in Q1's collector."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     for node in ("x", "y") + (("w",) if four else ()):
         c.node(node)
     rail = "0" if npn else "cc"
