@@ -89,6 +89,22 @@ def emitter_return(sheet, at, npn, resistor=None, designator=None):
         elm.Vdd().label(sheet.supply())
 
 
+def mirror_pair(sheet):
+    """Q1 (facing left) and Q2 side by side, bases joined, emitters to their rail.
+
+    The start of every two-transistor mirror drawing; returns ``(q1, q2)``.
+    """
+    import schemdraw.elements as elm
+
+    npn = sheet.sink
+    q1 = transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
+    emitter_return(sheet, q1.emitter, npn)
+    elm.Line().at(q1.base).right(GAP)
+    q2 = transistor(npn, label="Q2").anchor("base")
+    emitter_return(sheet, q2.emitter, npn)
+    return q1, q2
+
+
 def output_terminal(at, npn, text=None, side="right"):
     """The load connection above an NPN collector (below a PNP collector)."""
     import schemdraw.elements as elm

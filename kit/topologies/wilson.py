@@ -174,11 +174,7 @@ def _draw(sheet, d, four):
 
     npn = sheet.sink
     s = 1.0 if npn else -1.0
-    q1 = drawing.transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
-    drawing.emitter_return(sheet, q1.emitter, npn)
-    elm.Line().at(q1.base).right(drawing.GAP)
-    q2 = drawing.transistor(npn, label="Q2").anchor("base")
-    drawing.emitter_return(sheet, q2.emitter, npn)
+    q1, q2 = drawing.mirror_pair(sheet)
     # Q2 diode: collector strapped to the base line; this is node y.
     y_node = (q2.collector[0], q2.collector[1] + s * 0.5)
     elm.Line().at(q2.collector).to(y_node)
