@@ -55,7 +55,6 @@ from kit.topologies import common, drawing
 from kit.topologies.base import Topology, Value
 from kit.words import ISOTHERMAL
 
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated collector junction
 SATURATED_VCE_START = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
 STACK_START = 0.3  # V; least distance kept between the stacked nodes of a start
 LABEL_ROOM = 1.8  # drawing units beside the reference source for its two-line label
@@ -140,7 +139,7 @@ def _start_mirror(c, rail, height):
     i_c1 = i_c2 * q1["I_S"] / q2["I_S"]
     i_c3 = (i_c1 * (1 + 1 / q1["beta"]) + i_c2 / q2["beta"]) * q3["beta"] / (q3["beta"] + 1)
     h_1 = BJT.start(q1.sense, i_c1, q1.symbols)
-    h_3 = sp.Min(h_1 + BJT.start(q3.sense, i_c3, q3.symbols), height + SATURATED_VBC_START)
+    h_3 = sp.Min(h_1 + BJT.start(q3.sense, i_c3, q3.symbols), height + common.SATURATED_VBC_START)
     h_1 = sp.Min(h_1, h_3 - STACK_START)
     h_4 = sp.Min(h_3 - BJT.start(q4.sense, current, q4.symbols), h_3 - STACK_START,
                  height + SATURATED_VCE_START)
@@ -228,9 +227,9 @@ def _start_source(c, rail, height, bias):
     i_c1 = current * (q2["beta"] + 1) / q2["beta"]
     h_e1 = i_c1 * (q1["beta"] + 1) / q1["beta"] * r_e
     h_b1 = h_e1 + BJT.start(q1.sense, i_c1, q1.symbols)
-    h_b2 = sp.Min(drive_2 - r_b2 * current / q2["beta"], height + SATURATED_VBC_START)
+    h_b2 = sp.Min(drive_2 - r_b2 * current / q2["beta"], height + common.SATURATED_VBC_START)
     h_m = sp.Min(h_b2 - BJT.start(q2.sense, current, q2.symbols), height + SATURATED_VCE_START)
-    start_from_rail(c, rail, {"b1": sp.Min(h_b1, h_m + SATURATED_VBC_START),
+    start_from_rail(c, rail, {"b1": sp.Min(h_b1, h_m + common.SATURATED_VBC_START),
                              "e1": sp.Min(h_e1, h_m + SATURATED_VCE_START), "m": h_m, "b2": h_b2})
 
 

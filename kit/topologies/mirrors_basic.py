@@ -80,11 +80,6 @@ GRAY_SEDRA = ("Gray, Hurst, Lewis & Meyer, Analysis and Design of Analog ICs, ch
 DERIVED_EARLY = "derived here (Early law I_C = I_S e^(V_BE/V_T)(1 + V_CE/V_A))"
 R_OUT_LABEL = "R_out = r_o2 = (V_A2 + V_CE2)/I_C2 (exact in the hybrid-π model)"
 
-# In saturation the output collector pulls the shared base node: keep the
-# guessed base-collector forward bias near what carries the reference; this
-# is the least forward bias used.
-SATURATED_VBC_START = 0.3  # V
-
 IDEAL = (BASE_CURRENT_NEGLECTED.key, NO_EARLY.key, FORWARD_ACTIVE.key, ISOTHERMAL.key)
 FINITE_BETA = (NO_EARLY.key, FORWARD_ACTIVE.key, ISOTHERMAL.key)
 EARLY = (FORWARD_ACTIVE.key, ISOTHERMAL.key)
@@ -133,7 +128,7 @@ def _start(c, s, current):
     drop = BJT.start(q1.sense, i_c1, q1.symbols)
     # In saturation Q2's collector-base junction carries up to the input current; the
     # drop that passes it follows temperature and I_S.
-    clamp = sp.Max(BJT.start(q2.sense, i_c1, q2.symbols), SATURATED_VBC_START)
+    clamp = sp.Max(BJT.start(q2.sense, i_c1, q2.symbols), common.LEAST_SATURATED_VBC)
     if c.sense == "n":
         c.start("b", sp.Min(drop, c.voltages["out"] + clamp))
     else:

@@ -68,10 +68,6 @@ VALUES = (
 EQUAL_VBE = assumption("equal_vbe", "equal V_BE in both halves (the junction drops cancel)",
                        excludes=("I_S_", "V_T_"))
 
-# In saturation the output collector pulls the shared base node: the least
-# base-collector forward bias a starting point allows.
-SATURATED_VBC_START = 0.3  # V
-
 GRAY = "Gray, Hurst, Lewis & Meyer, Analysis and Design of Analog ICs, ch. 4 (from memory)"
 R_OUT_LABEL = ("R_out = r_o2[1 + βR_E2/(R_E2 + r_π2 + R_B)] + R_E2‖(r_π2 + R_B), "
                "R_B = R_E1 + 1/(g_m1 + 1/r_π1 + 1/r_o1)")
@@ -131,7 +127,7 @@ def _start(c, q1, q2, r_e1, r_e2, i_ref, i_c1):
     drop = BJT.start(q1.sense, i_c1, q1.symbols) + i_c1 * (1 + 1 / q1["beta"]) * r_e1
     # In saturation Q2's collector-base junction carries up to the reference; the
     # drop that passes it follows temperature and I_S.
-    clamp = sp.Max(BJT.start(q2.sense, i_ref, q2.symbols), SATURATED_VBC_START)
+    clamp = sp.Max(BJT.start(q2.sense, i_ref, q2.symbols), common.LEAST_SATURATED_VBC)
     v_b = sp.Min(drop, v_out + clamp) if npn else sp.Max(v_cc - drop, v_out - clamp)
     drop = v_b if npn else v_cc - v_b
     v_e1 = r_e1 * junction_behind_resistor(drop, r_e1, q1["V_T"], q1["I_S"])

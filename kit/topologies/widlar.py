@@ -63,7 +63,6 @@ WIDLAR = "Widlar, IEEE Trans. Circuit Theory CT-12 (1965), from memory"
 LAMBERT = "Lambert-W solution (Wright ω form) derived here"
 EARLY_SOURCE = "derived here (Early factor 1 + V_CE/V_A on each collector current)"
 
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
 SATURATED_VCE_START = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
 
 R_E = Value("r_e", "Ω", "emitter resistor of the output transistor Q2", 4.7e3, 1e-2, 1e9, "resistor")
@@ -171,7 +170,7 @@ def _start(c, q1, q2, current, diode_current, r_e, height):
     import sympy as sp
 
     diode_current = sp.Max(diode_current, current / 1000)
-    h_b = sp.Min(BJT.start(q1.sense, diode_current, q1.symbols), height + SATURATED_VBC_START)
+    h_b = sp.Min(BJT.start(q1.sense, diode_current, q1.symbols), height + common.SATURATED_VBC_START)
     h_e = sp.Min(current * (1 + 1 / q2["beta"]) * r_e, height + SATURATED_VCE_START)
     if c.sense == "n":
         c.start("b", h_b)

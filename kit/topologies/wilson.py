@@ -52,7 +52,6 @@ from kit.topologies import common, drawing
 from kit.topologies.base import Topology
 from kit.words import ISOTHERMAL
 
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
 STACK_START = 0.3  # V; least distance kept between node x and node y in a start
 LABEL_ROOM = 1.8  # drawing units left of the reference source for its two-line label
 
@@ -143,7 +142,7 @@ def _start(c, rail, height, four):
     a = q1["I_S"] / q2["I_S"]
     i_c2 = current * (q3["beta"] + 1) / q3["beta"] / (1 + 1 / q2["beta"] + a / q1["beta"])
     h_y = BJT.start(q2.sense, i_c2, q2.symbols)
-    h_x = sp.Min(h_y + BJT.start(q3.sense, current, q3.symbols), height + SATURATED_VBC_START)
+    h_x = sp.Min(h_y + BJT.start(q3.sense, current, q3.symbols), height + common.SATURATED_VBC_START)
     heights = {"x": h_x, "y": sp.Min(h_y, h_x - STACK_START, height)}
     if four:
         q4 = c.parts["Q4"]
