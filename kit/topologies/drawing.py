@@ -105,6 +105,23 @@ def mirror_pair(sheet):
     return q1, q2
 
 
+def diode_strap(collector, base, npn, *, rise=LEAD * 0.6, inset=0.8):
+    """Strap a collector (or drain) to its own base (gate) line: the diode connection.
+
+    Rises ``rise`` from ``collector`` toward the far rail, dots the node, and
+    runs back down to the base line ``inset`` beside ``base``.  Returns the node,
+    where the reference feed joins.
+    """
+    import schemdraw.elements as elm
+
+    node = getattr(elm.Line().at(collector), toward_top(npn))(rise).end
+    elm.Dot()
+    elm.Line().at(node).tox(base[0] + inset)
+    elm.Line().toy(base[1])
+    elm.Dot()
+    return node
+
+
 def output_terminal(at, npn, text=None, side="right"):
     """The load connection above an NPN collector (below a PNP collector)."""
     import schemdraw.elements as elm

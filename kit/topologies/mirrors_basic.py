@@ -205,7 +205,6 @@ def _draw(sheet, d, *, resistor=None, extra=False):
     import schemdraw.elements as elm
 
     npn = sheet.sink
-    up = drawing.toward_top(npn)
     n_text = f"N = {sheet['n_area']:g}"
     q1 = drawing.transistor(npn, facing_left=True, label="Q1")
     drawing.emitter_return(sheet, q1.emitter, npn)
@@ -214,11 +213,7 @@ def _draw(sheet, d, *, resistor=None, extra=False):
     drawing.emitter_return(sheet, q2.emitter, npn)
     drawing.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the shared base line.
-    node = getattr(elm.Line().at(q1.collector), up)(drawing.LEAD * 0.6).end
-    elm.Dot()
-    elm.Line().at(node).tox(q1.base[0] + 0.8)
-    elm.Line().toy(q1.base[1])
-    elm.Dot()
+    node = drawing.diode_strap(q1.collector, q1.base, npn)
     drawing.reference_feed(sheet, node, npn, resistor=resistor)
     if extra:
         elm.Line().at(node).left(drawing.GAP)

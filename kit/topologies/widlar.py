@@ -208,11 +208,7 @@ def _draw(sheet, d, resistor=None):
     drawing.emitter_return(sheet, q2.emitter, npn, resistor="r_e", designator="R_E")
     drawing.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the base line.
-    node = getattr(elm.Line().at(q1.collector), drawing.toward_top(npn))(drawing.LEAD * 0.6).end
-    elm.Dot()
-    elm.Line().at(node).tox(q1.base[0] + 0.8)
-    elm.Line().toy(q1.base[1])
-    elm.Dot()
+    node = drawing.diode_strap(q1.collector, q1.base, npn)
     drawing.reference_feed(sheet, node, npn, resistor=resistor)
 
 
