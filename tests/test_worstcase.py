@@ -50,9 +50,34 @@ EVA = ("extreme-value",)
 # scenarios (our own)
 
 def _sink(**changes):
-    """A 1.4 mA sink from a 12 V rail for a sensor-bridge excitation."""
-    values = dict(r1=27e3, r2=8.2e3, r_e=1.5e3, v_supply=12.0, v_load=7.0) | changes
+    """A 1.4 mA sink from a 12 V rail for a sensor-bridge excitation (E24 values:
+    V_TH = 12 V x 12k/48k = 3 V, R_TH = 36k || 12k = 9 kOhm; checked below)."""
+    values = dict(r1=36e3, r2=12e3, r_e=1.6e3, v_supply=12.0, v_load=7.0) | changes
     return kit.design("divider_source", "npn", **values)
+
+
+def test_sink_scenario_is_what_it_says(reference):
+    """The scenario's current by hand and by the independent reference solver.
+
+    Hand: I = beta (V_TH - V_BE) / (R_TH + (beta + 1) R_E) (fixed V_BE with base-current
+    loading; Sedra & Smith, Microelectronic Circuits, BJT biasing, from memory) with
+    beta = 200 (the part's beta_F) and V_BE between 0.6 and 0.7 V (common practice):
+    200 x 2.4 V / 330.6 kOhm = 1.452 mA down to 200 x 2.3 V / 330.6 kOhm = 1.391 mA.
+    The Early effect (V_CE about 4.7 V against V_A = 100 V) raises the effective beta by
+    about 5 %; beta enters only through R_TH/(beta + 1) = 45 Ohm beside R_E = 1.6 kOhm, so
+    the current moves by about 0.1 %, far less than the bracket's 4 % width."""
+    d = _sink()
+    assert d.devices["Q1"].beta_f == 200.0
+    v_th, r_th, r_e, beta = 12.0 * 12e3 / 48e3, 36e3 * 12e3 / 48e3, 1.6e3, 200.0
+    assert (v_th, r_th) == pytest.approx((3.0, 9e3), rel=1e-15)
+    hand = [beta * (v_th - v_be) / (r_th + (beta + 1) * r_e) for v_be in (0.7, 0.6)]
+    assert hand == pytest.approx([1.391e-3, 1.452e-3], abs=1e-6)
+    kit_current = float(_solve(d, {}, False).i_out[0])
+    assert hand[0] < kit_current < hand[1]
+    # the independent hand-written Ebers-Moll solver of tests/conftest.py agrees with the kit
+    r = reference.solve("npn", d.parameters())
+    assert kit_current == pytest.approx(r["i_out"], rel=1e-9)
+    assert 0.6 < r["v_be"] < 0.7 and r["v_ce"] > 4.0  # forward active, far from saturation
 
 
 def _overcompensated(tcr=2.8e-3):
@@ -522,7 +547,7 @@ def test_to_dict_is_strict_json():
 
 def test_to_dict_when_every_point_fails():
     d = _sink()
-    spec = Spec(1.4e-3, 0.05, v_load=(0.5, 1.0), samples=200)  # the sink saturates below ~2.3 V
+    spec = Spec(1.4e-3, 0.05, v_load=(0.5, 1.0), samples=200)  # the sink saturates below ~2.5 V
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         wc = worst_case(d, spec, self_heating=False)
