@@ -220,9 +220,9 @@ def test_unknown_bounds_name_is_refused():
     assert info.value.parameter == "bounds.v_zz"
 
 
-# Names the design does not have are silently dropped today, so a typo gives a worst case
-# without the tolerance the engineer asked for (an optimistic answer).  Each should be a
-# ParameterError naming the entry, as an unknown bounds name already is.
+# A name the design does not have, silently dropped, would give a worst case without the
+# tolerance the engineer asked for (an optimistic answer): each is a ParameterError naming
+# the entry, as an unknown bounds name is.
 UNKNOWN_NAMES = [
     (dict(beta={"NPN": (100.0, 300.0)}), "beta.NPN", _sink),
     (dict(beta={"Q7": (100.0, 300.0)}), "beta.Q7", _sink),

@@ -91,6 +91,7 @@ def test_values_are_standard_values_of_the_named_series(feasible):
     # 5 % resistors: E24 (customary tolerance of the series, common practice)
     assert result.series == "E24"
     table = eseries.E24
+    assert result.candidates
     for candidate in result.candidates:
         d = candidate.design
         for name in d.topology.resistors:
