@@ -256,6 +256,12 @@ def evaluate(design, *, edge="vce_sat"):
             parameter="v_load", value=v_load,
             valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     i_out = float(points.i_out[0])
+    if i_out == 0.0:
+        # Sensitivities, tempco and ledger errors are relative to I_out; a bidirectional
+        # source (the Howland pump) reaches exactly zero at zero drive without offsets.
+        raise OperatingPointError(
+            "the output current is exactly zero here: nothing to weigh sensitivities and errors against",
+            parameter="i_out", value=i_out, valid="a design point with a nonzero output current")
     gradient = dict(zip(model.parameter_names, (float(v) for v in points.di_dp[:, 0])))
     sensitivities = _sensitivities(design, gradient, i_out)
     regions = points.regions(edge)
