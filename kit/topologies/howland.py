@@ -159,7 +159,7 @@ def draw(sheet, d):
     node_p = elm.Dot()
     elm.Resistor().left().label(sheet.label("r1", "R1"), loc="bottom")
     text = f"V_in\n{sheet.text('v_in')}"
-    source = elm.SourceV().down().reverse().label(text, loc="left")
+    source = elm.SourceV().down().reverse().label(text, loc="top")
     elm.Ground()
     drawing.make_room(source.center, "left", text, 0.6)
     elm.Resistor().at(node_p.center).down().label(sheet.label("r2a", "R2a"), loc="bottom")

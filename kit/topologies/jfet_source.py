@@ -109,15 +109,19 @@ def build(c):
 def draw(sheet, d):
     """Schematic with the present values: the JFET, R_S below (above) it, the gate strap."""
     import schemdraw.elements as elm
+    from schemdraw.elements.transistors import fetl  # the gate lead's length
 
     sink = sheet.sink
-    part = (elm.JFetN if sink else elm.JFetP)().theta(0)
-    j1 = part.label("J1", loc="right")
+    # The untyped symbol, reversed so that the gate faces the strap on the left (a
+    # p-channel part also flipped so its source faces the supply), with the arrow
+    # drawn here: into the channel for n, out of it for p.  (schemdraw 0.23's typed
+    # JFET symbols point their arrows the other way round.)
+    part = elm.JFet().theta(0).reverse()
+    j1 = (part if sink else part.flip()).label("J1", loc="right")
+    bar = j1.gate[0] + fetl
+    ends = (bar - 0.35, bar - 0.05) if sink else (bar - 0.1, bar - 0.4)
+    elm.Line(arrow="->").at((ends[0], j1.gate[1])).to((ends[1], j1.gate[1]))
     toward_rail = "down" if sink else "up"
-    # JFetN draws drain up and source down; a p-channel part is drawn flipped so its
-    # source faces the supply above it.
-    if not sink:
-        j1 = j1.flip()
     end = j1.source
     getattr(elm.Line().at(end), toward_rail)(drawing.LEAD * 0.5)
     node = elm.Dot()
