@@ -49,7 +49,7 @@ Examples
 >>> import kit
 >>> ev = kit.evaluate(kit.design("jfet_source", "njfet"))
 >>> round(ev.i_out * 1e3, 3), ev.regions["J1"], round(ev.compliance.low.voltage, 3)
-(1.138, 'saturation', 2.0)
+(1.148, 'saturation', 2.0)
 """
 
 from __future__ import annotations
