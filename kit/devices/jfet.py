@@ -36,8 +36,8 @@ pinch-off magnitude *grows* about 2 mV/K (a p-channel part drifts the same
 way in magnitude).  ``I_DSS = (I_DSS/V_P^2) V_P^2`` therefore falls with
 the mobility, a little less than it: at ``T^-1.5`` near 300 K the
 mobility alone takes off 0.5 %/K.  The two effects cancel at the overdrive
-``v_ov = 2 |tc_vp| T/mu_exp`` (about 0.88 V at 25 degC; the 0.63 V of the
-Siliconix rule for a mobility falling 0.7 %/K) -- the JFET's zero-tempco
+``v_ov = 2 |tc_vp| T/mu_exp`` (about 0.87 V at 25 degC with the typical
+values; the 0.63 V of the Siliconix rule for a mobility falling 0.7 %/K) -- the JFET's zero-tempco
 point.  lambda does not change with temperature in this model.
 
 An n-channel part sinks (``n`` sense), a p-channel part sources (``p``);

@@ -21,26 +21,28 @@ With ``R_2 = R_2a + R_2b`` and the bridge balanced, ``R_4/R_3 = R_2/R_1``::
     I_out = V_in R_2/(R_1 R_2b)       (ideal op-amp)
 
 (the improved Howland of Pease, "A Comprehensive Study of the Howland
-Current Pump", National Semiconductor AN-1515, 2008 -- from memory; here
-derived in SymPy from the nodal equations: the circuit's own Kirchhoff
-equations with U1's gain law are solved exactly for any ratios, gain,
-offset and bias current -- the closed form ``linear_opamp``, exact while
-U1 stays inside its swing -- and its limit of infinite gain, no offset and
-no bias current gives ``ideal_any_ratios``; with the balance it is the
-textbook form above, :func:`balanced_limit` in the tests.)
+Current Pump", National Semiconductor AN-1515, 2008 -- from memory).  Here
+it is derived in SymPy from the nodal equations: the circuit's own
+Kirchhoff equations with U1's gain law are solved exactly for any ratios,
+gain, offset and bias current (the closed form ``linear_opamp``, exact
+while U1 stays inside its swing); its limit for infinite gain, no offset
+and no bias current is ``ideal_any_ratios``, which the balance reduces to
+the form above (the physics test takes that limit on equations written out
+by hand).
 
 Output resistance.  A ratio mismatch leaves a finite R_out; with an ideal
-op-amp (derived here from the nodal equations)::
+op-amp (derived here from the nodal equations, and checked there against
+the exact solve)::
 
     R_out = R_2b (R_1 + R_2a) / (R_2 - R_1 R_4/R_3)
 
 which for ``R_4/R_3 = (1 - eps) R_2/R_1`` is ``R_2b (R_1 + R_2a)/(eps R_2)``
 and, with ``R_2a = 0`` (the basic Howland), Franco's ``R_1/eps`` (Franco,
 *Design with Operational Amplifiers and Analog Integrated Circuits*, ch. 2,
-the Howland current pump -- from memory).  A mismatch either way from
-balance makes R_out infinite at balance, negative past it (the positive
-feedback wins).  The finite gain bounds R_out at balance; the nodal R_out
-of the small-signal models (:func:`kit.circuit.blocks.nodal_output_resistance`)
+the Howland current pump -- from memory).  R_out is infinite at balance
+and negative past it (R_4/R_3 above R_2/R_1: the positive feedback wins).
+The finite gain bounds R_out at balance; the nodal R_out of the
+small-signal models (:func:`kit.circuit.blocks.nodal_output_resistance`)
 carries it.
 
 Compliance: the op-amp output swing.  With an ideal op-amp and the bridge

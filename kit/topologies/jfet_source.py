@@ -148,8 +148,8 @@ NOTES = (
     "R_S on the part in hand, or buy a graded part; the closed form shows the spread's effect.",
     "The regulator needs at least |V_P| across its drain and gate (the load voltage of a sink "
     "above V_P) to stay in saturation.",
-    "The tempco changes sign with the overdrive: near V_GS + V_P ≈ 0.6 … 0.9 V the mobility and "
-    "pinch-off drifts cancel (the zero-tempco point); look at the tempco budget.",
+    "The tempco changes sign with the overdrive: near |V_P| − |V_GS| ≈ 0.6 … 0.9 V the mobility "
+    "and pinch-off drifts cancel (the zero-tempco point); look at the tempco budget.",
     "Gate leakage (doubling about every 10 K) is not modelled; at high temperature and small "
     "currents it adds to the output.",
 ) + common.SAFETY_NOTES
