@@ -205,6 +205,13 @@ def test_equal_tcrs_give_minus_the_tcr():
     assert ev.tempco == pytest.approx(-tcr, rel=1e-6)
 
 
+def test_an_input_past_the_swing_at_every_load_names_the_op_amp():
+    # 50 V in asks for 50 mA into R2b: U1 cannot reach that at any load voltage.
+    with pytest.raises(OperatingPointError) as err:
+        kit.evaluate(pump(v_in=50.0))
+    assert "U1 reaches its output swing limit" in str(err.value)
+
+
 def test_zero_output_current_is_refused_with_its_cause():
     with pytest.raises(OperatingPointError) as err:
         kit.evaluate(pump({"v_os": 0.0, "i_bias": 0.0}, v_in=0.0, v_load=0.0))
