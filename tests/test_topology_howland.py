@@ -206,7 +206,7 @@ def test_equal_tcrs_give_minus_the_tcr():
 
 
 def test_an_input_past_the_swing_at_every_load_names_the_op_amp():
-    # 50 V in asks for 50 mA into R2b: U1 cannot reach that at any load voltage.
+    # 50 V in asks for about 42 mA: U1 cannot deliver that within its swing at any load voltage.
     with pytest.raises(OperatingPointError) as err:
         kit.evaluate(pump(v_in=50.0))
     assert "U1 reaches its output swing limit" in str(err.value)
