@@ -256,6 +256,12 @@ def evaluate(design, *, edge="vce_sat"):
             parameter="v_load", value=v_load,
             valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     i_out = float(points.i_out[0])
+    if i_out == 0.0:
+        # Sensitivities, tempco and ledger errors are relative to I_out; a bidirectional
+        # source (the Howland pump) reaches exactly zero at zero drive without offsets.
+        raise OperatingPointError(
+            "the output current is exactly zero here: nothing to weigh sensitivities and errors against",
+            parameter="i_out", value=i_out, valid="a design point with a nonzero output current")
     gradient = dict(zip(model.parameter_names, (float(v) for v in points.di_dp[:, 0])))
     sensitivities = _sensitivities(design, gradient, i_out)
     regions = points.regions(edge)
@@ -312,6 +318,13 @@ def _supply_error(model, values, design, edge):
         return OperatingPointError(
             "too low to bias the circuit", parameter="v_supply",
             value=values["v_supply"], valid=f"≥ {trial[good[0]]:.3g} V at v_load = {values['v_load']:.3g} V")
+    # Name what stops it at the design's own load voltage: in a circuit whose supply
+    # biases nothing (a Howland pump's input drives it) that is the true cause.
+    nominal = solve_points(model, values)
+    _, keys = nominal.worst_margin(edge)
+    part, cause = keys[0]
+    where = f"{part} {nominal.cause_text(part, cause)}" if part else "the solve fails"
     return OperatingPointError(
-        "no load voltage and no higher supply bias the circuit; check the bias values",
+        f"no load voltage and no higher supply bias the circuit ({where} at "
+        f"v_load = {values['v_load']:.3g} V); check the bias values",
         parameter="v_supply", value=values["v_supply"], valid="a supply and bias that turn the circuit on")
