@@ -45,7 +45,10 @@ VALUES = (
 )
 
 # In saturation the collector pulls the base: keep the guessed base-collector
-# bias modest so Newton starts near the right branch.
+# bias modest so Newton starts near the right branch.  Never more than the
+# start's own V_BE either: a hot junction with a large I_S (V_BE ~ 0.25 V at
+# 400 K) forward biased by 0.55 V would carry amperes, and Newton wanders off
+# with the emitter above the base.
 SATURATED_VBC_START = 0.55  # V
 
 
@@ -93,11 +96,12 @@ def build(c):
     v_be = BJT.start(q1.sense, current, q1.symbols)
     v_re = current * (beta + 1) / beta * r_e
     v_out = c.voltages["out"]
+    v_bc = sp.Min(v_be, SATURATED_VBC_START)
     if npn:
-        v_b = sp.Min(v_re + v_be, v_out + SATURATED_VBC_START)
+        v_b = sp.Min(v_re + v_be, v_out + v_bc)
         c.start("e", v_b - v_be)
     else:
-        v_b = sp.Max(v_cc - v_re - v_be, v_out - SATURATED_VBC_START)
+        v_b = sp.Max(v_cc - v_re - v_be, v_out - v_bc)
         c.start("e", v_b + v_be)
     c.start("b", v_b)
 
