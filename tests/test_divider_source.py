@@ -346,7 +346,6 @@ def test_lambert_sensitivities_equal_the_exact_ones_at_va_inf(evaluated, referen
         "Q1.i_s": value(sens[s["i_s"]]) * o["i_s"] / q1.i_s,
         "temp": value(d_dt),
     }
-    leak = _leakage(ev, o)
     ledger = {e.key: e for e in ev.ledger}["exponential"].sensitivities
     params = design.parameters()
     for parameter, expected in ours.items():
