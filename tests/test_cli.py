@@ -20,6 +20,7 @@ import tomli_w
 
 import kit
 from kit.cli import main
+from kit.model.structure import structure
 from kit.record import load_record
 from kit.topologies import all_topologies
 
@@ -28,7 +29,7 @@ EXAMPLES = sorted((ROOT / "examples").glob("*.toml"))
 # The divider-biased examples.  Other topologies' examples are evaluated by
 # their own tests; evaluating all of them here too would cost minutes on 2 cores
 # (tests/test_record.py still round-trips every example).
-DIVIDER_EXAMPLES = [p for p in EXAMPLES if load_record(p).design.topology == "divider_source"]
+DIVIDER_EXAMPLES = [p for p in EXAMPLES if load_record(p).design.topology.key == "divider_source"]
 
 
 def strict_json(text):
@@ -41,7 +42,7 @@ def strict_json(text):
 def write_record(tmp_path, name="design.toml", **values):
     # A scenario of our own: a 1.2 mA sink for a Hall-plate bias on 12 V.
     document = {
-        "biasbook_record": 1,
+        "biasbook_record": 2,
         "title": "Hall plate bias, 1.2 mA",
         "circuit": {"topology": "divider_source", "polarity": "npn"},
         "values": {"r1": "33k", "r2": "10k", "r_e": "1k8", "v_supply": "12 V", "v_load": "9 V"}
@@ -86,10 +87,22 @@ def test_topologies_json_lists_every_topology_and_what_it_derives(capsys):
     listed = strict_json(out)
     assert code == 0
     assert [t["name"] for t in listed] == [t.key for t in all_topologies()]
-    for entry in listed:
-        for quantity in ("dI/dbeta", "dI/dT", "R_out", "compliance"):
+    for entry, top in zip(listed, all_topologies()):
+        for quantity in ("dI/dT", "R_out", "compliance"):
             assert quantity in entry["derived"], (entry["name"], quantity)
-        assert all(p["range"][0] <= p["default"] <= p["range"][1] for p in entry["parameters"])
+        # dI/dbeta of every bipolar transistor (its forward-gain model parameter beta_f)
+        for part in structure(top, top.polarities[0]).devices:
+            if part.kind.key == "bjt":
+                assert f"dI/d{part.name}.beta_f" in entry["derived"], (entry["name"], part.name)
+        assert all(p["range"][0] <= d <= p["range"][1] for p in entry["parameters"] for d in p["default"].values())
+
+
+def test_topologies_list_the_derivatives_an_evaluation_reports(capsys):
+    code, out, _ = run(capsys, "topologies", "--json")
+    listed = {t["name"]: t["derived"] for t in strict_json(out)}
+    evaluation = kit.evaluate(kit.design("divider_source"))
+    reported = ["T" if s.parameter == "temp" else s.parameter for s in evaluation.sensitivities]
+    assert [d[len("dI/d"):] for d in listed["divider_source"] if d.startswith("dI/d")] == reported
 
 
 def test_topologies_text_has_a_block_per_topology_with_units(capsys):
@@ -117,8 +130,8 @@ def test_example_evaluates_as_json(capsys, example):
     assert result["record"]["title"] == record.title
     # Same code path as the library, so equal to the last bit.
     assert result["evaluation"]["i_out"] == kit.evaluate(record.design, edge=record.edge).i_out
-    for name, transistor in result["evaluation"]["transistors"].items():
-        assert transistor["region"] == "active", name
+    for name, transistor in result["evaluation"]["devices"].items():
+        assert transistor["kind"] == "bjt" and transistor["region"] == "active", name
         # 0.1-10 mA near room temperature: common practice, no source.
         assert 0.55 <= transistor["v_be"] <= 0.75, name
 
