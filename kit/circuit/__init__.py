@@ -23,13 +23,23 @@ Everything here is symbolic (SymPy); nothing numeric happens until
 
 from __future__ import annotations
 
+import importlib
 from dataclasses import dataclass, field
-
-import sympy as sp
 
 from kit.devices.base import BOLTZMANN_OVER_CHARGE
 from kit.devices.resistor import RESISTOR, SOURCE
 from kit.words import ASSUMPTIONS
+
+
+class _Sympy:
+    """SymPy, imported on first use: topology modules import this package, and a warm
+    start (generated code read from the cache) must not pay for importing SymPy."""
+
+    def __getattr__(self, name):
+        return getattr(importlib.import_module("sympy"), name)
+
+
+sp = _Sympy()
 
 
 @dataclass

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-import sympy as sp
+from kit.circuit import sp  # SymPy on first use (see kit.circuit)
 
 
 # --- functions the code generator prints specially --------------------------------
