@@ -73,12 +73,13 @@ def text(evaluation):
         lines.append(f"  {label:<12} {value}")
     c = evaluation.compliance
     lines.append(f"  low edge     {c.low.describe()}; high edge {c.high.describe()}")
-    for key, value in evaluation.r_out_forms.items():
-        lines.append(f"  {key:<12} {resistance(value)}")
+    structure = design.structure
+    for key, value in evaluation.r_out_forms.items():  # beside the exact R_out above
+        lines.append(f"  {'':<12} {resistance(value)}: {structure.extra_label(key)}")
     lines.append("parts")
     for name, p in evaluation.parts.items():
         lines.append(f"  {name}: {p.region}, {_describe_part(evaluation, name)}")
-    lines.append("sensitivities            dI/dp             S = (p/I) dI/dp")
+    lines.append(f"{'sensitivities':<17}{'dI/dp':>16}  S = (p/I) dI/dp")  # over the columns below
     for s in evaluation.sensitivities:
         lines.append(f"  {s.parameter:<14} {_derivative(s):>16}  {_normalised(s)}")
     lines.append("tempco budget")
