@@ -52,7 +52,8 @@ def _value(evaluation, s):
 
 
 def _derivative(s):
-    unit = per("A", "K" if s.parameter == "temp" else s.unit)
+    # A current over a current (a mirror's ratio) keeps its A/A rather than reading as a bare number.
+    unit = per("A", "K" if s.parameter == "temp" else s.unit) or (f"A/{s.unit}" if s.unit else "")
     return format_quantity(s.derivative, unit) if unit else f"{s.derivative:.4g}"
 
 
