@@ -34,7 +34,7 @@ EXIT_BAD_INPUT = 2
 EXIT_NOT_EVALUABLE = 3
 EXIT_CUT_SHORT = 1  # stdout closed before the report was written
 
-EDGE_WORDS = {"vce_sat": "saturated below the part's V_CE(sat)",
+EDGE_WORDS = {"vce_sat": "saturated below its V_CE(sat)",
               "vcb_zero": "saturated once the collector-base junction is forward biased by more than V_T"}
 
 
@@ -153,6 +153,11 @@ def _silence_stdout():
         pass  # stdout is not a real file (a test capture); nothing to flush
 
 
+def _say(text=""):
+    """Print report text: record text is a stranger's, so no byte of it may drive the terminal."""
+    print(terminal_text(text))
+
+
 def _emit_json(value):
     from kit.record import json_ready
 
@@ -192,7 +197,7 @@ def _list_topologies(as_json):
     if as_json:
         _emit_json([report.describe(t) for t in all_topologies()])
     else:
-        print("\n\n".join(report.text(t) for t in all_topologies()))
+        _say("\n\n".join(report.text(t) for t in all_topologies()))
     return EXIT_OK
 
 
@@ -217,25 +222,32 @@ def _evaluate(path, edge, as_json):
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     digest = record.content_hash()
     if as_json:
-        _emit_json({"record": record.to_dict(), "content_hash": digest,
+        _emit_json({"record": record.to_dict(), "content_hash": digest, "migrated": list(record.migrated),
                     "evaluation": report, "cautions": warnings})
         return EXIT_OK
-    print(_record_heading(record, digest, edge))
-    print()
-    print(report)
+    _say(_record_heading(record, digest, edge))
+    _say()
+    _say(report)
     if warnings:
-        print("\ncautions")
-        print("\n".join(f"  ! {w}" for w in warnings))
+        _say("\ncautions")
+        _say("\n".join(f"  ! {w}" for w in warnings))
     return EXIT_OK
 
 
 def _as_field(err, record):
-    """The error naming the record field (``values.r1``), not the kit's flat parameter."""
+    """The error naming the record field (``values.r1``), not the kit's flat parameter,
+    and its value with the parameter's unit (``"500 mV"``, as a record would write it)."""
+    from kit.devices.base import is_real_number
+    from kit.quantities import format_quantity
     from kit.record import field_path
 
-    return type(err)(err.message, parameter=field_path(err.parameter, record.design.topology,
-                                                       record.design.polarity),
-                     value=err.value, valid=err.valid)
+    design = record.design
+    value = err.value
+    words = design.vocabulary
+    if err.parameter in words and is_real_number(value) and words[err.parameter].unit:
+        value = format_quantity(float(value), words[err.parameter].unit, 4)
+    return type(err)(err.message, parameter=field_path(err.parameter, design.topology, design.polarity),
+                     value=value, valid=err.valid)
 
 
 def _record_heading(record, digest, edge):
@@ -243,8 +255,9 @@ def _record_heading(record, digest, edge):
                             f"by {record.author}" if record.author else "") if part]
     lines = [f"record    {record.title}" + (f" ({', '.join(by)})" if by else ""),
              f"file      {record.source}",
-             f"sha256    {digest}",
-             f"edge      {edge}: {EDGE_WORDS[edge]}"]
+             f"sha256    {digest}"]
+    if any(part.kind.key == "bjt" for part in record.design.structure.devices):
+        lines.append(f"edge      {edge}: a bipolar transistor counts as {EDGE_WORDS[edge]}")
     lines += [f"migrated  {note}" for note in record.migrated]
     for name, model in record.design.devices.items():
         lines.append(f"{name:<9} {model.label}")
@@ -286,17 +299,18 @@ def _check(path, as_json, self_heating):
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
-                    "check": result.to_dict()})
+                    "migrated": list(record.migrated), "check": result.to_dict()})
     else:
-        print(_record_heading(record, record.content_hash(), record.edge))
-        print()
-        print(text(result))
+        _say(_record_heading(record, record.content_hash(), record.edge))
+        _say()
+        _say(text(result))
     return EXIT_OK if result.met else EXIT_SPEC_NOT_MET
 
 
 def _synthesize(path, as_json, every):
     from kit.analysis.synthesis import synthesize
     from kit.report import text
+    from kit.report.worstcase import spec_line
 
     record, code = _record_with_spec(path, as_json)
     if record is None:
@@ -306,10 +320,12 @@ def _synthesize(path, as_json, every):
     result = synthesize(record.spec, topologies=topologies, polarities=[design.polarity])
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
-                    "synthesis": result.to_dict()})
+                    "migrated": list(record.migrated), "synthesis": result.to_dict()})
     else:
-        print(f"record    {record.title}\nspec      {record.spec.i_target:g} A ± {record.spec.tolerance:.2%}\n")
-        print(text(result))
+        _say(_record_heading(record, record.content_hash(), record.edge))
+        _say(f"spec      {spec_line(record.spec)}")
+        _say()
+        _say(text(result))
     return EXIT_OK if result.best is not None else EXIT_SPEC_NOT_MET
 
 
@@ -326,7 +342,7 @@ def _review(source, output, with_code, keep_html):
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT if err.parameter in ("source", "file") or
                         type(err).__name__ == "RecordError" else EXIT_NOT_EVALUABLE, False)
-    print(output)
+    _say(output)
     return EXIT_OK
 
 
@@ -352,10 +368,10 @@ def _new(topology, output, record_path, polarity):
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT, False)
     if os.path.exists(output):
-        print(f"biasbook: {output} exists; not overwritten", file=sys.stderr)
+        print(f"biasbook: {terminal_text(output)} exists; not overwritten", file=sys.stderr)
         return EXIT_BAD_INPUT
     nbformat.write(notebook, output)
-    print(output)
+    _say(output)
     return EXIT_OK
 
 

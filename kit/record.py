@@ -180,8 +180,8 @@ def _finite_number(raw, field, unit, valid, allow_inf):
                         f"at most {LONGEST_QUANTITY_TEXT} characters, e.g. \"4k7\" or \"12 V\"")
         try:
             return _parse_quantity(raw, unit, name=field, allow_inf=allow_inf)
-        except ParameterError as err:  # err.valid lists the accepted spellings
-            raise _from_kit(err, field) from None
+        except ParameterError as err:  # err.valid lists the accepted spellings; add the range
+            raise _fail(err.message, field, raw, f"{valid}, written as {err.valid}") from None
     if isinstance(raw, int):
         try:
             value = float(raw)
@@ -203,6 +203,8 @@ def _parse_quantity(text, unit, **kwargs):
 
 
 def _span(low, high, unit):
+    if unit == "%":  # the kit holds fractions; people read per cent
+        return f"{100 * low:g} … {100 * high:g} % (a bare number is a fraction: 0.05 is 5 %)"
     return f"{low:g} … {high:g} {unit}".rstrip()
 
 
@@ -360,7 +362,8 @@ def _pair_of(raw, field, unit, limits):
         raise _fail("must be a pair [low, high]", field, raw, _span(*limits, unit))
     low, high = (_number(v, f"{field}[{k}]", unit, limits) for k, v in enumerate(raw))
     if low > high:
-        raise _fail("low end above high end", field, raw, "low <= high")
+        raise _fail("low end above high end", field, f"[{low:g}, {high:g}] {unit}".rstrip(),
+                    "low <= high")
     return (low, high)
 
 

@@ -245,7 +245,7 @@ def factors(spec, design):
         tol = spec.tolerances.get(name, spec.resistor_tolerance)
         if tol:
             out.append(Factor(name, params[name], params[name] * (1 - tol), params[name] * (1 + tol),
-                              "part", label=f"{name} ±{tol:.3g}"))
+                              "part", label=f"{name} ±{100 * tol:.3g} %"))
     for name in top.resistors:
         tcr = spec.tcrs.get(name, spec.resistor_tcr)
         if tcr and spec.temp is not None:
