@@ -84,6 +84,24 @@ def build_parser():
     synth.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     synth.add_argument("--all", action="store_true",
                        help="try every topology (default: the record's own), same polarity")
+    spread_cmd = commands.add_parser(
+        "spread", help="the four questions of a current source: compliance, gain spread, tempco, supply",
+        description="For the record's design: the current and its compliance range; how much the "
+                    "current moves over a gain range (base-current part) and across the load range "
+                    "(output-conductance part), and both together; the tempco with the gain held "
+                    "constant and rising; and, with --supply, over a supply range.")
+    spread_cmd.add_argument("record", metavar="RECORD.toml", help="a design record file")
+    spread_cmd.add_argument("--beta", metavar="LO:HI",
+                            help="gain range of the bipolar transistors (default: the record's [spec] "
+                                 "range, else half to twice the nominal gain)")
+    spread_cmd.add_argument("--beta-rise", metavar="RATE",
+                            help="linear rise of the gain with temperature, e.g. '0.5 %%/K' "
+                                 "(default: the devices' own law)")
+    spread_cmd.add_argument("--supply", metavar="LO:HI", help="supply range in V, e.g. 10:14")
+    spread_cmd.add_argument("--load", metavar="LO:HI",
+                            help="load-voltage range in V (default: the record's [spec] range, else "
+                                 "from the compliance edge to the supply for a sink, 0 V for a source)")
+    spread_cmd.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     review = commands.add_parser(
         "review", help="design-review PDF of a notebook or a record",
         description="Execute a design notebook (or a record through the standard template) in a "
@@ -133,6 +151,8 @@ def main(argv=None):
             return _check(args.record, args.json, not args.no_self_heating)
         if args.command == "synthesize":
             return _synthesize(args.record, args.json, args.all)
+        if args.command == "spread":
+            return _spread(args)
         if args.command == "review":
             return _review(args.source, args.output, args.with_code, args.keep_html)
         if args.command == "new":
@@ -330,6 +350,63 @@ def _synthesize(path, as_json, every):
 
 
 # --- review, new ----------------------------------------------------------------------
+
+def _range_option(text, option, unit):
+    """``"10:14"`` -> ``(10.0, 14.0)``; a usage error naming the option otherwise."""
+    from kit.errors import ParameterError
+    from kit.quantities import parse_quantity
+
+    if text is None:
+        return None
+    parts = text.split(":")
+    if len(parts) != 2:
+        raise ParameterError("needs two values as LO:HI", parameter=option, value=text,
+                             valid=f"e.g. 10:14 (in {unit})" if unit else "e.g. 80:300")
+    return tuple(parse_quantity(part.strip(), unit or None, name=option) for part in parts)
+
+
+def _spread(args):
+    """``biasbook spread``: :func:`kit.analysis.spread.spread` on a record's design."""
+    from kit import report
+    from kit.analysis.spread import spread
+    from kit.quantities import parse_quantity
+    from kit.record import load_record
+
+    try:
+        record = load_record(args.record)
+        beta = _range_option(args.beta, "--beta", "")
+        supply = _range_option(args.supply, "--supply", "V")
+        load = _range_option(args.load, "--load", "V")
+        rise = None if args.beta_rise is None else parse_quantity(args.beta_rise, "1/K", name="--beta-rise")
+    except DesignError as err:
+        return _failure(err, EXIT_BAD_INPUT, args.json)
+    spec, said = record.spec, {"beta_source": "given", "load_source": "given"}
+    # an option the user wrote is theirs to correct (exit 2); the record's are the design's
+    options = {"beta": "--beta", "beta_rise": "--beta-rise", "supply": "--supply"}
+    if load is not None:
+        options["v_load"] = "--load"
+    if beta is None and spec is not None and spec.beta:
+        ranges = list(spec.beta.values())
+        beta, said["beta_source"] = (min(r[0] for r in ranges), max(r[1] for r in ranges)), "the record's [spec]"
+    if load is None and spec is not None and spec.v_load is not None:
+        load, said["load_source"] = spec.v_load, "the record's [spec]"
+    try:
+        result = spread(record.design, beta=beta, beta_rise=rise, supply=supply, v_load=load,
+                        edge=record.edge, **said)
+    except DesignError as err:
+        if err.parameter in options:
+            return _failure(type(err)(err.message, parameter=options[err.parameter], value=err.value,
+                                      valid=err.valid), EXIT_BAD_INPUT, args.json)
+        return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, args.json)
+    if args.json:
+        _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
+                    "spread": result.to_dict()})
+        return EXIT_OK
+    _say(_record_heading(record, record.content_hash(), record.edge))
+    _say()
+    _say(report.text(result))
+    return EXIT_OK
+
 
 def _review(source, output, with_code, keep_html):
     from kit.review.build import build_review
