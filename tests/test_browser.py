@@ -124,7 +124,7 @@ def test_tour_panel_moves_with_typed_values(lab):
 
     import numpy as np
 
-    from kit.evaluation import sweep
+    from kit.analysis.evaluation import sweep
 
     errors = []
     with sync_playwright() as p:

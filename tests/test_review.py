@@ -21,6 +21,7 @@ import kit
 from kit.cli import main
 from kit.quantities import format_quantity
 from kit.record import load_record
+from kit.report.evaluation import headline
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"
@@ -130,7 +131,7 @@ def test_review_text_holds_title_block_numbers_and_cautions(reviewed):
     assert record.content_hash() in flat  # the hash names exactly what was reviewed
     assert f"biasbook {kit.__version__}" in flat and "SymPy" in flat and "NumPy" in flat
     # the headline numbers as the kit computes and formats them
-    assert evaluation.headline()["I_out"] in flat
+    assert headline(evaluation)["I_out"] in flat
     assert format_quantity(evaluation.compliance.low.voltage, "V") in flat
     assert "licensed practitioner" in flat and "dissipation" in flat
     assert "extreme-value" in flat and "Monte Carlo" in flat  # the spec, method by method
