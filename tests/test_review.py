@@ -194,3 +194,26 @@ def test_review_refuses_what_it_cannot_read(tmp_path, capsys):
     assert code == 2 and "source" in err
     code, _, err = run(capsys, "review", str(tmp_path / "missing.ipynb"), "-o", str(tmp_path / "x.pdf"))
     assert code == 2
+
+
+@pytest.mark.parametrize("polarity", ["nmos", "pmos"])
+def test_mosfet_balances_name_the_drain_current_and_lose_nothing(polarity):
+    # A review prints the exact equations: the MOSFET's four-case drain current is
+    # named in the node balances and written out once (common practice, no source).
+    # Putting the written-out law back must give the very balances the solve uses.
+    import sympy as sp
+
+    from kit import report
+    from kit.analysis.derivation import derivation
+
+    der = derivation(kit.design("opamp_mos_source", polarity))
+    assert any("I_{D,M1}" in r for r in der.residuals_latex)
+    assert not any(r"\begin{cases}" in r for r in der.residuals_latex)
+    assert len(der.laws_latex) == 1 and der.laws_latex[0].startswith("I_{D,M1} = ")
+    named = der.named_currents()
+    back = {symbol: expression for symbol, _, expression in named}
+    swap = {expression: symbol for symbol, _, expression in named}
+    for residual in der.equations.residuals:
+        assert sp.simplify(residual.subs(swap).subs(back) - residual) == 0
+    html = report.html(der)
+    assert "I_{D,M1} = " in html and "part currents" in html

@@ -51,7 +51,7 @@ class Derivation:
     def unknowns_latex(self):
         return [self.latex(u) for u in self.equations.unknowns]
 
-    def _named_currents(self):
+    def named_currents(self):
         """``[(symbol, LaTeX name, expression)]`` of every part current that is a case split.
 
         A MOSFET's drain current (both directions, above and below threshold,
@@ -71,7 +71,7 @@ class Derivation:
     @property
     def residuals_latex(self):
         """The exact KCL residuals, one LaTeX line per unknown node (case-split currents by name)."""
-        named = self._named_currents()
+        named = self.named_currents()
         labels = dict(self.equations.labels) | {symbol.name: (text,) for symbol, text, _ in named}
         swap = {expression: symbol for symbol, _, expression in named}
         return [latex(r.subs(swap), labels) + " = 0" for r in self.equations.residuals]
@@ -79,7 +79,7 @@ class Derivation:
     @property
     def laws_latex(self):
         """``I_{D,M1} = ...``: each part current the residuals name, written out in full."""
-        return [f"{text} = {self.latex(expression)}" for _, text, expression in self._named_currents()]
+        return [f"{text} = {self.latex(expression)}" for _, text, expression in self.named_currents()]
 
     def closed_form(self, key):
         """SymPy expression of closed form ``key``."""
