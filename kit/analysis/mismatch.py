@@ -166,7 +166,7 @@ def group_factors(spec, design, found):
                 targets = tuple((f"{m}.beta_f", "scale", bounds) for m in group.members)
                 out.append(Factor("+".join(group.members) + ".beta_f", first.beta_f, bounds[0], bounds[1],
                                   "part", spec.beta_distribution,
-                                  label=f"β_F of {group.text} (matched, one value)",
+                                  label=f"β_F of {group.text} (matched)",
                                   targets=targets, group=group.members))
         for name, (kind, parameter, law, words) in MISMATCHES.items():
             if kind != group.kind:
@@ -251,7 +251,7 @@ def slopes(box_factors, di_dp, index, base, v_t):
                     "relative": p, "offset": 1.0}[law]
             row = row + di_dp[index[target]] * rate
         rows.append(np.asarray(row, dtype=float))
-    return np.array(rows)
+    return np.array(rows) if rows else np.zeros((0, np.shape(di_dp)[-1]))
 
 
 def output_mismatch(box_factors, slope, current):

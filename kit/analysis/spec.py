@@ -354,7 +354,7 @@ def factors(spec, design):
                                      parameter=field, valid=f"one entry for {group.text}")
             varied |= {t for t, _, _ in targets}
             out.append(Factor(f"{'+'.join(group.members)}.{own}", params[name], low, high, "part",
-                              label=f"{own} of {group.text} (matched, one value)", targets=targets,
+                              label=f"{own} of {group.text} (matched)", targets=targets,
                               group=group.members))
             continue
         out.append(Factor(name, params[name], low, high, "part", label=name))
