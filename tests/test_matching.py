@@ -27,7 +27,7 @@ import math
 
 import numpy as np
 import pytest
-from scipy import constants
+from scipy import constants, stats
 
 import kit
 from kit.analysis.spec import Spec, factors
@@ -136,10 +136,14 @@ def test_basic_mirror_mismatch_sigma_is_delta_vbe_over_vt(bound):
     # exact bound: the pair at +-bound/2 gives m = exp(+-bound/V_T) (junction law); the larger swing
     assert out.bound == pytest.approx(law(math.exp(bound / v_t)) - law(1.0), rel=1e-6)
     # Monte Carlo: the sample sigma of the current, within 3 standard errors (plus the
-    # second-order term of the exponential, (sigma/V_T)^2 / 2 relative)
+    # second-order term of the exponential, (sigma/V_T)^2 / 2 relative).  Each member's
+    # Gaussian is cut at the guarantee's ±bound/2, i.e. ±(3/sqrt 2) sigma_member: the
+    # sigma of a cut Gaussian from scipy.stats.truncnorm
     current = wc.methods["Monte Carlo"].arrays["current"][:, 0]
     n = current.size
-    expected = sigma_pair / v_t
+    cut = 3 / math.sqrt(2)
+    expected = sigma_pair / v_t * stats.truncnorm(-cut, cut).std()
+    assert current.min() >= wc.methods["extreme-value"].low and current.max() <= wc.methods["extreme-value"].high
     assert abs(np.std(current, ddof=1) / wc.nominal - expected) < (
         3 * expected / math.sqrt(2 * (n - 1)) + expected ** 2)
     # the budget: the mismatch is a row of its own
@@ -185,7 +189,9 @@ def test_mos_mirror_mismatch_follows_the_area_law(area):
     assert out.relative_sigma == pytest.approx(law, rel=1e-6)
     current = wc.methods["Monte Carlo"].arrays["current"][:, 0]
     n = current.size
-    assert abs(np.std(current, ddof=1) / wc.nominal - law) < 3 * law / math.sqrt(2 * (n - 1)) + law ** 2
+    cut = 3 / math.sqrt(2)  # each member's Gaussian cut at the guarantee's bound (scipy.stats.truncnorm)
+    drawn = law * stats.truncnorm(-cut, cut).std()
+    assert abs(np.std(current, ddof=1) / wc.nominal - drawn) < 3 * drawn / math.sqrt(2 * (n - 1)) + law ** 2
 
 
 def test_pelgrom_halves_sigma_for_four_times_the_area():

@@ -379,9 +379,11 @@ def test_matched_group_draws_one_gain():
     assert abs(r) < 4 / math.sqrt(n)
 
     # with a gain mismatch bound m (3 sigma of the difference of two members), the ratio of
-    # the members' gains is 1 + (d2 - d1) with d1, d2 independent of sigma m/(3 sqrt 2):
-    # its standard deviation is m/3 (to first order), within the standard error of a sample
-    # standard deviation, sigma/sqrt(2(N - 1)) (common practice), away from the range's ends
+    # the members' gains is 1 + (d2 - d1) with d1, d2 independent of sigma m/(3 sqrt 2), each
+    # cut at ±m/2 (the guarantee's bound): its standard deviation is m/3 times the sigma of a
+    # Gaussian cut at ±3/sqrt(2) (scipy.stats.truncnorm), to first order, within the standard
+    # error of a sample standard deviation, sigma/sqrt(2(N - 1)) (common practice), away from
+    # the range's ends; and no two members differ by more than the bound
     m = 0.05
     loose = worst_case(d, Spec(0.69e-3, 0.05, beta={"npn": (100.0, 300.0)}, matched=(("Q1", "Q2"),),
                                mismatch_beta=m, samples=n, seed=2),
@@ -389,8 +391,9 @@ def test_matched_group_draws_one_gain():
     common = loose.arrays["draws"]["Q1+Q2.beta_f"]
     inside = (common > 110.0) & (common < 270.0)  # no member clipped at the range's ends
     ratio = (loose.arrays["draws"]["Q2.beta_f"] / loose.arrays["draws"]["Q1.beta_f"])[inside]
-    sigma = m / 3
+    sigma = m / 3 * stats.truncnorm(-3 / math.sqrt(2), 3 / math.sqrt(2)).std()
     assert abs(np.std(ratio) - sigma) < 3 * sigma / math.sqrt(2 * (inside.sum() - 1)) + 2 * sigma ** 2
+    assert np.all(np.abs(ratio - 1) <= m * (1 + m))
     assert abs(np.mean(ratio) - 1) < 4 * sigma / math.sqrt(inside.sum())
 
 

@@ -18,9 +18,13 @@ A spec gives each mismatch as a **bound on the difference of two members**,
 taken as 3 σ of that difference (an assumption, stated in reports, like a
 ± tolerance in RSS).  Each member then deviates from the group's mean by a
 Gaussian of ``σ_member = σ_pair/sqrt(2)`` (two independent members differ by
-``σ_pair``) in Monte Carlo and RSS, and lies within ``±bound/2`` of it in the
+``σ_pair``) in RSS and Monte Carlo, and lies within ``±bound/2`` of it in the
 extreme-value analysis, so that any two members differ by at most the
-bound.  With the area law a member of gate area ``A_i`` has ``σ_member =
+bound.  Monte Carlo cuts each member's Gaussian at that ``±bound/2`` (the
+bound is a maximum: parts beyond it are rejected), so its samples stay
+points of the guaranteed box; the cut Gaussian's standard deviation is
+about 0.90 of ``σ_member``.  The output's mismatch ``sigma`` is reported
+for the uncut Gaussian (the usual first-order figure).  With the area law a member of gate area ``A_i`` has ``σ_member =
 A_P/sqrt(2 A_i)`` and the guarantee takes it within ``±(3/sqrt 2) σ_member``.
 
 Matched groups come from the spec (``matched``) and from the topology:

@@ -289,13 +289,17 @@ def _draw_parts(parts, block):
     """One block of samples of the parts (see SeededColumns: one column per call, in this order).
 
     A matched group draws one common value (one factor); each member's
-    mismatch is Gaussian with its own sigma, by the inverse normal CDF of a
-    uniform column (so every column stays one uniform draw of the seed).
+    mismatch is Gaussian with its own sigma, cut at the guarantee's bound (a
+    datasheet's maximum: parts beyond it are not shipped, and a Monte Carlo
+    sample stays a point of the box), by the inverse normal CDF of a uniform
+    column between the bound's probabilities (so every column stays one
+    uniform draw of the seed).
     """
     draws = {}
     for f in parts:
         if f.distribution == "normal":
-            draws[f.name] = f.sigma * special.ndtri(block.uniform(0.0, 1.0))
+            ends = special.ndtr(np.array([f.low, f.high]) / f.sigma)
+            draws[f.name] = f.sigma * special.ndtri(block.uniform(*ends))
         elif f.distribution == "log-uniform" and f.low > 0:
             draws[f.name] = np.exp(block.uniform(np.log(f.low), np.log(f.high)))
         else:
@@ -376,7 +380,8 @@ def _monte_carlo(box, box_factors):
         "percentiles": percentiles, "percentile_resolution": hist.width if hist.count else None,
         "valid_points": int(hist.count), "failing_samples": n - tally.passing,
         "kept_samples": int(tally.passed.size),
-        "distributions": {f.name: (f"normal, sigma {f.sigma:.4g}" if f.distribution == "normal" else
+        "distributions": {f.name: (f"normal, sigma {f.sigma:.4g}, cut at ±{f.high:.4g}"
+                                   if f.distribution == "normal" else
                                    "log-uniform" if f.distribution == "log-uniform" else "uniform")
                           for f in parts},
         "matched": [list(g) for g in dict.fromkeys(f.group for f in parts if f.group)],
