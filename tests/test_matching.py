@@ -261,3 +261,60 @@ def test_json_budget_has_a_mismatch_row():
     (out,) = data["mismatch"]
     assert out["group"] == ["Q1", "Q2"] and out["sigma"] > 0 and out["bound"] > out["sigma"]
     assert data["methods"]["Monte Carlo"]["detail"]["matched"] == [["Q1", "Q2"]]
+
+
+# --------------------------------------------------------------------------------------
+# the record: [spec] fields, and the example of a matched dual
+
+EXAMPLE = "examples/basic_mirror_rref-matched-dual-electret-bias.toml"
+
+
+def test_example_record_reads_its_mismatch_and_reports_it():
+    from pathlib import Path
+
+    from kit.record import load_record
+
+    rec = load_record(Path(__file__).parent.parent / EXAMPLE)
+    spec = rec.spec
+    assert spec.matched == (("Q1", "Q2"),)
+    assert (spec.mismatch_vbe, spec.mismatch_beta) == pytest.approx((1e-3, 0.10), rel=1e-12)
+    wc = worst_case(rec.design, spec)
+    (out,) = wc.mismatch
+    # Gray et al. (from memory): sigma(dI/I) = sigma(dV_BE)/V_T, the record's 1 mV taken as 3 sigma;
+    # the base currents and the Early effect change it by a few parts per thousand here
+    assert out.relative_sigma == pytest.approx(1e-3 / 3 / _v_t(rec.design), rel=0.01)
+    assert [b.kind for b in wc.budget].count("mismatch") == 1
+    assert wc.met  # the example is a design that passes its own spec
+
+
+def _record_text(spec_lines):
+    return "\n".join(["biasbook_record = 2", 'title = "t"', "[circuit]", 'topology = "mos_mirror"',
+                      'polarity = "nmos"', "[values]", 'i_ref = "2 mA"', 'i_ref_tc = 0',
+                      'w_ratio = 1', 'v_supply = "12 V"', 'v_load = "6 V"', "[spec]", 'current = "2 mA"', 'tolerance = "10 %"', *spec_lines])
+
+
+@pytest.mark.parametrize("lines, field", [
+    (['matched = [["M1", "M2"]]', "a_vth = 5e-9", "gate_area = 20.0"], "spec.gate_area"),
+    (['matched = [["M1", "M2"]]', 'mismatch_vth = "2 V"'], "spec.mismatch_vth"),
+    (['matched = [["M1", "M2"]]', 'mismatch = "2 %"', 'mismatch_beta = "2 %"'], "spec.mismatch"),
+    (["mismatch_vth = \"1 mV\""], "spec.mismatch_vth"),  # no matched group for it
+])
+def test_record_mismatch_errors_name_the_field(tmp_path, lines, field):
+    from kit.errors import RecordError
+    from kit.record import load_record
+
+    path = tmp_path / "r.toml"
+    path.write_text(_record_text(lines), encoding="utf-8")
+    with pytest.raises(RecordError) as info:
+        load_record(path)
+    assert info.value.parameter == field
+
+
+def test_record_area_law_fields(tmp_path):
+    from kit.record import load_record
+
+    path = tmp_path / "r.toml"
+    path.write_text(_record_text(['matched = [["M1", "M2"]]', "a_vth = 5e-9", "a_k = 1e-8",
+                                  "gate_area = { M1 = 1e-10, M2 = 4e-10 }"]), encoding="utf-8")
+    spec = load_record(path).spec
+    assert spec.gate_area_of("M2") == 4e-10 and spec.a_vth == 5e-9
