@@ -290,7 +290,8 @@ def test_example_record_reads_its_mismatch_and_reports_it():
 def _record_text(spec_lines):
     return "\n".join(["biasbook_record = 2", 'title = "t"', "[circuit]", 'topology = "mos_mirror"',
                       'polarity = "nmos"', "[values]", 'i_ref = "2 mA"', 'i_ref_tc = 0',
-                      'w_ratio = 1', 'v_supply = "12 V"', 'v_load = "6 V"', "[spec]", 'current = "2 mA"', 'tolerance = "10 %"', *spec_lines])
+                      'w_ratio = 1', 'v_supply = "12 V"', 'v_load = "6 V"', "[spec]", 'current = "2 mA"',
+                      'tolerance = "10 %"', *spec_lines])
 
 
 @pytest.mark.parametrize("lines, field", [

@@ -24,7 +24,8 @@ bound.  Monte Carlo cuts each member's Gaussian at that ``±bound/2`` (the
 bound is a maximum: parts beyond it are rejected), so its samples stay
 points of the guaranteed box; the cut Gaussian's standard deviation is
 about 0.90 of ``σ_member``.  The output's mismatch ``sigma`` is reported
-for the uncut Gaussian (the usual first-order figure).  With the area law a member of gate area ``A_i`` has ``σ_member =
+for the uncut Gaussian (the usual first-order figure).  With the area law
+a member of gate area ``A_i`` has ``σ_member =
 A_P/sqrt(2 A_i)`` and the guarantee takes it within ``±(3/sqrt 2) σ_member``.
 
 Matched groups come from the spec (``matched``) and from the topology:
@@ -191,7 +192,8 @@ def check_used(spec, found):
     """Refuse a mismatch the design has no matched group of the right kind for (it would do nothing)."""
     kinds = {g.kind for g in found}
     for name, (kind, _, _, _) in MISMATCHES.items():
-        given = getattr(spec, name) or (name == "mismatch_vth" and spec.a_vth) or (name == "mismatch_k" and spec.a_k)
+        constant = {"mismatch_vth": spec.a_vth, "mismatch_k": spec.a_k}.get(name, 0.0)
+        given = getattr(spec, name) or constant
         if given and kind not in kinds:
             what = "bipolar" if kind == "bjt" else "MOSFET"
             raise ParameterError(f"no matched {what} group in this design for it to act on",
