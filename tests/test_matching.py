@@ -91,6 +91,12 @@ def test_wilson_matched_bound_is_the_published_ratio(polarity):
     mc = matched.methods["Monte Carlo"]
     assert eva.low <= mc.low * (1 + 1e-9) and mc.high <= eva.high * (1 + 1e-9)
     assert eva.high - eva.low < 3 * (mc.high - mc.low)  # "within a few times the Monte Carlo spread"
+    # RSS: the one common gain, linear: ±3 sigma = |dI/dβ| x half range, with the slope of
+    # the same law, d/dβ [1 - 2/(β²+2β+2)] = 2(2β+2)/(β²+2β+2)² (differentiated here)
+    b = d.devices["Q1"].beta_f
+    slope = 100e-6 * 2 * (2 * b + 2) / (b * b + 2 * b + 2) ** 2
+    rss = matched.methods["RSS"]
+    assert rss.high - rss.low == pytest.approx(2 * slope * (b_hi - b_lo) / 2, rel=1e-5)
     # unmatched, each gain on its own: a far wider bound (the matched one is the circuit's merit)
     free = worst_case(d, Spec(100e-6, 0.05, beta={polarity: (b_lo, b_hi)}, samples=50), self_heating=False,
                       methods=("extreme-value",)).methods["extreme-value"]
