@@ -325,3 +325,15 @@ def test_record_area_law_fields(tmp_path):
                                   "gate_area = { M1 = 1e-10, M2 = 4e-10 }"]), encoding="utf-8")
     spec = load_record(path).spec
     assert spec.gate_area_of("M2") == 4e-10 and spec.a_vth == 5e-9
+
+
+def test_record_older_mismatch_name_is_the_gain_mismatch(tmp_path):
+    from kit.record import load_record
+
+    path = tmp_path / "r.toml"
+    path.write_text("\n".join(["biasbook_record = 2", 'title = "t"', "[circuit]", 'topology = "basic_mirror"',
+                               'polarity = "npn"', "[values]", 'i_ref = "350 uA"', "i_ref_tc = 0", "n_area = 1",
+                               'v_supply = "9 V"', 'v_load = "4.5 V"', "[spec]", 'current = "350 uA"',
+                               'tolerance = "5 %"', 'matched = [["Q1", "Q2"]]', 'mismatch = "4 %"']),
+                    encoding="utf-8")
+    assert load_record(path).spec.mismatch_beta == pytest.approx(0.04, rel=1e-12)
