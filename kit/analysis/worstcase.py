@@ -407,16 +407,17 @@ def _budget(box, box_factors, nominal_points):
         if f.kind == "mismatch":
             groups.setdefault(f.group, []).append(f)
     corners, count = _condition_corners(box_factors)
+    slope = dict(zip((f.name for f in box_factors), box.slopes(nominal_points, box_factors)[:, 0]))
+    grids = [_mismatch_corners(members, slope) for members in groups.values()]
     # nominal parts, then each part at its low and high end, then each group's mismatch corners
-    blocks = [1] + [2] * len(parts) + [2 ** len(members) for members in groups.values()]
+    blocks = [1] + [2] * len(parts) + [len(grid[members[0].name]) for grid, members in zip(grids, groups.values())]
     rows = sum(blocks)
     changes = {f.name: np.full((rows, count), f.nominal) for f in parts}
     for i, f in enumerate(parts):
         changes[f.name][1 + 2 * i] = f.low
         changes[f.name][2 + 2 * i] = f.high
     start = 1 + 2 * len(parts)
-    for members in groups.values():
-        grid = _corner_values(members)
+    for grid, members in zip(grids, groups.values()):
         for f in members:
             changes[f.name] = np.full((rows, count), f.nominal)
             changes[f.name][start:start + len(grid[f.name])] = grid[f.name][:, None]
@@ -438,7 +439,7 @@ def _budget(box, box_factors, nominal_points):
         moved = moved_points.i_out.reshape(len(conditions), 2)
         swings += [_largest_change(m, nominal_points.i_out[0], k) for m, k in zip(moved, moved_ok)]
     total = float(sum(swings)) or 1.0
-    slope = dict(zip((f.name for f in box_factors), np.abs(box.slopes(nominal_points, box_factors)[:, 0])))
+    slope = {name: abs(value) for name, value in slope.items()}
     rows_of = ([(f.name, f.label, f.kind, slope[f.name] * f.half_range) for f in parts]
                + [("+".join(group) + ".mismatch", f"mismatch within {', '.join(group)}", "mismatch",
                    sum(slope[f.name] * f.half_range for f in members)) for group, members in groups.items()]
@@ -446,6 +447,17 @@ def _budget(box, box_factors, nominal_points):
     entries = [BudgetEntry(name, label, kind, float(s), float(linear), float(s / total))
                for (name, label, kind, linear), s in zip(rows_of, swings)]
     return sorted(entries, key=lambda e: -e.swing)
+
+
+def _mismatch_corners(members, slope):
+    """Corners of one group's mismatch bounds: all of them, or for a large group the two
+    extreme corners by the signs of the exact sensitivities and random ones besides."""
+    if len(members) <= MAX_CORNER_FACTORS:
+        return _corner_values(members)
+    signs = np.array([slope[f.name] > 0 for f in members], dtype=float)
+    pick = np.random.default_rng(len(members)).integers(0, 2, size=(1024, len(members))).astype(float)
+    pick = np.vstack([signs, 1 - signs, pick])
+    return {f.name: f.low + pick[:, i] * (f.high - f.low) for i, f in enumerate(members)}
 
 
 def _largest_change(values, reference, ok):

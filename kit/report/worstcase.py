@@ -82,6 +82,10 @@ def text(result):
     return "\n".join(lines)
 
 
+def _sentence(line):
+    return line[0].upper() + line[1:] + "."
+
+
 def html(result):
     rows = []
     for m in result.methods.values():
@@ -96,8 +100,8 @@ def html(result):
             f"{format_quantity(result.nominal, 'A', 4)}; self-heating "
             f"{'included' if result.self_heating else 'not included'}. "
             f"RSS takes ± tolerance as ±{SIGMA_PER_TOLERANCE:g} σ."
-            + (f" {tables.escape(matched_line(result))}." if matched_line(result) else "") + "</p>")
-    head += "".join(f"<p>{tables.escape(line)}.</p>" for line in mismatch_lines(result))
+            + (f" {tables.escape(_sentence(matched_line(result)))}" if matched_line(result) else "") + "</p>")
+    head += "".join(f"<p>{tables.escape(_sentence(line))}</p>" for line in mismatch_lines(result))
     said = result.verdict()
     said = tables.escape(said[0].upper() + said[1:])
     reasons = "".join(f"<li>{tables.escape(r)}</li>" for r in result.reasons())
