@@ -1,20 +1,128 @@
-"""Self-heating: junction temperature = ambient + theta_JA x dissipation.
+"""Electrothermal operating points: junctions heated by their own and their neighbours' power.
 
-:func:`solve_self_heated` solves the exact equations with each transistor's
-junction raised above the ambient by its own dissipation through its
-package's thermal resistance (``t_rise = theta_JA * P_D``), iterating the
-electrical and thermal solutions to a fixed point.  Thermal coupling between
-devices is not modelled: each junction heats only itself.
+A :class:`ThermalNetwork` says how the heated parts are placed: each in a
+package of its own (``theta_JA`` to ambient, the default), several on one die
+or in one package (a *mutual* thermal resistance between them), or several on
+a shared heatsink (each junction through its own junction-to-sink resistance
+to a sink that rises ``theta_SA`` times the power of all of them).  Linear
+heat flow gives one matrix of thermal resistances ``Theta`` (K/W)::
+
+    T_j = T_ambient + Theta @ P(T_j)
+
+:func:`solve_self_heated` solves the exact circuit and this network together.
+It iterates from the cold junctions (which reaches the coolest steady state
+when the power rises with temperature), and, where that settles slowly,
+takes Newton steps with the electrothermal Jacobian ``I - Theta dP/dT``.
+The *electrothermal loop gain* is the largest real eigenvalue of
+``Theta dP/dT``; a steady state is stable only where it is below 1.  A point
+where the iteration climbs to a loop gain of 1 or more before reaching a
+steady state has none: thermal runaway, reported as such
+(:attr:`OperatingPoints.runaway`), never as a failed solve.
+:func:`runaway_threshold` finds by continuation in the load voltage where
+the stable points end.
+
+Examples
+--------
+>>> net = ThermalNetwork(mutual={("Q1", "Q2"): 60.0})
+>>> net.matrix(["Q1", "Q2"], {"Q1": 200.0, "Q2": 200.0}).tolist()
+[[200.0, 60.0], [60.0, 200.0]]
 """
 
 from __future__ import annotations
 
+import math
+from dataclasses import dataclass, field
+
 import numpy as np
 
+from kit.errors import ConvergenceError, ParameterError
 from kit.model.solve import solve_points
 
-MAX_ITERATIONS = 30
+MAX_ITERATIONS = 30  # fixed-point steps, then Newton steps for the points still moving
+FIXED_POINT_STEPS = 8
 RISE_TOLERANCE = 1e-6  # K
+DERIVATIVE_STEP = 1e-2  # K, the finite step of dP/dT_j
+RUNAWAY_RISE = 1000.0  # K: a junction this far above ambient has no steady state worth the name
+THRESHOLD_BISECTIONS = 40
+
+
+@dataclass(frozen=True)
+class Heatsink:
+    """Parts on one heatsink: ``theta_sa`` sink to ambient, ``theta_js`` each junction to the sink (K/W)."""
+
+    name: str
+    theta_sa: float
+    theta_js: dict
+
+    def __post_init__(self):
+        _resistance(f"heatsink.{self.name}.theta_sa", self.theta_sa)
+        for part, value in dict(self.theta_js).items():
+            _resistance(f"heatsink.{self.name}.theta_js.{part}", value)
+        object.__setattr__(self, "theta_js", dict(self.theta_js))
+
+
+@dataclass(frozen=True)
+class ThermalNetwork:
+    """How the heated parts share their heat (see the module docstring).
+
+    Parameters
+    ----------
+    mutual : dict
+        ``(part, part) -> theta`` in K/W: the temperature rise of one junction
+        per watt in the other (one die, one package).  At most the smaller
+        of the two parts' own resistances.
+    heatsinks : tuple of Heatsink
+        A part on a heatsink is cooled by it, not by its own ``theta_JA``.
+    """
+
+    mutual: dict = field(default_factory=dict)
+    heatsinks: tuple = ()
+
+    def parts(self):
+        """Every part the network names."""
+        named = {p for pair in self.mutual for p in pair}
+        return named | {p for h in self.heatsinks for p in h.theta_js}
+
+    def matrix(self, names, own):
+        """``Theta`` (K/W) over ``names``; ``own`` gives each part's ``theta_JA`` (scalars or arrays).
+
+        Returns an array of shape (H, H) or (H, H, N) when ``own`` holds arrays.
+        """
+        index = {n: i for i, n in enumerate(names)}
+        unknown = sorted(self.parts() - set(index))
+        if unknown:
+            raise ParameterError("names no part with a thermal resistance", parameter="thermal",
+                                 value=unknown[0], valid=", ".join(names) or "none here")
+        size = np.broadcast(*[np.asarray(own[n], dtype=float) for n in names]).shape if names else ()
+        theta = np.zeros((len(names), len(names)) + size)
+        for n, i in index.items():
+            theta[i, i] = own[n]
+        sunk = set()
+        for sink in self.heatsinks:
+            members = [index[p] for p in sink.theta_js]
+            if sunk & set(sink.theta_js):
+                raise ParameterError("a part sits on one heatsink only", parameter=f"heatsink.{sink.name}",
+                                     value=sorted(sunk & set(sink.theta_js))[0], valid="each part once")
+            sunk |= set(sink.theta_js)
+            for p, i in zip(sink.theta_js, members):
+                for k in members:
+                    theta[i, k] = sink.theta_sa
+                theta[i, i] = sink.theta_sa + sink.theta_js[p]
+        for (a, b), value in self.mutual.items():
+            _resistance(f"mutual.{a}+{b}", value)
+            i, k = index[a], index[b]
+            if a == b or np.any(value > np.minimum(theta[i, i], theta[k, k])):
+                raise ParameterError("a mutual thermal resistance joins two parts and is at most the "
+                                     "smaller one's own", parameter=f"mutual.{a}+{b}", value=value,
+                                     valid=f"two different parts, <= their own theta")
+            theta[i, k] = theta[k, i] = value
+        return theta
+
+
+def _resistance(name, value):
+    if not (isinstance(value, (int, float)) and math.isfinite(value) and 0 <= value <= 2000):
+        raise ParameterError("thermal resistance out of range", parameter=name, value=value,
+                             valid="0 … 2000 K/W")
 
 
 def heated_parts(model):
@@ -23,8 +131,40 @@ def heated_parts(model):
             if "theta_ja" in part.params and f"{part.name}.t_rise" in model.parameter_index]
 
 
-def solve_self_heated(model, values):
-    """Exact operating points with self-heating of every part that has a thermal resistance.
+def _powers(points, heated):
+    return np.stack([np.where(points.converged, points.dissipation[n], 0.0) for n in heated])
+
+
+def _as_matrix(theta, size):
+    """(N, H, H) from (H, H) or (H, H, N)."""
+    if theta.ndim == 2:
+        return np.broadcast_to(theta, (size,) + theta.shape)
+    return np.moveaxis(theta, -1, 0)
+
+
+def _solve_at(model, values, heated, rises, x0):
+    return solve_points(model, values | {f"{n}.t_rise": rises[i] for i, n in enumerate(heated)}, x0=x0)
+
+
+def _power_slopes(model, values, heated, rises, points):
+    """``dP_i/dT_k`` (N, H, H) by a forward step of each junction's temperature."""
+    base = _powers(points, heated)
+    slopes = np.empty((points.size, len(heated), len(heated)))
+    for k in range(len(heated)):
+        moved = rises.copy()
+        moved[k] = moved[k] + DERIVATIVE_STEP
+        stepped = _solve_at(model, values, heated, moved, points.x)
+        slopes[:, :, k] = ((_powers(stepped, heated) - base) / DERIVATIVE_STEP).T
+    return slopes
+
+
+def loop_gain(theta, slopes):
+    """Largest real part of the eigenvalues of ``Theta dP/dT`` at each point ((N, H, H) each)."""
+    return np.max(np.linalg.eigvals(theta @ slopes).real, axis=-1)
+
+
+def solve_self_heated(model, values, network=None):
+    """Exact operating points with every heated part at its electrothermal steady state.
 
     Parameters
     ----------
@@ -32,36 +172,135 @@ def solve_self_heated(model, values):
     values : dict
         Full parameter vector (arrays broadcast); ``temp`` is the ambient,
         ``<part>.theta_ja`` each package's thermal resistance.
+    network : ThermalNetwork, optional
+        Mutual resistances and heatsinks; default: each part alone.
 
     Returns
     -------
     kit.model.solve.OperatingPoints
-        Solved at the self-consistent junction temperatures (``<name>.t_rise``
-        holds each rise in K).
+        Solved at the stable steady state (``<name>.t_rise`` holds each
+        rise in K).  Two arrays are added: ``runaway`` (no stable steady
+        state: thermal runaway; such points are not converged) and
+        ``loop_gain`` (the electrothermal loop gain at the point found).
     """
     heated = heated_parts(model)
     values = dict(values)
     points = solve_points(model, values)
-    for _ in range(MAX_ITERATIONS):
-        change = np.zeros(points.size)
-        for n in heated:
-            theta = np.asarray(values[f"{n}.theta_ja"], dtype=float)
-            rise = theta * np.where(points.converged, points.dissipation[n], 0.0)
-            change = np.maximum(change, np.abs(rise - values.get(f"{n}.t_rise", 0.0)))
-            values[f"{n}.t_rise"] = rise
-        if np.all(change < RISE_TOLERANCE):
-            return points
+    if not heated:
+        points.runaway = np.zeros(points.size, dtype=bool)
+        points.loop_gain = np.zeros(points.size)
+        return points
+    network = network or ThermalNetwork()
+    theta = _as_matrix(network.matrix(heated, {n: values[f"{n}.theta_ja"] for n in heated}), points.size)
+    rises = np.zeros((len(heated), points.size))
+    runaway = np.zeros(points.size, dtype=bool)
+    gain = np.zeros(points.size)
+    settled = np.zeros(points.size, dtype=bool)
+    for step in range(MAX_ITERATIONS):
+        target = np.einsum("nij,jn->in", theta, _powers(points, heated))
+        change = np.max(np.abs(target - rises), axis=0)
+        settled = (change < RISE_TOLERANCE) & points.converged
+        if np.all(settled | runaway | ~points.converged):
+            break
+        if step < FIXED_POINT_STEPS:
+            new = target  # from cold, climbing to the coolest steady state
+        else:
+            # Newton: (I - Theta S) d = Theta P - r; a loop gain of 1 or more on the way up: no steady state.
+            slopes = _power_slopes(model, values, heated, rises, points)
+            gain = loop_gain(theta, slopes)
+            climbing = np.any(target > rises + RISE_TOLERANCE, axis=0)
+            runaway |= ~settled & climbing & (gain >= 1.0) & points.converged
+            jac = np.eye(len(heated)) - theta @ slopes
+            live = ~runaway & ~settled
+            delta = np.zeros_like(rises)
+            if np.any(live):
+                delta[:, live] = np.linalg.solve(jac[live], (target - rises)[:, live].T[..., None])[..., 0].T
+            new = rises + delta
+        runaway |= np.any(new > RUNAWAY_RISE, axis=0)
+        rises = np.where(runaway | settled, rises, np.clip(new, -RUNAWAY_RISE, RUNAWAY_RISE))
+        for i, n in enumerate(heated):
+            values[f"{n}.t_rise"] = rises[i]
         points = solve_points(model, values, x0=points.x)
-    # Points whose temperature never settled (thermal runaway) are not valid solutions.
-    points.converged &= change < RISE_TOLERANCE
+    target = np.einsum("nij,jn->in", theta, _powers(points, heated))
+    settled = (np.max(np.abs(target - rises), axis=0) < RISE_TOLERANCE) & points.converged & ~runaway
+    slopes = _power_slopes(model, values, heated, rises, points)
+    gain = np.where(runaway, np.maximum(gain, 1.0), loop_gain(theta, slopes))
+    # A steady state with a loop gain of 1 or more is the unstable one: no stable point here.
+    runaway |= settled & (gain >= 1.0)
+    points.converged &= settled & ~runaway
+    points.runaway = runaway
+    points.loop_gain = gain
     return points
 
 
 def junction_temperatures(points):
     """Device name -> junction temperature in K of solved points."""
-    temp = points.p[points.model.parameter_index["temp"]]
+    temp = points.model.parameter_index["temp"]
+    temp = points.p[temp]
     out = {}
     for name in points.model.structure.device_names:
         index = points.model.parameter_index.get(f"{name}.t_rise")
         out[name] = temp + (points.p[index] if index is not None else 0.0)
     return out
+
+
+@dataclass(frozen=True)
+class RunawayThreshold:
+    """Where the stable electrothermal points end along the load voltage.
+
+    ``v_load`` is the highest load voltage with a stable point (None: every
+    load voltage searched has one), ``loop_gain`` the loop gain there,
+    ``searched`` the range searched.
+    """
+
+    v_load: float | None
+    loop_gain: float
+    searched: tuple
+
+    def text(self):
+        if self.v_load is None:
+            return (f"no thermal runaway for V_load {self.searched[0]:.4g} … {self.searched[1]:.4g} V "
+                    f"(electrothermal loop gain at most {self.loop_gain:.3g})")
+        return (f"thermal runaway: no stable operating point above V_load = {self.v_load:.4g} V, "
+                f"electrothermal loop gain {self.loop_gain:.3g} there")
+
+    def to_dict(self):
+        return {"v_load": self.v_load, "loop_gain": self.loop_gain, "searched": list(self.searched),
+                "text": self.text()}
+
+
+def runaway_threshold(model, values, v_range, network=None, points=65):
+    """Continuation in the load voltage: the last stable point before thermal runaway.
+
+    The load voltage is stepped across ``v_range``; between the last stable
+    and the first runaway step the edge is found by bisection.
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.analysis.evaluation import model_of
+    >>> d = kit.design("divider_source")
+    >>> runaway_threshold(model_of(d), d.parameters(), (4.0, 10.0)).v_load is None
+    True
+    """
+    lo, hi = v_range
+    grid = np.linspace(lo, hi, points)
+    solved = solve_self_heated(model, values | {"v_load": grid}, network)
+    bad = solved.runaway
+    if not np.any(bad):
+        return RunawayThreshold(None, float(np.max(solved.loop_gain[solved.converged], initial=0.0)), (lo, hi))
+    first = int(np.argmax(bad))
+    if first == 0:
+        raise ConvergenceError("thermal runaway already at the low end of the load voltages searched",
+                               parameter="v_load", value=lo, valid="a range that starts with a stable point")
+    a, b, gain = grid[first - 1], grid[first], float(solved.loop_gain[first - 1])
+    for _ in range(THRESHOLD_BISECTIONS):
+        mid = 0.5 * (a + b)
+        one = solve_self_heated(model, values | {"v_load": np.array([mid])}, network)
+        if one.runaway[0]:
+            b = mid
+        else:
+            a, gain = mid, float(one.loop_gain[0])
+        if b - a < 1e-6 * max(1.0, abs(b)):
+            break
+    return RunawayThreshold(float(a), gain, (lo, hi))
