@@ -35,9 +35,11 @@ from kit.analysis import mismatch
 from kit.analysis.evaluation import model_of
 from kit.analysis.spec import SIGMA_PER_TOLERANCE, factors
 from kit.analysis.streaming import RunningHistogram, SeededColumns, wilson_interval
-from kit.analysis.thermal import solve_self_heated
+from kit.analysis.specbox import box_entries
+from kit.analysis.stress import fault_cases, stress_over_box
+from kit.analysis.thermal import runaway_threshold, solve_self_heated
 from kit.model.solve import solve_points
-from kit.errors import ParameterError
+from kit.errors import ConvergenceError, ParameterError
 from kit.quantities import format_quantity
 
 MAX_CORNER_FACTORS = 14  # 2^14 = 16384 corners; above, extreme corners come from the signs
@@ -140,7 +142,8 @@ class _Box:
     it moves (:func:`kit.analysis.mismatch.expand`).
     """
 
-    def __init__(self, spec, design, self_heating, edge, box_factors=None):
+    def __init__(self, spec, design, self_heating, edge, box_factors=None, network=None):
+        self.network = network
         self.spec = spec
         self.design = design
         self.model = model_of(design)
@@ -161,7 +164,7 @@ class _Box:
     def solve(self, changes):
         values = self.base | {k: np.asarray(v, dtype=float) for k, v in self.flat(changes).items()}
         if self.self_heating:
-            return solve_self_heated(self.model, values)
+            return solve_self_heated(self.model, values, self.network)
         return solve_points(self.model, values)
 
     def judge(self, points):
@@ -171,7 +174,9 @@ class _Box:
         reasons = np.array([None] * points.size, dtype=object)
         for k in np.flatnonzero(~ok):
             part, cause = keys[k]
-            reasons[k] = "no converged solution" if part is None else \
+            reasons[k] = ("thermal runaway (no stable electrothermal point)" if part is None and
+                          getattr(points, "runaway", None) is not None and points.runaway[k] else
+                          "no converged solution") if part is None else \
                 f"{part} {points.cause_text(part, cause)}"
         if self.spec.p_max is not None:
             for name, power in points.dissipation.items():
@@ -474,7 +479,12 @@ class WorstCase:
     Carlo; ``decided_by`` names the method and :meth:`verdict` says so.
     """
 
-    def __init__(self, spec, design, nominal, methods, budget, box_factors, self_heating, mismatch=()):
+    def __init__(self, spec, design, nominal, methods, budget, box_factors, self_heating, mismatch=(),
+                 stress=(), faults=(), box=(), runaway=None):
+        self.stress = tuple(stress)  # PartStress per dissipating part (kit.analysis.stress)
+        self.faults = tuple(faults)  # FaultCase: output shorted, open load
+        self.box = tuple(box)  # over what: kit.analysis.specbox.box_entries
+        self.runaway = runaway  # RunawayThreshold along the spec's load range, or None
         self.spec = spec
         self.design = design
         self.nominal = nominal
@@ -533,6 +543,9 @@ class WorstCase:
                 "methods": {k: m.to_dict() for k, m in self.methods.items()},
                 "budget": [b.to_dict() for b in self.budget], "reasons": self.reasons(),
                 "mismatch": [m.to_dict() for m in self.mismatch],
+                "box": [dict(b) for b in self.box], "stress": [s.to_dict() for s in self.stress],
+                "faults": [f.to_dict() for f in self.faults],
+                "runaway": self.runaway.to_dict() if self.runaway is not None else None,
                 "factors": [{"name": f.name, "nominal": f.nominal, "low": f.low, "high": f.high,
                              "kind": f.kind, "distribution": f.distribution}
                             | ({"sigma": f.sigma} if f.sigma is not None else {})
@@ -556,7 +569,8 @@ def _checked_methods(methods):
     return names
 
 
-def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHODS):
+def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHODS, network=None,
+               written=None):
     """Check ``design`` against ``spec`` by extreme values, RSS and Monte Carlo.
 
     Parameters
@@ -571,6 +585,11 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
         Any of ``"extreme-value"``, ``"RSS"``, ``"Monte Carlo"``.  Without
         ``"extreme-value"`` the verdict is RSS's (else Monte Carlo's) and is
         no guarantee; :meth:`WorstCase.verdict` says so.
+    network : kit.analysis.thermal.ThermalNetwork, optional
+        How the parts share heat (one die, a heatsink); default one package each.
+    written : set of str, optional
+        The spec fields the user wrote (a record's ``[spec]`` keys); the
+        rest are listed as defaults in the result's box.
 
     Examples
     --------
@@ -583,8 +602,12 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
     """
     methods = _checked_methods(methods)
     box_factors = factors(spec, design)
-    box = _Box(spec, design, self_heating, edge, box_factors)
+    box = _Box(spec, design, self_heating, edge, box_factors, network)
     nominal_points = box.solve({})
+    if getattr(nominal_points, "runaway", None) is not None and nominal_points.runaway[0]:
+        limit = runaway_threshold(box.model, box.base, (0.0, float(box.base["v_load"])), network)
+        raise ConvergenceError(limit.text(), parameter="v_load", value=box.base["v_load"],
+                               valid=f"≤ {limit.v_load:.4g} V" if limit.v_load is not None else None)
     nominal_points.require("nominal design point")
     nominal = float(nominal_points.i_out[0])
     runners = {"extreme-value": lambda: _extreme_value(box, box_factors, nominal_points),
@@ -592,5 +615,12 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
                "Monte Carlo": lambda: _monte_carlo(box, box_factors)}
     results = {name: runners[name]() for name in methods}
     budget = _budget(box, box_factors, nominal_points)
+    stress = stress_over_box(box.solve, box_factors, box.base, spec.seed)
+    faults = fault_cases(box.solve, box_factors, box.base, design.sense)
+    runaway = None
+    if self_heating and any(s.runaway_points for s in stress):
+        lo, hi = spec.v_load if spec.v_load is not None else (box.base["v_load"], box.base["v_load"])
+        runaway = runaway_threshold(box.model, box.base, (lo, hi), network)
     return WorstCase(spec, design, nominal, results, budget, box_factors, self_heating,
-                     _output_mismatch(box, box_factors, nominal_points, budget))
+                     _output_mismatch(box, box_factors, nominal_points, budget), stress, faults,
+                     box_entries(spec, design, self_heating, written=written, network=network), runaway)

@@ -6,8 +6,9 @@ import math
 
 from kit.analysis.mismatch import ONE_DIE
 from kit.analysis.spec import SIGMA_PER_TOLERANCE
-from kit.quantities import format_quantity
+from kit.quantities import format_quantity, format_temperature
 from kit.report import tables
+from kit.report.cautions import HOT_SURFACE_KELVIN, SELF_HEATING_KELVIN
 
 
 def share(fraction):
@@ -62,9 +63,60 @@ def mismatch_lines(result):
     return out
 
 
+def box_lines(result):
+    """Over what the verdict holds: one line per aspect of the box, defaults marked."""
+    return [f"{b['item']}: {b['value']}" + (" [default, not written]" if b["default"] else "")
+            for b in result.box]
+
+
+def _where(conditions):
+    shown = []
+    for name, value in conditions.items():
+        if name == "temp":
+            shown.append(f"T_a {format_temperature(value, 3)}")
+        elif name in ("v_load", "v_supply"):
+            shown.append(f"{name} {format_quantity(value, 'V', 4)}")
+    return ", ".join(shown)
+
+
+def stress_lines(result):
+    """Each part's worst stress inside the spec box, then the fault cases and any runaway."""
+    out = []
+    for s in result.stress:
+        margin = "no rating known" if s.rating_margin is None else f"rating margin {s.rating_margin:.1%}"
+        temp = (f", T_j {format_temperature(s.junction_temperature, 3)} at {_where(s.conditions)}"
+                if s.kind != "resistor" else "")
+        out.append(f"{s.part}: {format_quantity(s.power, 'W', 3)} max at {_where(s.power_conditions)}"
+                   f"{temp}; {margin}" + (f"; thermal runaway at {s.runaway_points} box points"
+                                           if s.runaway_points else ""))
+    out += [f.text() for f in result.faults]
+    if result.runaway is not None:
+        out.append(result.runaway.text())
+    return out
+
+
+def heat_cautions(result):
+    """The usual cautions where the box makes a part hot enough to burn or run away."""
+    hot = [s for s in result.stress if s.kind != "resistor" and s.junction_temperature > HOT_SURFACE_KELVIN
+           and s.junction_temperature - s.conditions.get("temp", result.design.temp) > SELF_HEATING_KELVIN]
+    out = []
+    if hot:
+        names = ", ".join(f"{s.part} ({format_temperature(s.junction_temperature, 3)})" for s in hot)
+        out.append(f"Hot parts inside the spec: {names}. The part and the board around it can burn a "
+                   "finger; check the datasheet's derating, keep people and heat-sensitive parts away, "
+                   "and follow local codes and licensed practice for the equipment.")
+    if result.runaway is not None or any(f.survives is False for f in result.faults):
+        out.append("A fault or thermal runaway can destroy a part and start a fire: fuse or limit the "
+                   "supply and test the fault cases on the bench with protection in place.")
+    return out
+
+
 def text(result):
     lines = [f"spec {spec_line(result.spec)}, nominal {format_quantity(result.nominal, 'A', 4)}",
              f"self-heating {'included' if result.self_heating else 'not included'}"]
+    if result.box:
+        lines.append("over (the spec's box)")
+        lines += [f"  {line}" for line in box_lines(result)]
     if matched_line(result):
         lines.append(matched_line(result))
     for m in result.methods.values():
@@ -76,8 +128,12 @@ def text(result):
     for b in result.budget:
         lines.append(f"  {b.label:<{width}} {format_quantity(b.swing, 'A'):>9}  {b.share:6.1%}")
     lines += mismatch_lines(result)
+    if result.stress or result.faults:
+        lines.append("stress inside the spec (largest over the box)")
+        lines += [f"  {line}" for line in stress_lines(result)]
     for reason in result.reasons():
         lines.append(f"  ! {reason}")
+    lines += [f"  ! caution: {c}" for c in heat_cautions(result)]
     lines.append("verdict: " + result.verdict())
     return "\n".join(lines)
 
@@ -106,5 +162,11 @@ def html(result):
     said = tables.escape(said[0].upper() + said[1:])
     reasons = "".join(f"<li>{tables.escape(r)}</li>" for r in result.reasons())
     verdict = (f'<p class="bb-ok">{said}.</p>' if result.met else f'<p class="bb-bad">{said}.</p><ul>{reasons}</ul>')
+    over = "".join(f"<li>{tables.escape(line)}</li>" for line in box_lines(result))
+    if over:
+        head += f"<p>Over:</p><ul>{over}</ul>"
+    stress = "".join(f"<li>{tables.escape(line)}</li>" for line in stress_lines(result))
+    stress += "".join(f'<li class="bb-bad">{tables.escape(c)}</li>' for c in heat_cautions(result))
+    verdict += f"<p>Stress inside the spec (largest over the box):</p><ul>{stress}</ul>" if stress else ""
     return tables.wrap(tables.section("Worst case", head + methods + verdict)
                        + tables.section("Error budget (each factor alone, exact solve)", budget))

@@ -1,0 +1,99 @@
+"""Over what a verdict holds: the spec's box in plain entries, defaults marked as such.
+
+:func:`box_entries` lists what a worst-case result varied and what it held:
+load, supply and temperature ranges, the gain range, resistor tolerances and
+TCRs, other bounds, matching, self-heating and the thermal network.  An
+entry the user did not write is marked ``"default": True`` with the value
+the spec applied; the caller says which spec fields were written
+(``written``, e.g. the keys of a record's ``[spec]`` table); without it a
+field is taken as written when it differs from the spec's default.
+
+Examples
+--------
+>>> import kit
+>>> from dataclasses import MISSING
+
+from kit.analysis.spec import Spec
+>>> d = kit.design("divider_source")
+>>> rows = box_entries(Spec(1e-3, 0.05, temp=(273.15, 323.15)), d, True, written={"current", "tolerance", "temp"})
+>>> [r["item"] for r in rows if r["default"]][:3]
+['load voltage', 'supply', 'transistor gain']
+"""
+
+from __future__ import annotations
+
+from dataclasses import MISSING
+
+from kit.analysis.spec import Spec
+
+# Record field names for the spec's own names.
+RECORD_NAMES = {"i_target": "current"}
+
+
+def _is_written(name, spec, written):
+    if written is not None:
+        return RECORD_NAMES.get(name, name) in written or name in written
+    default = Spec.__dataclass_fields__[name]
+    value = getattr(spec, name)
+    if default.default is MISSING:  # a table (beta, bounds, ...): written when not empty
+        return bool(value)
+    return value != default.default
+
+
+def _range(pair, unit, kelvin=False):
+    if kelvin:
+        return f"{pair[0] - 273.15:.4g} … {pair[1] - 273.15:.4g} °C"
+    return f"{pair[0]:.4g} … {pair[1]:.4g} {unit}".rstrip()
+
+
+def box_entries(spec, design, self_heating, *, written=None, network=None):
+    """One entry per aspect of the box: ``{"item", "value", "default"}`` (see the module docstring)."""
+    values = design.parameters()
+    out = []
+
+    def add(item, value, name):
+        out.append({"item": item, "value": value, "default": not _is_written(name, spec, written)})
+
+    for item, name, unit, kelvin in (("load voltage", "v_load", "V", False), ("supply", "v_supply", "V", False),
+                                     ("ambient temperature", "temp", "K", True)):
+        pair = getattr(spec, name)
+        if pair is not None:
+            add(item, _range(pair, unit, kelvin), name)
+        elif name in values:
+            own = values[name]
+            shown = f"{own - 273.15:.4g} °C" if kelvin else f"{own:.4g} {unit}"
+            add(item, f"the design's own {shown} only", name)
+    gains = [n for n, m in design.devices.items() if "beta_f" in m.values]
+    if gains:
+        if spec.beta:
+            add("transistor gain", "; ".join(f"{k}: β_F {_range(v, '')}" for k, v in spec.beta.items()), "beta")
+        else:
+            add("transistor gain", "nominal β_F only (not varied)", "beta")
+    resistors = design.topology.resistors
+    if resistors:
+        tol = ", ".join(f"{r} ±{100 * v:.3g} %" for r, v in spec.tolerances.items())
+        add("resistor tolerance", f"±{100 * spec.resistor_tolerance:.3g} %" + (f" ({tol})" if tol else ""),
+            "resistor_tolerance")
+        tcr = ", ".join(f"{r} ±{v * 1e6:.3g} ppm/K" for r, v in spec.tcrs.items())
+        add("resistor TCR", (f"±{spec.resistor_tcr * 1e6:.3g} ppm/K" + (f" ({tcr})" if tcr else ""))
+            + ("" if spec.temp is not None else " (not varied: no temperature range)"), "resistor_tcr")
+    if spec.bounds:
+        add("other bounds", "; ".join(f"{k} {v[0]:.4g} … {v[1]:.4g}" for k, v in spec.bounds.items()), "bounds")
+    matched = "; ".join(", ".join(g) for g in spec.matched)
+    mismatch = [f"{n} {getattr(spec, n):.3g}" for n in ("mismatch_vbe", "mismatch_beta", "mismatch_vth",
+                                                          "mismatch_k", "a_vth", "a_k") if getattr(spec, n)]
+    add("matching", (matched or "no matched group written") + (f"; {', '.join(mismatch)}" if mismatch else ""),
+        "matched")
+    heated = [n for n, m in design.devices.items() if "theta_ja" in m.values]
+    if self_heating and heated:
+        thetas = ", ".join(f"{n} θ_JA {values[f'{n}.theta_ja']:.4g} K/W" for n in heated)
+        coupling = "each part in its own package" if not network or not network.parts() else "thermal network given"
+        out.append({"item": "self-heating", "value": f"included: {thetas}; {coupling}", "default": True})
+    else:
+        out.append({"item": "self-heating", "value": "not included", "default": False})
+    out.append({"item": "RSS coverage", "value": "± tolerance taken as ±3 σ", "default": True})
+    if spec.p_max is None:
+        out.append({"item": "dissipation limit", "value": "none besides each part's own ratings", "default": True})
+    else:
+        add("dissipation limit", f"{spec.p_max:.4g} W per part", "p_max")
+    return out
