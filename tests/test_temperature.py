@@ -195,8 +195,8 @@ def test_junction_over_its_rating_fails_the_worst_case():
 
 
 def test_budget_ignores_points_that_ran_away():
-    """In a 2000 K/W package the sink runs away thermally at 20 V (no converged fixed point,
-    the kit says so); the budget's 'v_load alone' swing must come from solved points only."""
+    """In a 2000 K/W package the sink runs away thermally at 20 V (no stable electrothermal
+    point, the kit names it thermal runaway); the budget's 'v_load alone' swing must come from solved points only."""
     from kit.analysis.spec import Spec
     from kit.analysis.worstcase import worst_case
 
@@ -206,7 +206,8 @@ def test_budget_ignores_points_that_ran_away():
     assert list(heated.converged) == [True, True, False]  # own check of the scenario
     wc = worst_case(d, Spec(11e-3, 0.2, v_load=(10.0, 20.0), resistor_tolerance=0.0, resistor_tcr=0.0),
                     methods=("extreme-value",))
-    assert "no converged solution" in wc.methods["extreme-value"].detail["failures"]
+    assert list(heated.runaway) == [False, False, True]
+    assert "thermal runaway (no stable electrothermal point)" in wc.methods["extreme-value"].detail["failures"]
     swing = {b.name: b.swing for b in wc.budget}["v_load"]
     assert swing <= abs(heated.i_out[0] - heated.i_out[1]) * (1 + 1e-9)
 
