@@ -15,7 +15,8 @@ Examples
 
 from kit.analysis.spec import Spec
 >>> d = kit.design("divider_source")
->>> rows = box_entries(Spec(1e-3, 0.05, temp=(273.15, 323.15)), d, True, written={"current", "tolerance", "temp"})
+>>> spec = Spec(1e-3, 0.05, temp=(273.15, 323.15))
+>>> rows = box_entries(spec, d, True, written={"current", "tolerance", "temp"})
 >>> [r["item"] for r in rows if r["default"]][:3]
 ['load voltage', 'supply', 'transistor gain']
 """
@@ -47,12 +48,20 @@ def _range(pair, unit, kelvin=False):
 
 
 def box_entries(spec, design, self_heating, *, written=None, network=None):
-    """One entry per aspect of the box: ``{"item", "value", "default"}`` (see the module docstring)."""
+    """One entry per aspect of the box: ``{"item", "value", "default", "known"}``.
+
+    ``known`` is False where ``written`` was not given and "default" only means the value
+    equals the spec's default.
+    """
     values = design.parameters()
     out = []
 
+    def fixed(item, value, default):
+        out.append({"item": item, "value": value, "default": default, "known": True})
+
     def add(item, value, name):
-        out.append({"item": item, "value": value, "default": not _is_written(name, spec, written)})
+        out.append({"item": item, "value": value, "default": not _is_written(name, spec, written),
+                    "known": written is not None})
 
     for item, name, unit, kelvin in (("load voltage", "v_load", "V", False), ("supply", "v_supply", "V", False),
                                      ("ambient temperature", "temp", "K", True)):
@@ -88,12 +97,12 @@ def box_entries(spec, design, self_heating, *, written=None, network=None):
     if self_heating and heated:
         thetas = ", ".join(f"{n} θ_JA {values[f'{n}.theta_ja']:.4g} K/W" for n in heated)
         coupling = "each part in its own package" if not network or not network.parts() else "thermal network given"
-        out.append({"item": "self-heating", "value": f"included: {thetas}; {coupling}", "default": True})
+        fixed("self-heating", f"included: {thetas}; {coupling}", True)
     else:
-        out.append({"item": "self-heating", "value": "not included", "default": False})
-    out.append({"item": "RSS coverage", "value": "± tolerance taken as ±3 σ", "default": True})
+        fixed("self-heating", "not included", False)
+    fixed("RSS coverage", "± tolerance taken as ±3 σ", True)
     if spec.p_max is None:
-        out.append({"item": "dissipation limit", "value": "none besides each part's own ratings", "default": True})
+        fixed("dissipation limit", "none besides each part's own ratings", True)
     else:
         add("dissipation limit", f"{spec.p_max:.4g} W per part", "p_max")
     return out

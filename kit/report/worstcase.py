@@ -65,7 +65,9 @@ def mismatch_lines(result):
 
 def box_lines(result):
     """Over what the verdict holds: one line per aspect of the box, defaults marked."""
-    return [f"{b['item']}: {b['value']}" + (" [default, not written]" if b["default"] else "")
+    return [f"{b['item']}: {b['value']}"
+            + ((" [default, not written]" if b.get("known", True) else " [the spec's default value]")
+               if b["default"] else "")
             for b in result.box]
 
 
@@ -111,9 +113,22 @@ def heat_cautions(result):
     return out
 
 
+def stress_headline(result):
+    """The hottest part inside the spec in one line, or ``""``: never a load voltage the spec excludes."""
+    heated = [s for s in result.stress if s.kind != "resistor"]
+    if not heated:
+        return ""
+    s = min(heated, key=lambda e: e.rating_margin if e.rating_margin is not None else float("inf"))
+    margin = "" if s.rating_margin is None else f", rating margin {s.rating_margin:.1%}"
+    return (f"stress inside the spec: {s.part} up to {format_quantity(s.power, 'W', 3)}, T_j up to "
+            f"{format_temperature(s.junction_temperature, 3)} (at {_where(s.conditions)}){margin}")
+
+
 def text(result):
     lines = [f"spec {spec_line(result.spec)}, nominal {format_quantity(result.nominal, 'A', 4)}",
              f"self-heating {'included' if result.self_heating else 'not included'}"]
+    if stress_headline(result):
+        lines.append(stress_headline(result))
     if result.box:
         lines.append("over (the spec's box)")
         lines += [f"  {line}" for line in box_lines(result)]
