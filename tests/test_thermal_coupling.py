@@ -124,3 +124,16 @@ def test_heatsink_network_matrix_and_bad_input():
         ThermalNetwork(mutual={("Q1", "Q9"): 10.0}).matrix(["Q1", "Q2"], {"Q1": 200.0, "Q2": 200.0})
     with pytest.raises(ParameterError, match="theta_sa"):
         Heatsink("sink", -1.0, {"Q1": 1.0})
+
+
+def test_temperature_sweep_names_runaway():
+    from kit.analysis.temperature import temperature_sweep
+    from kit.errors import ConvergenceError
+
+    rec = load_record("examples/basic_mirror-discrete-runaway.toml")
+    d = rec.design.with_values(v_load=4.7)
+    # 4.7 V has a stable point at 25 degC (below the edge, about 4.8 V) but not when colder:
+    # a = (XTI + (E_g - V_BE)/V_T)/T grows as T falls, and the loop gain with it
+    temperature_sweep(d, (293.15, 298.15), points=2)
+    with pytest.raises(ConvergenceError, match="thermal runaway: no stable operating point"):
+        temperature_sweep(d, (233.15, 298.15), points=5)

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from kit.analysis.evaluation import model_of
-from kit.analysis.thermal import junction_temperatures, solve_self_heated
+from kit.analysis.thermal import junction_temperatures, require_stable, solve_self_heated
 from kit.errors import OperatingPointError
 from kit.model.solve import solve_points
 from kit.quantities import format_temperature
@@ -95,7 +95,7 @@ def temperature_sweep(design, temps, *, points=61):
     model = model_of(design)
     values = design.parameters() | {"temp": temps}
     cold = solve_points(model, values).require("temperature sweep")
-    heated = solve_self_heated(model, values).require("self-heated sweep")
+    heated = require_stable(solve_self_heated(model, values), "self-heated sweep")
     for points in (cold, heated):
         _require_valid(points, design, temps)
     t_index = model.parameter_index["temp"]
@@ -107,8 +107,9 @@ def temperature_sweep(design, temps, *, points=61):
             budget[label] = budget.get(label, 0.0) + di * dq / cold.i_out
     base = design.parameters()
     step = R_OUT_STEP
-    ends = solve_self_heated(model, base | {"v_load": np.array([base["v_load"] - step, base["v_load"] + step])}
-                             ).require("self-heated output resistance")
+    ends = require_stable(solve_self_heated(model, base | {"v_load": np.array([base["v_load"] - step,
+                                                                            base["v_load"] + step])}),
+                          "self-heated output resistance")
     slope = (ends.i_out[1] - ends.i_out[0]) / (2 * step)
     r_heated = model.output_sign / slope if slope != 0 else np.inf
     r_cold = float(solve_points(model, base).require().r_out[0])

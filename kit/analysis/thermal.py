@@ -233,6 +233,26 @@ def solve_self_heated(model, values, network=None):
     return points
 
 
+def require_stable(points, what="operating point"):
+    """Raise for points without a stable electrothermal state, naming runaway as such.
+
+    Thermal runaway raises :class:`~kit.errors.ConvergenceError` saying "thermal runaway"
+    with the first such point's ambient and load voltage; any other failure is
+    :meth:`OperatingPoints.require`'s.
+    """
+    runaway = np.flatnonzero(getattr(points, "runaway", np.zeros(points.size, dtype=bool)))
+    if runaway.size:
+        k = runaway[0]
+        index = points.model.parameter_index
+        temp = float(np.broadcast_to(points.p[index["temp"]], (points.size,))[k])
+        where = f"ambient {temp - 273.15:.4g} °C"
+        if "v_load" in index:
+            where += f", V_load = {float(np.broadcast_to(points.p[index['v_load']], (points.size,))[k]):.4g} V"
+        raise ConvergenceError(f"thermal runaway: no stable operating point at {runaway.size} of {points.size} "
+                               f"points (first: {where}); electrothermal loop gain >= 1", parameter=what)
+    return points.require(what)
+
+
 def junction_temperatures(points):
     """Device name -> junction temperature in K of solved points."""
     temp = points.model.parameter_index["temp"]
