@@ -5,8 +5,8 @@ For every part that dissipates (transistors, resistors, zeners, diodes)
 (a resistor's body is taken at the ambient: no thermal resistance is
 known for it) over the whole tolerance box of a spec — every corner, a
 random sample of the interior, and a sweep along each factor through the
-worst point found — with the conditions where it happens and the margin
-to the part's rating there:
+worst point found — with the conditions where it happens, the smallest distance
+to its breakdown voltage (V) and the margin to its power rating:
 
 * a transistor: ``(T_J(max) - T_j) / (T_J(max) - T_ambient)``, the
   fraction of its derated allowance left (a linear derating to
@@ -49,6 +49,7 @@ class PartStress:
     power_conditions: dict  # where the power is largest
     basis: str
     runaway_points: int = 0
+    breakdown_margin: float | None = None  # V to the breakdown rating, smallest over the box
 
     def to_dict(self):
         return dict(self.__dict__)
@@ -63,12 +64,6 @@ class FaultCase:
     survives: bool | None  # None: the circuit has no solution there to judge
     reasons: tuple = ()
     hottest: dict = field(default_factory=dict)  # part -> (power W, junction K) at its worst
-
-    def text(self):
-        head = f"{self.fault} (V_load = {self.v_load:.4g} V): "
-        if self.survives is None:
-            return head + "not judged — " + "; ".join(self.reasons)
-        return head + ("survives" if self.survives else "does NOT survive — " + "; ".join(self.reasons))
 
     def to_dict(self):
         return {"fault": self.fault, "v_load": self.v_load, "survives": self.survives,
@@ -103,8 +98,12 @@ class _Sampled:
         self.runaway = getattr(points, "runaway", np.zeros(points.size, dtype=bool))
         junctions = junction_temperatures(points)
         ambient = points.temp
-        self.power, self.temperature, self.margin = {}, {}, {}
+        self.power, self.temperature, self.margin, self.volts = {}, {}, {}, {}
+        margins = points.margins()
         for part in _dissipating(model):
+            breakdown = margins.get((part.name, "breakdown"))
+            self.volts[part.name] = (np.where(self.ok, np.broadcast_to(breakdown, (points.size,)), np.inf)
+                                     if breakdown is not None else np.full(points.size, np.inf))
             j = points.junctions[part.name]
             power = np.where(self.ok, part.kind.dissipation(j), -np.inf)
             params = model.params(points.p, part)
@@ -173,6 +172,7 @@ def stress_over_box(solve, box_factors, base, seed=1):
         margin = np.concatenate([s.margin[name] for s in samples])
         changes = _stack([s.changes for s in samples])
         runaway = int(sum(int(np.count_nonzero(s.runaway)) for s in samples))
+        volts = float(np.min(np.concatenate([s.volts[name] for s in samples])))
         if not np.any(np.isfinite(power)):
             continue
         kp = int(np.argmax(power))
@@ -189,7 +189,8 @@ def stress_over_box(solve, box_factors, base, seed=1):
         out.append(PartStress(name, part.kind.key, float(power[kp]), float(temperature[kt]),
                               worst_margin if np.isfinite(worst_margin) else None,
                               _conditions(changes, kt, base, box_factors),
-                              _conditions(changes, kp, base, box_factors), basis, runaway))
+                              _conditions(changes, kp, base, box_factors), basis, runaway,
+                              volts if np.isfinite(volts) else None))
     return sorted(out, key=lambda s: (s.rating_margin is None, s.rating_margin if s.rating_margin is not None
                                       else 0.0, -s.power))
 

@@ -81,17 +81,34 @@ def _where(conditions):
     return ", ".join(shown)
 
 
+def fault_text(fault):
+    """``"output shorted (V_load = 25.2 V): survives (hottest: M1 8.81 W, 138 °C)"`` and the like."""
+    head = f"{fault.fault} (V_load = {format_quantity(fault.v_load, 'V', 4)}): "
+    if fault.survives is None:
+        return head + "not judged — " + "; ".join(fault.reasons)
+    if not fault.survives:
+        return head + "does NOT survive — " + "; ".join(fault.reasons)
+    hot = max(fault.hottest.items(), key=lambda item: (item[1][1], item[1][0]), default=None)
+    if hot is None or not math.isfinite(hot[1][1]):
+        return head + "survives"
+    part, (watts, kelvin) = hot
+    watts = watts if watts >= 1e-12 else 0.0  # a cut-off part's leakage reads as nothing
+    return head + f"survives (hottest: {part} {format_quantity(watts, 'W', 3)}, {format_temperature(kelvin, 3)})"
+
+
 def stress_lines(result):
     """Each part's worst stress inside the spec box, then the fault cases and any runaway."""
     out = []
     for s in result.stress:
         margin = "no rating known" if s.rating_margin is None else f"rating margin {s.rating_margin:.1%}"
+        if s.breakdown_margin is not None:
+            margin += f", {format_quantity(s.breakdown_margin, 'V', 3)} below breakdown"
         temp = (f", T_j {format_temperature(s.junction_temperature, 3)} at {_where(s.conditions)}"
                 if s.kind != "resistor" else "")
         out.append(f"{s.part}: {format_quantity(s.power, 'W', 3)} max at {_where(s.power_conditions)}"
                    f"{temp}; {margin}" + (f"; thermal runaway at {s.runaway_points} box points"
                                            if s.runaway_points else ""))
-    out += [f.text() for f in result.faults]
+    out += [fault_text(f) for f in result.faults]
     if result.runaway is not None:
         out.append(result.runaway.text())
     return out
