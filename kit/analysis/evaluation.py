@@ -16,7 +16,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.errors import OperatingPointError, ParameterError
+from kit.analysis.thermal import runaway_threshold, solve_self_heated
+from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
 from kit.model.compliance import find_compliance
 from kit.model.solve import check_edge, solve_points
@@ -237,7 +238,9 @@ def evaluate(design, *, edge="vce_sat"):
         If the load voltage is outside compliance (``parameter="v_load"``) or the
         supply cannot turn the circuit on (``parameter="v_supply"``).
     kit.errors.ConvergenceError
-        If the exact solve did not converge.
+        If the exact solve did not converge, or the design point has no stable
+        electrothermal state (the message says "thermal runaway" and where the
+        stable points end).
     """
     check_edge(edge)
     model = model_of(design)
@@ -247,6 +250,7 @@ def evaluate(design, *, edge="vce_sat"):
         compliance = find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
+    _require_thermally_stable(model, values, compliance)
     v_load = values["v_load"]
     worst, keys = points.worst_margin(edge)
     if worst[0] < 0 or not compliance.contains(v_load):
@@ -287,6 +291,16 @@ def evaluate(design, *, edge="vce_sat"):
         dissipation_sweep=(v_sweep, power), max_dissipation=(biggest, float(power[biggest][k]), float(v_sweep[k])),
         hottest=hottest,
         node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points)
+
+
+def _require_thermally_stable(model, values, compliance):
+    """Name thermal runaway at the design point (each part heating itself in its own package)."""
+    if not solve_self_heated(model, values).runaway[0]:
+        return
+    limit = runaway_threshold(model, values, (compliance.low.voltage, compliance.high.voltage))
+    raise ConvergenceError(limit.text(), parameter="v_load", value=values["v_load"],
+                           valid=(f"{'≤' if limit.side == 'above' else '≥'} {limit.v_load:.4g} V"
+                                  if limit.v_load is not None else None))
 
 
 def _hottest(model, values, v_load, power):

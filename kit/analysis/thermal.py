@@ -268,32 +268,40 @@ def junction_temperatures(points):
 class RunawayThreshold:
     """Where the stable electrothermal points end along the load voltage.
 
-    ``v_load`` is the highest load voltage with a stable point (None: every
-    load voltage searched has one), ``loop_gain`` the loop gain there,
-    ``searched`` the range searched.
+    ``v_load`` is the last load voltage with a stable point (None: every load
+    voltage searched has one), ``side`` whether the runaway lies ``"above"``
+    or ``"below"`` it, ``loop_gain`` the loop gain there, ``searched`` the
+    range searched.
     """
 
     v_load: float | None
     loop_gain: float
     searched: tuple
+    side: str = "above"
 
     def text(self):
         if self.v_load is None:
             return (f"no thermal runaway for V_load {self.searched[0]:.4g} … {self.searched[1]:.4g} V "
                     f"(electrothermal loop gain at most {self.loop_gain:.3g})")
-        return (f"thermal runaway: no stable operating point above V_load = {self.v_load:.4g} V, "
+        return (f"thermal runaway: no stable operating point {self.side} V_load = {self.v_load:.4g} V, "
                 f"electrothermal loop gain {self.loop_gain:.3g} there")
 
     def to_dict(self):
-        return {"v_load": self.v_load, "loop_gain": self.loop_gain, "searched": list(self.searched),
-                "text": self.text()}
+        return {"v_load": self.v_load, "side": self.side, "loop_gain": self.loop_gain,
+                "searched": list(self.searched), "text": self.text()}
 
 
 def runaway_threshold(model, values, v_range, network=None, points=65):
     """Continuation in the load voltage: the last stable point before thermal runaway.
 
     The load voltage is stepped across ``v_range``; between the last stable
-    and the first runaway step the edge is found by bisection.
+    and the first runaway step (from whichever end is stable) the edge is
+    found by bisection.
+
+    Raises
+    ------
+    kit.errors.ConvergenceError
+        If every load voltage searched runs away.
 
     Examples
     --------
@@ -303,24 +311,29 @@ def runaway_threshold(model, values, v_range, network=None, points=65):
     >>> runaway_threshold(model_of(d), d.parameters(), (4.0, 10.0)).v_load is None
     True
     """
-    lo, hi = v_range
+    lo, hi = float(v_range[0]), float(v_range[1])
     grid = np.linspace(lo, hi, points)
     solved = solve_self_heated(model, values | {"v_load": grid}, network)
     bad = solved.runaway
     if not np.any(bad):
         return RunawayThreshold(None, float(np.max(solved.loop_gain[solved.converged], initial=0.0)), (lo, hi))
-    first = int(np.argmax(bad))
-    if first == 0:
-        raise ConvergenceError("thermal runaway already at the low end of the load voltages searched",
-                               parameter="v_load", value=lo, valid="a range that starts with a stable point")
-    a, b, gain = grid[first - 1], grid[first], float(solved.loop_gain[first - 1])
+    if np.all(bad):
+        raise ConvergenceError(f"thermal runaway: no stable operating point for V_load {lo:.4g} … {hi:.4g} V "
+                               "(electrothermal loop gain >= 1 everywhere)", parameter="v_load",
+                               valid="a lower dissipation: less current, a cooler package or more voltage headroom "
+                                     "taken by a resistor")
+    side = "below" if bad[0] else "above"
+    order = np.arange(points) if side == "above" else np.arange(points)[::-1]
+    first = int(order[int(np.argmax(bad[order]))])
+    last = first - 1 if side == "above" else first + 1
+    good, wrong, gain = grid[last], grid[first], float(solved.loop_gain[last])
     for _ in range(THRESHOLD_BISECTIONS):
-        mid = 0.5 * (a + b)
+        mid = 0.5 * (good + wrong)
         one = solve_self_heated(model, values | {"v_load": np.array([mid])}, network)
         if one.runaway[0]:
-            b = mid
+            wrong = mid
         else:
-            a, gain = mid, float(one.loop_gain[0])
-        if b - a < 1e-6 * max(1.0, abs(b)):
+            good, gain = mid, float(one.loop_gain[0])
+        if abs(wrong - good) < 1e-6 * max(1.0, abs(wrong)):
             break
-    return RunawayThreshold(float(a), gain, (lo, hi))
+    return RunawayThreshold(float(good), gain, (lo, hi), side)
