@@ -32,7 +32,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, Phase, given, settings
 from hypothesis import strategies as st
 
 import kit
@@ -534,13 +534,16 @@ def _no_nan(value, where="result"):
 
 
 RANDOM_EXAMPLES = 3  # per topology and polarity; the module's time budget is a minute
+# No shrinking: each shrink step is a full evaluation, and a failing example
+# is printed (and replayed, the profile being derandomized) as it was drawn.
+RANDOM_PHASES = (Phase.explicit, Phase.generate)
 
 
 @BOTH
 def test_random_designs_evaluate_cleanly_or_are_refused_naming_a_parameter(top, polarity):
     words = vocabulary(top, polarity)
 
-    @settings(max_examples=RANDOM_EXAMPLES, suppress_health_check=[HealthCheck.too_slow])
+    @settings(max_examples=RANDOM_EXAMPLES, phases=RANDOM_PHASES, suppress_health_check=[HealthCheck.too_slow])
     @given(random_designs(top, polarity))
     def check(drawn):
         values, devices, temp = drawn
