@@ -241,6 +241,16 @@ def check_drift(model, values):
     model : kit.model.compiled.CompiledModel
     values : dict
         Every parameter name -> float (one design point).
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.model.compiled import compile_model
+    >>> d = kit.design("basic_mirror", i_ref_tc=-0.01, temp=450)
+    >>> check_drift(compile_model(d.topology, d.polarity), d.parameters())  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    kit.errors.ParameterError: i_ref_tc = -0.01: I_REF drifts through zero ... (valid: > -0.006585 1/K at temp = 450 K)
     """
     q = model.operating(parameter_array(model, values))[:, 0]
     reference = model.operating(parameter_array(model, values | {"temp": values["t_ref"]}))[:, 0]
