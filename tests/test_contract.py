@@ -134,8 +134,10 @@ def test_output_direction_follows_the_output_device(top, polarity):
 @EACH_TOPOLOGY
 def test_complementary_polarity_has_the_same_parts_each_of_the_other_sense(top):
     first, second = (structure(top, pol) for pol in top.polarities)
-    assert [p.name for p in first.devices] == [p.name for p in second.devices] or \
-        sorted(p.name for p in first.devices) == sorted(p.name for p in second.devices)
+    # Same parts by name (their order may differ: a build adds the parts near
+    # the emitter rail first), each of the kind's other polarity (complementary
+    # devices; DEVELOPERS.md, "Polarity words").
+    assert sorted(p.name for p in first.devices) == sorted(p.name for p in second.devices)
     for part in first.devices:
         other = second.part(part.name)
         assert other.kind is part.kind
@@ -563,6 +565,24 @@ def test_random_designs_evaluate_cleanly_or_are_refused_naming_a_parameter(top, 
             assert not np.isnan(array).any()
 
     check()
+
+
+@EACH_TOPOLOGY
+def test_a_reference_drifted_through_zero_is_refused_naming_its_coefficient(top):
+    # A linear law X (1 + tc (T - T_ref)) carried past zero (a reference current
+    # that reverses) is no point a real part reaches; the refusal names the tc.
+    polarity = top.polarities[0]
+    drifting = [v for v in top.values if v.name.endswith("_tc") and v.low < 0
+                and 298.15 + 1 / -v.low + 1 <= 500.0]
+    if not drifting:
+        pytest.skip("no temperature coefficient of this topology can reach zero inside 150 … 500 K")
+    for value in drifting:
+        d = kit.design(top.key, polarity, temp=298.15 + 1 / -value.low + 1, **{value.name: value.low})
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")
+            with pytest.raises(kit.DesignError) as refused:
+                kit.evaluate(d)
+        assert refused.value.parameter == value.name, str(refused.value)
 
 
 # ---------------------------------------------------------------------------------------------
