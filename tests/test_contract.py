@@ -18,8 +18,8 @@ topology's polarity words.  The checks:
 
 Each check names its justification beside it.  Run time: the checks need the
 compiled model of every topology and polarity; with generated code cached
-(``BIASBOOK_CACHE``) the module runs in well under a minute, a cold cache
-adds the derivations (about a minute and a half of CPU for the registry).
+(``BIASBOOK_CACHE``) the module takes about half a minute of CPU, a cold
+cache adds the derivations (about 75 s of CPU for the registry of 22).
 """
 
 from __future__ import annotations
