@@ -19,7 +19,7 @@ import numpy as np
 from kit.errors import OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
 from kit.model.compliance import find_compliance
-from kit.model.solve import check_edge, solve_points
+from kit.model.solve import check_drift, check_edge, solve_points
 
 DISSIPATION_POINTS = 101
 PPM = 1e6
@@ -242,12 +242,20 @@ def evaluate(design, *, edge="vce_sat"):
     check_edge(edge)
     model = model_of(design)
     values = design.parameters()
-    points = solve_points(model, values).require("design point")
+    check_drift(model, values)
+    points = solve_points(model, values)
     try:
         compliance = find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
     v_load = values["v_load"]
+    if not points.converged.all() and not compliance.contains(v_load):
+        # Far outside compliance the solve may not follow the circuit at all: the
+        # cause to report is the load voltage, not the solve.
+        raise OperatingPointError(
+            "load voltage outside compliance", parameter="v_load", value=v_load,
+            valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
+    points.require("design point")
     worst, keys = points.worst_margin(edge)
     if worst[0] < 0 or not compliance.contains(v_load):
         part, cause = keys[0]

@@ -21,6 +21,7 @@ node voltages.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -230,6 +231,49 @@ def parameter_array(model, values, size=None):
         if not np.all(np.isfinite(row) | (np.isposinf(row) & _may_be_infinite(name))):
             raise ParameterError("must be finite", parameter=name, value=float(row[~np.isfinite(row)][0]))
     return p
+
+
+def check_drift(model, values):
+    """Refuse a point at which a rail, a reference current or a resistance has drifted through zero.
+
+    A linear temperature law ``X (1 + tc (T - T_ref))`` holds near ``T_ref``;
+    a large coefficient far from it would carry the value through zero (a
+    reference current that reverses, a resistor below 0 Ω), which no real part
+    does.  The error names the coefficient and the range that keeps the sign.
+
+    Parameters
+    ----------
+    model : kit.model.compiled.CompiledModel
+    values : dict
+        Every parameter name -> float (one design point).
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.model.compiled import compile_model
+    >>> d = kit.design("basic_mirror", i_ref_tc=-0.01, temp=450)
+    >>> check_drift(compile_model(d.topology, d.polarity), d.parameters())  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    kit.errors.ParameterError: i_ref_tc = -0.01: I_REF drifts through zero ... (valid: > -0.006585 1/K at temp = 450 K)
+    """
+    q = model.operating(parameter_array(model, values))[:, 0]
+    reference = model.operating(parameter_array(model, values | {"temp": values["t_ref"]}))[:, 0]
+    watched = list(model.manifest["sources"])
+    watched += [model.operating_index[part.name] for part in model.structure.parts
+                if part.kind.key == "resistor" and part.name in model.operating_index]
+    feeds = {}
+    for j, k in model.manifest["dq_dp"]:
+        feeds.setdefault(j, []).append(model.parameter_names[k])
+    rise = values["temp"] - values["t_ref"]
+    for j in watched:
+        if reference[j] != 0 and not q[j] * reference[j] > 0:
+            coefficient = next((n for n in feeds.get(j, ()) if n.endswith("_tc") or n.startswith("tcr_")), "temp")
+            limit = -1.0 / rise if rise else math.inf
+            valid = (f"> {limit:.4g} 1/K at temp = {values['temp']:.5g} K" if rise > 0
+                     else f"< {limit:.4g} 1/K at temp = {values['temp']:.5g} K")
+            raise ParameterError(f"{model.operating_names[j]} drifts through zero at the point's temperature",
+                                 parameter=coefficient, value=values.get(coefficient), valid=valid)
 
 
 def _may_be_infinite(name):
