@@ -82,8 +82,8 @@ VALUES = (
     Value("r3", "Ω", "resistor from the − input to 0 V", 10e3, 1.0, 1e9, "resistor"),
     Value("r4", "Ω", "feedback resistor from the op-amp output to the − input", 10e3, 1.0, 1e9, "resistor"),
     Value("v_in", "V", "input voltage (either sign: the output current follows it)", 1.0, -100.0, 100.0),
-    Value("v_supply", "V", "op-amp supply magnitude, ±V_S (bounds the load voltages searched; the "
-          "output swing is U1's own)", 15.0, 0.5, 1000.0, "supply"),
+    Value("v_supply", "V", "op-amp supply magnitude, ±V_S (U1's output swing stays within it)",
+          15.0, 0.5, 1000.0, "supply"),
     common.load(2.0, "load-node voltage against 0 V (the grounded load's voltage)"),
 )
 
@@ -99,15 +99,17 @@ def build(c):
     """Rails, the bridge, U1; closed forms solved from the circuit's own nodal equations."""
     import sympy as sp
 
-    c.parameter("v_supply")  # no equation uses it: it bounds the compliance search
     c.rail("0", 0)
+    # U1 runs from ±V_S: its output swing stays within them.
+    c.rail("vs_pos", c.parameter("v_supply"))
+    c.rail("vs_neg", -c.parameter("v_supply"))
     c.rail("in", c.parameter("v_in"))
     c.rail("out", c.parameter("v_load"))
     c.output("out", -1)  # out of the pump into the grounded load
     for node in ("p", "n", "o"):
         c.node(node)
     # The op-amp first: a driven node takes its driver before any other part.
-    u1 = c.add(OPAMP, "U1", p="p", n="n", o="o", typical=OPAMP_SPLIT)
+    u1 = c.add(OPAMP, "U1", p="p", n="n", o="o", vp="vs_pos", vn="vs_neg", typical=OPAMP_SPLIT)
     r1 = c.resistor("R1", "in", "p", "r1")
     r2a = c.resistor("R2a", "p", "out", "r2a")
     r2b = c.resistor("R2b", "o", "out", "r2b")
