@@ -46,8 +46,22 @@ def module_path(module, package=PACKAGE):
     return candidate.with_suffix(".py")
 
 
+# (file, its modification time and size, module) -> the kit modules it imports.  Every
+# topology's key walks the same shared modules; parsing each file once per process
+# (again if it changes) keeps a run over all topologies from re-reading them ~100 times.
+_IMPORTS = {}
+
+
 def _imports(path, module):
     """The ``kit`` modules one source file imports (at any depth in the file)."""
+    stat = path.stat()
+    key = (str(path), stat.st_mtime_ns, stat.st_size, module)
+    if key not in _IMPORTS:
+        _IMPORTS[key] = frozenset(_parsed_imports(path, module))
+    return _IMPORTS[key]
+
+
+def _parsed_imports(path, module):
     tree = ast.parse(path.read_text(encoding="utf-8"))
     found = set()
     package = module if path.name == "__init__.py" else module.rpartition(".")[0]
