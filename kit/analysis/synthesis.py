@@ -362,50 +362,73 @@ def _setting_value(design):
     return max(candidates, key=lambda n: abs(slope[model.parameter_index[n]] * params[n]))
 
 
+SIZE_ITERATIONS = 60
+SIZE_TOLERANCE = 1e-10  # in log(current): the sized nominal current within 1e-10 of the target
+
+
 def _size_all(plans, name, target):
     """Each plan with value ``name`` scaled so its exact nominal current equals ``target``.
 
-    One batched solve over a log grid brackets every plan's root; each root
-    is then polished with Brent's method.  Plans with no root are dropped.
+    One batched solve over a log grid brackets every plan's root (the
+    crossing nearest its starting value); then all plans are refined
+    together by Newton's method on log(value) with the exact sensitivity,
+    kept inside the bracket (a step leaving it bisects instead).  Plans with
+    no root in the value's range are dropped.
     """
     from kit.analysis.evaluation import model_of
     from kit.model.solve import solve_points
 
     model = model_of(plans[0])
     spec = plans[0].topology.value(name)
+    row = model.parameter_index[name]
     offsets = np.linspace(-4, 4, 33)
     bases = [p.parameters() for p in plans]
-    starts = np.log([b[name] for b in bases])
+    columns = {k: np.array([b[k] for b in bases]) for k in bases[0]}
+    starts = np.log(columns[name])
     grid = starts[:, None] + offsets[None, :]
     inside = (grid >= np.log(spec.low)) & (grid <= np.log(spec.high))
-    values = {k: np.repeat([b[k] for b in bases], offsets.size) for k in bases[0]}
+    values = {k: np.repeat(v, offsets.size) for k, v in columns.items()}
     values[name] = np.exp(np.clip(grid, np.log(spec.low), np.log(spec.high))).ravel()
     points = solve_points(model, values)
     current = np.where(points.i_out > 0, points.i_out, 1e-300)
     errors = np.where(points.converged, np.log(current / target), np.nan).reshape(grid.shape)
     errors = np.where(inside, errors, np.nan)
-    sized = []
-    for k, plan in enumerate(plans):
-        e, g = errors[k], grid[k]
-        finite = np.isfinite(e)
-        crossings = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(e[:-1]) != np.sign(e[1:])))
-        if crossings.size == 0:
-            continue
-        j = crossings[np.argmin(np.abs(g[crossings] - starts[k]))]
-        base = bases[k]
-
-        def error(log_value, base=base):
-            point = solve_points(model, base | {name: np.exp(np.atleast_1d(log_value))})
-            if not point.converged[0] or point.i_out[0] <= 0:
-                return np.nan
-            return float(np.log(point.i_out[0] / target))
-
-        lo, hi = error(g[j]), error(g[j + 1])
-        if not (np.isfinite(lo) and np.isfinite(hi)) or np.sign(lo) == np.sign(hi):
-            continue
-        root = brentq(error, g[j], g[j + 1], xtol=1e-10)
-        sized.append(plan.with_values(**{name: float(np.exp(root))}))
-    return sized
+    finite = np.isfinite(errors)
+    crossing = finite[:, :-1] & finite[:, 1:] & (np.sign(errors[:, :-1]) != np.sign(errors[:, 1:]))
+    distance = np.where(crossing, np.abs(grid[:, :-1] - starts[:, None]), np.inf)
+    found = crossing.any(axis=1)
+    if not found.any():
+        return []
+    keep = np.flatnonzero(found)
+    j = np.argmin(distance[keep], axis=1)
+    a, b = grid[keep, j], grid[keep, j + 1]
+    fa = errors[keep, j]
+    x = np.where(np.abs(fa) < np.abs(errors[keep, j + 1]), a, b)
+    sub = {k: v[keep] for k, v in columns.items()}
+    done = np.zeros(keep.size, dtype=bool)
+    ok = np.zeros(keep.size, dtype=bool)
+    for _ in range(SIZE_ITERATIONS):
+        todo = np.flatnonzero(~done)
+        if todo.size == 0:
+            break
+        pts = solve_points(model, {k: v[todo] for k, v in sub.items()} | {name: np.exp(x[todo])})
+        good = pts.converged & (pts.i_out > 0)
+        e = np.where(good, np.log(np.where(good, pts.i_out, 1.0) / target), np.nan)
+        converged = good & (np.abs(e) <= SIZE_TOLERANCE)
+        ok[todo[converged]] = True
+        done[todo[converged]] = True
+        # Keep the bracket: the end whose error has the sign of e moves to x.
+        same = good & (np.sign(e) == np.sign(fa[todo]))
+        a[todo[same]], fa[todo[same]] = x[todo[same]], e[same]
+        b[todo[good & ~same]] = x[todo[good & ~same]]
+        slope = pts.di_dp[row] * np.exp(x[todo]) / np.where(good, pts.i_out, 1.0)  # dlog I / dlog value
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = x[todo] - e / slope
+        lo, hi = np.minimum(a[todo], b[todo]), np.maximum(a[todo], b[todo])
+        bisect = ~good | ~np.isfinite(step) | (step <= lo) | (step >= hi)
+        x[todo] = np.where(converged, x[todo], np.where(bisect, 0.5 * (lo + hi), step))
+        done[todo[(hi - lo) < 1e-13]] = True
+    return [plans[keep[k]].with_values(**{name: float(np.exp(x[k]))}) for k in np.flatnonzero(ok)]
 
 
 PLAN_SCALES = (0.3, 1.0, 3.3)  # other resistors tried at these multiples of their starting values
@@ -557,6 +580,8 @@ def _one(top, polarity, spec, record, series, self_heating, edge):
     references = _references(start)
     confirmed = []
     for k in np.argsort(-margins)[:CONFIRMED]:
+        if confirmed and margins[k] < 0:
+            break  # the screen already sees it fail at exactly solved points: no second opinion needed
         c = candidates[k]
         own_spec, how = _bounds_around(fitted, c, start_params, searched)
         wc = worst_case(c, own_spec, methods=("extreme-value",), self_heating=self_heating, edge=edge)
