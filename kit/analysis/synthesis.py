@@ -123,7 +123,9 @@ class Synthesis:
     margin first; ``referenced`` those that need an external (ideal)
     reference, ranked the same way.  ``infeasible`` maps
     ``"topology/polarity"`` to the reasons it cannot meet the spec,
-    ``skipped`` to the spec entries that did not apply to it.  ``defaults``
+    ``skipped`` to the spec entries that did not apply to it; ``rejected``
+    holds the best confirmed (failing) candidate of each topology that had
+    one, so the nearest miss can be looked at.  ``defaults``
     lists what the analysis assumed: ``{"name", "value", "given"}`` with
     ``given`` False where nobody wrote it.
     """
@@ -136,6 +138,7 @@ class Synthesis:
     skipped: dict = field(default_factory=dict)
     defaults: tuple = ()
     tolerance: float = 0.0
+    rejected: list = field(default_factory=list)
 
     @property
     def best(self):
@@ -153,6 +156,7 @@ class Synthesis:
                 "candidates": [c.to_dict() for c in self.candidates],
                 "referenced": [c.to_dict() for c in self.referenced],
                 "infeasible": {k: list(v) for k, v in self.infeasible.items()},
+                "rejected": [c.to_dict() for c in self.rejected],
                 "skipped": {k: [{"entry": e, "why": w} for e, w in v] for k, v in self.skipped.items()}}
 
 
@@ -559,7 +563,11 @@ def _screen(spec, candidates, searched, edge):
 # --- one topology -----------------------------------------------------------------------
 
 def _one(top, polarity, spec, record, series, self_heating, edge):
-    """``(candidate or None, reasons, skipped)`` for one topology and polarity."""
+    """``(best candidate or None, reasons, skipped)`` for one topology and polarity.
+
+    The candidate is returned whether it passed or not (``reasons`` empty
+    when it did); None when no value of the setting value reaches the target.
+    """
     start, sources, parts = _start(top, polarity, spec, record)
     fitted, skipped = _fit_spec(spec, start)
     name = _setting_value(start)
@@ -595,7 +603,7 @@ def _one(top, polarity, spec, record, series, self_heating, edge):
     best = max(confirmed, key=lambda c: c.margin)
     if best.passed:
         return best, [], skipped
-    return None, list(best.reasons) or ["worst case leaves the spec"], skipped
+    return best, list(best.reasons) or ["worst case leaves the spec"], skipped
 
 
 def _series(series, tolerance):
@@ -676,7 +684,7 @@ def synthesize(spec, *, start=None, topologies=None, polarities=None, series=Non
             wanted = list(top.polarities)
         plan += [(top, p) for p in wanted]
     heating = True if self_heating is None else bool(self_heating)
-    ranked, referenced, infeasible, skipped = [], [], {}, {}
+    ranked, referenced, rejected, infeasible, skipped = [], [], [], {}, {}
     for index, (top, polarity) in enumerate(plan, 1):
         key = f"{top.key}/{polarity}"
         if progress is not None:
@@ -688,11 +696,13 @@ def synthesize(spec, *, start=None, topologies=None, polarities=None, series=Non
             continue
         if skips:
             skipped[key] = list(skips)
-        if best is None:
+        if best is None or not best.passed:
             infeasible[key] = reasons
+            if best is not None:
+                rejected.append(best)
         else:
             (ranked if best.self_contained else referenced).append(best)
     ranked.sort(key=lambda c: -c.margin)
     referenced.sort(key=lambda c: -c.margin)
     return Synthesis(spec, chosen_series["name"], ranked, infeasible, referenced, skipped,
-                     _defaults(spec, start, chosen_series, self_heating), spec.resistor_tolerance)
+                     _defaults(spec, start, chosen_series, self_heating), spec.resistor_tolerance, rejected)
