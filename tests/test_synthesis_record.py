@@ -67,7 +67,7 @@ def _with_spec(tmp_path, source, spec_toml, name="case.toml", replace_lines=()):
 
 def _own(result):
     """The one candidate of a single-topology synthesis, passing or not."""
-    found = result.candidates + result.referenced + result.rejected
+    found = result.candidates + result.rejected
     assert len(found) == 1, (found, result.infeasible)
     return found[0]
 
@@ -194,7 +194,7 @@ def test_topology_specific_bound_with_every_topology_runs(led_all):
     expected = [f"{t.key}/{t.polarities[0]}" for t in kit.topologies.all_topologies()]
     assert tried == expected
     assert [(i, n) for i, n, _ in calls] == [(k, len(expected)) for k in range(1, len(expected) + 1)]
-    found = {f"{c.design.topology.key}/{c.design.polarity}" for c in result.candidates + result.referenced}
+    found = {f"{c.design.topology.key}/{c.design.polarity}" for c in result.candidates}
     assert found | set(result.infeasible) == set(expected)
     # the op-amp offset bound is skipped, with its reason, where there is no op-amp
     skipped = dict(result.skipped["divider_source/npn"])
@@ -219,7 +219,8 @@ def test_ideal_references_are_ranked_apart_and_flagged(led_all):
         # an ideal current source feeding the mirror, or an ideal set voltage (common practice, no source)
         assert whys.get("I_REF") == "reference current" or whys.get("v_set") == "reference voltage" \
             or any(name in whys for name in ("v_bias", "v_in")), c.ideal
-    for c in result.candidates:
+    assert result.candidates == result.self_contained + result.referenced  # two rankings, in this order
+    for c in result.self_contained:
         assert c.self_contained and not c.references
         assert not any(why in ("reference current", "reference voltage") for _, why in c.ideal)
     margins = [c.margin for c in result.referenced]
@@ -250,7 +251,8 @@ def test_zero_nominal_bounds_run(tmp_path):
     code, out, err = _run_cli("synthesize", str(path), "--json")
     assert code == 0 and "Traceback" not in err
     data = json.loads(out)["synthesis"]
-    held = data["referenced"][0]["design"]["devices"]["U1"]
+    assert data["candidates"][0]["self_contained"] is False
+    held = data["candidates"][0]["design"]["devices"]["U1"]
     assert held["v_os"] == 0.0
     # A mirror whose reference drift is 0 ppm/K, bounded to +-100 ppm/K, every topology tried.
     mirror = _with_spec(tmp_path, MIRROR, "\n".join([
@@ -340,5 +342,5 @@ def test_all_topologies_print_progress_on_stderr():
     count = len(kit.topologies.all_topologies())  # each has a sink (its first polarity)
     assert len(lines) == count and lines[0].startswith(f"synthesize [1/{count}] ")
     data = json.loads(out)
-    assert code in (0, 1) and set(data["synthesis"]) >= {"candidates", "referenced", "infeasible", "defaults"}
+    assert code in (0, 1) and set(data["synthesis"]) >= {"candidates", "rejected", "infeasible", "defaults"}
     assert np.isfinite([c["margin"] for c in data["synthesis"]["candidates"]]).all()

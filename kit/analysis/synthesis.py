@@ -119,9 +119,10 @@ class Candidate:
 class Synthesis:
     """Ranked candidates, apart by whether they need an external reference.
 
-    ``candidates`` are the self-contained designs that meet the spec, best
-    margin first; ``referenced`` those that need an external (ideal)
-    reference, ranked the same way.  ``infeasible`` maps
+    ``candidates`` holds the designs that meet the spec in two rankings one
+    after the other: the self-contained ones, best margin first
+    (:attr:`self_contained`), then those that need an external (ideal)
+    reference, ranked among themselves (:attr:`referenced`).  ``infeasible`` maps
     ``"topology/polarity"`` to the reasons it cannot meet the spec,
     ``skipped`` to the spec entries that did not apply to it; ``rejected``
     holds the best confirmed (failing) candidate of each topology that had
@@ -134,27 +135,32 @@ class Synthesis:
     series: str
     candidates: list
     infeasible: dict = field(default_factory=dict)
-    referenced: list = field(default_factory=list)
     skipped: dict = field(default_factory=dict)
     defaults: tuple = ()
     tolerance: float = 0.0
     rejected: list = field(default_factory=list)
 
     @property
+    def self_contained(self):
+        """The candidates that need nothing from outside but the supply, ranked."""
+        return [c for c in self.candidates if c.self_contained]
+
+    @property
+    def referenced(self):
+        """The candidates that need an external (ideal) reference, ranked apart."""
+        return [c for c in self.candidates if not c.self_contained]
+
+    @property
     def best(self):
         """The best passing self-contained design, else the best needing a reference, else None."""
-        for group in (self.candidates, self.referenced):
-            passing = [c for c in group if c.passed]
-            if passing:
-                return passing[0]
-        return None
+        passing = [c for c in self.candidates if c.passed]
+        return passing[0] if passing else None
 
     def to_dict(self):
         return {"spec": self.spec.to_dict(), "series": self.series,
                 "resistor_tolerance": self.tolerance,
                 "defaults": [dict(d) for d in self.defaults],
                 "candidates": [c.to_dict() for c in self.candidates],
-                "referenced": [c.to_dict() for c in self.referenced],
                 "infeasible": {k: list(v) for k, v in self.infeasible.items()},
                 "rejected": [c.to_dict() for c in self.rejected],
                 "skipped": {k: [{"entry": e, "why": w} for e, w in v] for k, v in self.skipped.items()}}
@@ -704,5 +710,5 @@ def synthesize(spec, *, start=None, topologies=None, polarities=None, series=Non
             (ranked if best.self_contained else referenced).append(best)
     ranked.sort(key=lambda c: -c.margin)
     referenced.sort(key=lambda c: -c.margin)
-    return Synthesis(spec, chosen_series["name"], ranked, infeasible, referenced, skipped,
+    return Synthesis(spec, chosen_series["name"], ranked + referenced, infeasible, skipped,
                      _defaults(spec, start, chosen_series, self_heating), spec.resistor_tolerance, rejected)

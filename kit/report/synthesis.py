@@ -84,11 +84,11 @@ def text(result):
     lines = [f"standard values from {result.series}, resistors {_percent(result.tolerance)}; "
              "ranked by extreme-value margin", "assumed:"]
     lines += [f"  {what} [{mark}]" for what, mark in default_lines(result)]
-    if result.candidates:
+    if result.self_contained:
         lines.append("self-contained:")
     elif not result.referenced:
         lines.append("no candidate meets the spec")
-    for rank, c in enumerate(result.candidates, 1):
+    for rank, c in enumerate(result.self_contained, 1):
         lines += _candidate_lines(rank, c)
     if result.referenced:
         lines.append("needing an external (ideal) reference, ranked apart:")
@@ -118,7 +118,7 @@ def html(result):
     assumed = tables.table(["applied", ""], [list(line) for line in default_lines(result)])
     body = tables.section("Assumed", assumed)
     body += tables.section(f"Synthesis ({result.series} values, resistors {_percent(result.tolerance)})",
-                           tables.table(headers, _rows(result.candidates), numeric=(4, 5, 6)))
+                           tables.table(headers, _rows(result.self_contained), numeric=(4, 5, 6)))
     if result.referenced:
         body += tables.section("Needing an external (ideal) reference",
                                tables.table(headers, _rows(result.referenced), numeric=(4, 5, 6)))
