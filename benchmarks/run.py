@@ -141,7 +141,7 @@ def max_relative_difference(a, b):
 def compiled_model():
     """The kit's compiled divider_source model (from the disk cache if filled)."""
     from kit import topologies
-    from kit.derive import compile_model
+    from kit.model.compiled import compile_model
 
     return compile_model(topologies.get(TOPOLOGY), POLARITY)
 
@@ -179,8 +179,8 @@ BOLTZMANN_OVER_CHARGE = 1.380649e-23 / 1.602176634e-19  # V/K, exact in the 2019
 def operating_by_hand(v):
     """Operating values at the point's temperature from the parameters ``v`` (arrays).
 
-    Textbook temperature laws: ``V_T = kT/q``, ``I_S (T/T0)^XTI exp(E_g/V_T (T/T0 - 1))``,
-    ``beta_F (T/T0)^XTB (1 + TC (T - T0))``, ``R (1 + TCR (T - T0))``.
+    Textbook temperature laws: ``V_T = kT/q``, ``I_S (T/T0)^m_IS exp(E_g/V_T (T/T0 - 1))``,
+    ``beta_F (T/T0)^m_beta (1 + TC (T - T0))``, ``R (1 + TCR (T - T0))``.
     """
     t, t0 = v["temp"], v["t_ref"]
     ratio, rise = t / t0, t - t0
@@ -189,8 +189,8 @@ def operating_by_hand(v):
         "v_t": v_t, "v_cc": v["v_supply"], "v_out": v["v_load"],
         "r1": v["r1"] * (1 + v["tcr_r1"] * rise), "r2": v["r2"] * (1 + v["tcr_r2"] * rise),
         "r_e": v["r_e"] * (1 + v["tcr_r_e"] * rise),
-        "i_s": v["Q1.i_s"] * ratio ** v["Q1.xti"] * np.exp(v["Q1.e_g"] / v_t * (ratio - 1)),
-        "beta": v["Q1.beta_f"] * ratio ** v["Q1.xtb"] * (1 + v["Q1.beta_tc"] * rise),
+        "i_s": v["Q1.i_s"] * ratio ** v["Q1.i_s_temp_exponent"] * np.exp(v["Q1.e_g"] / v_t * (ratio - 1)),
+        "beta": v["Q1.beta_f"] * ratio ** v["Q1.beta_temp_exponent"] * (1 + v["Q1.beta_tc"] * rise),
         "beta_r": v["Q1.beta_r"], "v_a": v["Q1.v_a"],
     }
 
@@ -260,7 +260,7 @@ def collector_current_by_hand(x, o):
 )
 def closed_form(sizes):
     """The kit's compiled Wright-ω closed form against the same formula written in NumPy."""
-    from kit.solve import parameter_array
+    from kit.model.solve import parameter_array
 
     model = compiled_model()
     q = model.operating(parameter_array(model, random_designs(sizes["closed_form_points"], seed=1)))
@@ -288,9 +288,9 @@ def residuals_by_hand(x, o):
     note=("exact_solve_vectorised_speedup: a per-point loop of scipy.optimize.root(method='hybr', "
           "xtol=1e-12, the kit's step tolerance) on hand-written KCL, timed on the first "
           "{scipy_points} of {solve_points} random designs and scaled per point to all "
-          "{solve_points}, over kit.solve.solve_points on all {solve_points} at once. Plain hybr "
+          "{solve_points}, over kit.model.solve.solve_points on all {solve_points} at once. Plain hybr "
           "(Jacobian by differences) is the headline; *_analytic_jacobian passes the hand-written "
-          "Jacobian instead. SciPy starts from the kit's closed-form guess and gets its operating "
+          "Jacobian instead. SciPy starts from the kit's declared starting voltages and gets its operating "
           "values precomputed (both untimed, which favours SciPy); the kit's time includes its own. "
           "Medians of {solve_repeats} (kit) and {scipy_repeats} (each SciPy loop) alternating "
           "repeats after one untimed call each."),
@@ -299,13 +299,14 @@ def exact_solve(sizes):
     """Vectorised damped Newton of the kit against per-point SciPy root loops."""
     from scipy.optimize import root
 
-    from kit.solve import solve_points
+    from kit.model.solve import parameter_array, solve_points
 
     model = compiled_model()
     n, m = sizes["solve_points"], sizes["scipy_points"]
     values = random_designs(n, seed=2)
     points = solve_points(model, values)
-    x0 = model.topology.initial_guess(model, points.q)[:, :m].T
+    # The kit's declared starting voltages (the divider declares every node's).
+    x0 = model.starts(model.operating(parameter_array(model, values)))[:, :m].T
     by_hand = operating_by_hand(values)
     operating = [{key: float(np.broadcast_to(a, (n,))[k]) for key, a in by_hand.items()}
                  for k in range(m)]
@@ -355,7 +356,7 @@ import json, sys, time
 if sys.argv[1:] == ["preimport"]:
     import numpy, scipy.constants, scipy.special
 from kit import topologies
-from kit.derive import compile_model
+from kit.model.compiled import compile_model
 topology = topologies.get({TOPOLOGY!r})
 start = time.perf_counter()
 compile_model(topology, {POLARITY!r})
@@ -380,7 +381,7 @@ def _derive_in_subprocess(cache, *arguments):
     "derive",
     goals={"derive_warm_s": "<= 0.5"},
     note=("derive_cold_s / derive_warm_s: time around compile_model('{topology}', '{polarity}') in a "
-          "fresh interpreter (after importing kit.derive and kit.topologies) with BIASBOOK_CACHE at "
+          "fresh interpreter (after importing kit.model.compiled and kit.topologies) with BIASBOOK_CACHE at "
           "a new empty directory (cold), then in a second fresh interpreter on the filled cache "
           "(warm); derive_warm_preimported_s: warm again in a third interpreter that imported "
           "numpy, scipy.constants and scipy.special before the clock started; *_process_s: the "
@@ -495,7 +496,7 @@ def table(report):
 )
 def monte_carlo(sizes):
     """Samples per second of the exact solve and of the closed form, same draws."""
-    from kit.solve import parameter_array, solve_points
+    from kit.model.solve import parameter_array, solve_points
 
     model = compiled_model()
     rng = np.random.default_rng(11)

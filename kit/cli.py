@@ -35,7 +35,7 @@ EXIT_BAD_INPUT = 2
 EXIT_NOT_EVALUABLE = 3
 EXIT_CUT_SHORT = 1  # stdout closed before the report was written
 
-EDGE_WORDS = {"vce_sat": "saturated below the part's V_CE(sat)",
+EDGE_WORDS = {"vce_sat": "saturated below its V_CE(sat)",
               "vcb_zero": "saturated once the collector-base junction is forward biased by more than V_T"}
 
 
@@ -90,6 +90,24 @@ def build_parser():
     synth.add_argument("--series", type=str.upper, choices=SERIES, default=None,
                        help="E-series of the resistors, whatever their tolerance (default: the series "
                             "customary for the spec's resistor tolerance)")
+    spread_cmd = commands.add_parser(
+        "spread", help="the four questions of a current source: compliance, gain spread, tempco, supply",
+        description="For the record's design: the current and its compliance range; how much the "
+                    "current moves over a gain range (base-current part) and across the load range "
+                    "(output-conductance part), and both together; the tempco with the gain held "
+                    "constant and rising; and, with --supply, over a supply range.")
+    spread_cmd.add_argument("record", metavar="RECORD.toml", help="a design record file")
+    spread_cmd.add_argument("--beta", metavar="LO:HI",
+                            help="gain range of the bipolar transistors (default: the record's [spec] "
+                                 "range, else half to twice the nominal gain)")
+    spread_cmd.add_argument("--beta-rise", metavar="RATE",
+                            help="linear rise of the gain with temperature, e.g. '0.5 %%/K' "
+                                 "(default: the devices' own law)")
+    spread_cmd.add_argument("--supply", metavar="LO:HI", help="supply range in V, e.g. 10:14")
+    spread_cmd.add_argument("--load", metavar="LO:HI",
+                            help="load-voltage range in V (default: the record's [spec] range, else "
+                                 "from the compliance edge to the supply for a sink, 0 V for a source)")
+    spread_cmd.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     review = commands.add_parser(
         "review", help="design-review PDF of a notebook or a record",
         description="Execute a design notebook (or a record through the standard template) in a "
@@ -139,6 +157,8 @@ def main(argv=None):
             return _check(args.record, args.json, not args.no_self_heating)
         if args.command == "synthesize":
             return _synthesize(args.record, args.json, args.all, args.series)
+        if args.command == "spread":
+            return _spread(args)
         if args.command == "review":
             return _review(args.source, args.output, args.with_code, args.keep_html)
         if args.command == "new":
@@ -157,6 +177,11 @@ def _silence_stdout():
         os.dup2(devnull, sys.stdout.fileno())
     except (OSError, ValueError, AttributeError):
         pass  # stdout is not a real file (a test capture); nothing to flush
+
+
+def _say(text=""):
+    """Print report text: record text is a stranger's, so no byte of it may drive the terminal."""
+    print(terminal_text(text))
 
 
 def _emit_json(value):
@@ -198,7 +223,7 @@ def _list_topologies(as_json):
     if as_json:
         _emit_json([report.describe(t) for t in all_topologies()])
     else:
-        print("\n\n".join(report.text(t) for t in all_topologies()))
+        _say("\n\n".join(report.text(t) for t in all_topologies()))
     return EXIT_OK
 
 
@@ -223,25 +248,32 @@ def _evaluate(path, edge, as_json):
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     digest = record.content_hash()
     if as_json:
-        _emit_json({"record": record.to_dict(), "content_hash": digest,
+        _emit_json({"record": record.to_dict(), "content_hash": digest, "migrated": list(record.migrated),
                     "evaluation": report, "cautions": warnings})
         return EXIT_OK
-    print(_record_heading(record, digest, edge))
-    print()
-    print(report)
+    _say(_record_heading(record, digest, edge))
+    _say()
+    _say(report)
     if warnings:
-        print("\ncautions")
-        print("\n".join(f"  ! {w}" for w in warnings))
+        _say("\ncautions")
+        _say("\n".join(f"  ! {w}" for w in warnings))
     return EXIT_OK
 
 
 def _as_field(err, record):
-    """The error naming the record field (``values.r1``), not the kit's flat parameter."""
+    """The error naming the record field (``values.r1``), not the kit's flat parameter,
+    and its value with the parameter's unit (``"500 mV"``, as a record would write it)."""
+    from kit.devices.base import is_real_number
+    from kit.quantities import format_quantity
     from kit.record import field_path
 
-    return type(err)(err.message, parameter=field_path(err.parameter, record.design.topology,
-                                                       record.design.polarity),
-                     value=err.value, valid=err.valid)
+    design = record.design
+    value = err.value
+    words = design.vocabulary
+    if err.parameter in words and is_real_number(value) and words[err.parameter].unit:
+        value = format_quantity(float(value), words[err.parameter].unit, 4)
+    return type(err)(err.message, parameter=field_path(err.parameter, design.topology, design.polarity),
+                     value=value, valid=err.valid)
 
 
 def _record_heading(record, digest, edge):
@@ -249,8 +281,9 @@ def _record_heading(record, digest, edge):
                             f"by {record.author}" if record.author else "") if part]
     lines = [f"record    {record.title}" + (f" ({', '.join(by)})" if by else ""),
              f"file      {record.source}",
-             f"sha256    {digest}",
-             f"edge      {edge}: {EDGE_WORDS[edge]}"]
+             f"sha256    {digest}"]
+    if any(part.kind.key == "bjt" for part in record.design.structure.devices):
+        lines.append(f"edge      {edge}: a bipolar transistor counts as {EDGE_WORDS[edge]}")
     lines += [f"migrated  {note}" for note in record.migrated]
     for name, model in record.design.devices.items():
         lines.append(f"{name:<9} {model.label}")
@@ -292,17 +325,18 @@ def _check(path, as_json, self_heating):
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
-                    "check": result.to_dict()})
+                    "migrated": list(record.migrated), "check": result.to_dict()})
     else:
-        print(_record_heading(record, record.content_hash(), record.edge))
-        print()
-        print(text(result))
+        _say(_record_heading(record, record.content_hash(), record.edge))
+        _say()
+        _say(text(result))
     return EXIT_OK if result.met else EXIT_SPEC_NOT_MET
 
 
 def _synthesize(path, as_json, every, series):
     from kit.analysis.synthesis import synthesize
     from kit.report import text
+    from kit.report.worstcase import spec_line
 
     record, code = _record_with_spec(path, as_json)
     if record is None:
@@ -320,15 +354,73 @@ def _synthesize(path, as_json, every, series):
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
-                    "synthesis": result.to_dict()})
+                    "migrated": list(record.migrated), "synthesis": result.to_dict()})
     else:
-        print(f"record    {terminal_text(record.title)}\n"
-              f"spec      {record.spec.i_target:g} A ± {record.spec.tolerance:.2%}\n")
-        print(text(result))
+        _say(_record_heading(record, record.content_hash(), record.edge))
+        _say(f"spec      {spec_line(record.spec)}")
+        _say()
+        _say(text(result))
     return EXIT_OK if result.best is not None else EXIT_SPEC_NOT_MET
 
 
 # --- review, new ----------------------------------------------------------------------
+
+def _range_option(text, option, unit):
+    """``"10:14"`` -> ``(10.0, 14.0)``; a usage error naming the option otherwise."""
+    from kit.errors import ParameterError
+    from kit.quantities import parse_quantity
+
+    if text is None:
+        return None
+    parts = text.split(":")
+    if len(parts) != 2:
+        raise ParameterError("needs two values as LO:HI", parameter=option, value=text,
+                             valid=f"e.g. 10:14 (in {unit})" if unit else "e.g. 80:300")
+    return tuple(parse_quantity(part.strip(), unit or None, name=option) for part in parts)
+
+
+def _spread(args):
+    """``biasbook spread``: :func:`kit.analysis.spread.spread` on a record's design."""
+    from kit import report
+    from kit.analysis.spread import spread
+    from kit.quantities import parse_quantity
+    from kit.record import load_record
+
+    try:
+        record = load_record(args.record)
+        beta = _range_option(args.beta, "--beta", "")
+        supply = _range_option(args.supply, "--supply", "V")
+        load = _range_option(args.load, "--load", "V")
+        rise = None if args.beta_rise is None else parse_quantity(args.beta_rise, "1/K", name="--beta-rise")
+    except DesignError as err:
+        return _failure(err, EXIT_BAD_INPUT, args.json)
+    spec, said = record.spec, {"beta_source": "given", "load_source": "given"}
+    # an option the user wrote is theirs to correct (exit 2); the record's are the design's
+    options = {"beta": "--beta", "beta_rise": "--beta-rise", "supply": "--supply"}
+    if load is not None:
+        options["v_load"] = "--load"
+    if beta is None and spec is not None and spec.beta:
+        ranges = list(spec.beta.values())
+        beta, said["beta_source"] = (min(r[0] for r in ranges), max(r[1] for r in ranges)), "the record's [spec]"
+    if load is None and spec is not None and spec.v_load is not None:
+        load, said["load_source"] = spec.v_load, "the record's [spec]"
+    try:
+        result = spread(record.design, beta=beta, beta_rise=rise, supply=supply, v_load=load,
+                        edge=record.edge, **said)
+    except DesignError as err:
+        if err.parameter in options:
+            return _failure(type(err)(err.message, parameter=options[err.parameter], value=err.value,
+                                      valid=err.valid), EXIT_BAD_INPUT, args.json)
+        return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, args.json)
+    if args.json:
+        _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
+                    "spread": result.to_dict()})
+        return EXIT_OK
+    _say(_record_heading(record, record.content_hash(), record.edge))
+    _say()
+    _say(report.text(result))
+    return EXIT_OK
+
 
 def _review(source, output, with_code, keep_html):
     from kit.review.build import build_review
@@ -341,7 +433,7 @@ def _review(source, output, with_code, keep_html):
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT if err.parameter in ("source", "file") or
                         type(err).__name__ == "RecordError" else EXIT_NOT_EVALUABLE, False)
-    print(output)
+    _say(output)
     return EXIT_OK
 
 
@@ -367,10 +459,10 @@ def _new(topology, output, record_path, polarity):
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT, False)
     if os.path.exists(output):
-        print(f"biasbook: {output} exists; not overwritten", file=sys.stderr)
+        print(f"biasbook: {terminal_text(output)} exists; not overwritten", file=sys.stderr)
         return EXIT_BAD_INPUT
     nbformat.write(notebook, output)
-    print(output)
+    _say(output)
     return EXIT_OK
 
 

@@ -220,6 +220,8 @@ def format_quantity(value, unit, digits=3, *, allow_nan=False):
     ('598 µA', '1.28 MΩ')
     >>> format_quantity(0.015, "%"), format_quantity(-2.4e-3, "ppm/K")
     ('1.5 %', '-2400 ppm/K')
+    >>> format_quantity(0.01, "1/V")
+    '0.01 1/V'
     """
     _check_digits(digits)
     if not isinstance(unit, str) or unit in ("°C", "degC", "℃"):
@@ -232,6 +234,9 @@ def format_quantity(value, unit, digits=3, *, allow_nan=False):
     if unit in _FIXED_SCALE:
         shown = "ppm/K" if unit == "1/K" else unit
         return _render_fixed(number * _FIXED_SCALE[unit], shown, digits)
+    if unit.startswith("1/"):
+        # A prefix would be read as part of the 1 ("10 m1/V"): a plain number instead.
+        return f"{number:.{digits}g} {unit}"
     return _KiloQuantity(number, unit).render(prec=digits - 1)
 
 

@@ -180,8 +180,8 @@ def _finite_number(raw, field, unit, valid, allow_inf):
                         f"at most {LONGEST_QUANTITY_TEXT} characters, e.g. \"4k7\" or \"12 V\"")
         try:
             return _parse_quantity(raw, unit, name=field, allow_inf=allow_inf)
-        except ParameterError as err:  # err.valid lists the accepted spellings
-            raise _from_kit(err, field) from None
+        except ParameterError as err:  # err.valid lists the accepted spellings; add the range
+            raise _fail(err.message, field, raw, f"{valid}, written as {err.valid}") from None
     if isinstance(raw, int):
         try:
             value = float(raw)
@@ -203,6 +203,8 @@ def _parse_quantity(text, unit, **kwargs):
 
 
 def _span(low, high, unit):
+    if unit == "%":  # the kit holds fractions; people read per cent
+        return f"{100 * low:g} … {100 * high:g} % (a bare number is a fraction: 0.05 is 5 %)"
     return f"{low:g} … {high:g} {unit}".rstrip()
 
 
@@ -350,9 +352,12 @@ def _read_devices(raw, context):
 SPEC_PAIRS = {"v_load": "V", "v_supply": "V", "temp": "K"}
 SPEC_SCALARS = {"current": ("A", (1e-12, 100.0)), "tolerance": ("%", (0.0, 0.5)),
                 "resistor_tolerance": ("%", (0.0, 0.5)), "resistor_tcr": ("1/K", (0.0, 5e-3)),
-                "p_max": ("W", (1e-9, 1e4)), "mismatch": ("%", (0.0, 0.5))}
+                "p_max": ("W", (1e-9, 1e4)), "mismatch_beta": ("%", (0.0, 0.5)),
+                "mismatch_vbe": ("V", (0.0, 0.1)), "mismatch_vth": ("V", (0.0, 1.0)),
+                "mismatch_k": ("%", (0.0, 0.5)), "a_vth": ("", (0.0, 1e-6)), "a_k": ("", (0.0, 1e-6))}
+SPEC_OLD_NAMES = {"mismatch": "mismatch_beta"}  # format-2 records written before the mismatch fields
 SPEC_TABLES = ("beta", "tolerances", "tcrs", "bounds")
-SPEC_OTHER = ("beta_distribution", "samples", "seed", "matched")
+SPEC_OTHER = ("beta_distribution", "samples", "seed", "matched", "gate_area")
 
 
 def _pair_of(raw, field, unit, limits):
@@ -360,7 +365,8 @@ def _pair_of(raw, field, unit, limits):
         raise _fail("must be a pair [low, high]", field, raw, _span(*limits, unit))
     low, high = (_number(v, f"{field}[{k}]", unit, limits) for k, v in enumerate(raw))
     if low > high:
-        raise _fail("low end above high end", field, raw, "low <= high")
+        raise _fail("low end above high end", field, f"[{low:g}, {high:g}] {unit}".rstrip(),
+                    "low <= high")
     return (low, high)
 
 
@@ -371,7 +377,12 @@ def _read_spec(raw, context):
         return {}
     words = context["words"]
     table = _table(raw, "spec")
-    _only_keys(table, (*SPEC_SCALARS, *SPEC_PAIRS, *SPEC_TABLES, *SPEC_OTHER), "spec")
+    _only_keys(table, (*SPEC_SCALARS, *SPEC_OLD_NAMES, *SPEC_PAIRS, *SPEC_TABLES, *SPEC_OTHER), "spec")
+    for old, new in SPEC_OLD_NAMES.items():
+        if old in table:
+            if new in table:
+                raise _fail(f"give {new} only ({old} is its older name)", f"spec.{old}", table[old])
+            table = dict(table) | {new: table[old]}
     for name in ("current", "tolerance"):
         if name not in table:
             raise _fail("missing; a spec states the current and its tolerance", f"spec.{name}")
@@ -417,6 +428,12 @@ def _read_spec(raw, context):
             raise _fail("must be a list of lists of transistor names", "spec.matched", groups,
                         'e.g. [["Q1", "Q2"]]')
         args["matched"] = tuple(tuple(g) for g in groups)
+    if "gate_area" in table:
+        area, limits = table["gate_area"], (1e-15, 1e-3)
+        if isinstance(area, dict):
+            args["gate_area"] = {k: _number(v, f"spec.gate_area.{_key(k)}", "", limits) for k, v in area.items()}
+        else:
+            args["gate_area"] = _number(area, "spec.gate_area", "", limits)
     context["spec"] = args
     return {}
 

@@ -25,6 +25,7 @@ import pytest
 
 import kit
 from kit.quantities import format_quantity
+from kit.report.evaluation import headline
 
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
@@ -124,7 +125,7 @@ def test_tour_panel_moves_with_typed_values(lab):
 
     import numpy as np
 
-    from kit.evaluation import sweep
+    from kit.analysis.evaluation import sweep
 
     errors = []
     with sync_playwright() as p:
@@ -149,7 +150,7 @@ def test_tour_panel_moves_with_typed_values(lab):
             _wait_idle(page)
             design = kit.design("divider_source", "npn", r1="33k", r2="10k", r_e="2k0",
                                 v_supply="12 V", v_load="8 V")
-            expected = kit.evaluate(design).headline()["I_out"]
+            expected = headline(kit.evaluate(design))["I_out"]
             page.wait_for_function(f"() => document.body.innerText.includes({json.dumps(expected)})",
                                    timeout=60_000)
             # The load curve in the page's Bokeh document is the kit's exact sweep of the new design.

@@ -20,6 +20,7 @@ import tomli_w
 
 import kit
 from kit.cli import main
+from kit.model.structure import structure
 from kit.record import load_record
 from kit.topologies import all_topologies
 
@@ -28,7 +29,7 @@ EXAMPLES = sorted((ROOT / "examples").glob("*.toml"))
 # The divider-biased examples.  Other topologies' examples are evaluated by
 # their own tests; evaluating all of them here too would cost minutes on 2 cores
 # (tests/test_record.py still round-trips every example).
-DIVIDER_EXAMPLES = [p for p in EXAMPLES if load_record(p).design.topology == "divider_source"]
+DIVIDER_EXAMPLES = [p for p in EXAMPLES if load_record(p).design.topology.key == "divider_source"]
 
 
 def strict_json(text):
@@ -41,7 +42,7 @@ def strict_json(text):
 def write_record(tmp_path, name="design.toml", **values):
     # A scenario of our own: a 1.2 mA sink for a Hall-plate bias on 12 V.
     document = {
-        "biasbook_record": 1,
+        "biasbook_record": 2,
         "title": "Hall plate bias, 1.2 mA",
         "circuit": {"topology": "divider_source", "polarity": "npn"},
         "values": {"r1": "33k", "r2": "10k", "r_e": "1k8", "v_supply": "12 V", "v_load": "9 V"}
@@ -86,10 +87,22 @@ def test_topologies_json_lists_every_topology_and_what_it_derives(capsys):
     listed = strict_json(out)
     assert code == 0
     assert [t["name"] for t in listed] == [t.key for t in all_topologies()]
-    for entry in listed:
-        for quantity in ("dI/dbeta", "dI/dT", "R_out", "compliance"):
+    for entry, top in zip(listed, all_topologies()):
+        for quantity in ("dI/dT", "R_out", "compliance"):
             assert quantity in entry["derived"], (entry["name"], quantity)
-        assert all(p["range"][0] <= p["default"] <= p["range"][1] for p in entry["parameters"])
+        # dI/dbeta of every bipolar transistor (its forward-gain model parameter beta_f)
+        for part in structure(top, top.polarities[0]).devices:
+            if part.kind.key == "bjt":
+                assert f"dI/d{part.name}.beta_f" in entry["derived"], (entry["name"], part.name)
+        assert all(p["range"][0] <= d <= p["range"][1] for p in entry["parameters"] for d in p["default"].values())
+
+
+def test_topologies_list_the_derivatives_an_evaluation_reports(capsys):
+    code, out, _ = run(capsys, "topologies", "--json")
+    listed = {t["name"]: t["derived"] for t in strict_json(out)}
+    evaluation = kit.evaluate(kit.design("divider_source"))
+    reported = ["T" if s.parameter == "temp" else s.parameter for s in evaluation.sensitivities]
+    assert [d[len("dI/d"):] for d in listed["divider_source"] if d.startswith("dI/d")] == reported
 
 
 def test_topologies_text_has_a_block_per_topology_with_units(capsys):
@@ -117,8 +130,8 @@ def test_example_evaluates_as_json(capsys, example):
     assert result["record"]["title"] == record.title
     # Same code path as the library, so equal to the last bit.
     assert result["evaluation"]["i_out"] == kit.evaluate(record.design, edge=record.edge).i_out
-    for name, transistor in result["evaluation"]["transistors"].items():
-        assert transistor["region"] == "active", name
+    for name, transistor in result["evaluation"]["devices"].items():
+        assert transistor["kind"] == "bjt" and transistor["region"] == "active", name
         # 0.1-10 mA near room temperature: common practice, no source.
         assert 0.55 <= transistor["v_be"] <= 0.75, name
 
@@ -239,3 +252,67 @@ def test_python_dash_m_exit_codes(tmp_path, values, expected):
     assert "Traceback" not in result.stderr
     parsed = strict_json(result.stdout)
     assert ("evaluation" in parsed) == (expected == 0)
+
+
+# --- what a reader sees ---------------------------------------------------------------
+
+DATA = ROOT / "tests" / "data"
+RAW_REPRS = ("np.float64", "array(", "{'", "Topology(", "<kit.", "None", "nan")
+
+
+def test_format1_record_says_it_was_migrated(capsys):
+    code, out, _ = run(capsys, "evaluate", str(DATA / "format1-zener-source.toml"))
+    assert code == 0
+    assert "migrated  read as format 1 and migrated to format 2" in out
+    assert "migrated  values.v_z0 -> devices.D1.v_z0" in out
+    code, out, _ = run(capsys, "evaluate", str(DATA / "format1-zener-source.toml"), "--json")
+    migrated = strict_json(out)["migrated"]
+    assert code == 0 and migrated[0] == "read as format 1 and migrated to format 2"
+    code, out, _ = run(capsys, "evaluate", str(ROOT / "examples" / "zener_source-led-panel-sink.toml"), "--json")
+    assert code == 0 and strict_json(out)["migrated"] == []
+
+
+def test_mosfet_report_has_units_and_no_bipolar_words(capsys):
+    code, out, _ = run(capsys, "evaluate", str(ROOT / "examples" / "mos_mirror-tail-bias-integrated.toml"))
+    assert code == 0
+    # the saturation criterion (conditions.edge) is a bipolar transistor's
+    assert "V_CE(sat)" not in out and not any(line.startswith("edge") for line in out.splitlines())
+    for raw in RAW_REPRS + ("r_out_",):  # output-resistance forms by their labels, not their keys
+        assert raw not in out, raw
+    headline = dict(line.split(None, 1) for line in out.splitlines()
+                    if line.startswith("  ") and line.split(None, 1)[0] in ("I_out", "R_out", "compliance", "tempco"))
+    assert headline["I_out"].endswith("µA") and headline["R_out"].endswith("Ω")
+    assert headline["compliance"].endswith(" V") and headline["tempco"].endswith("ppm/K")
+
+
+def test_synthesize_heading_gives_the_spec_with_units(capsys):
+    code, out, _ = run(capsys, "synthesize", str(ROOT / "examples" / "spec-led-driver-passes.toml"))
+    assert code == 0
+    spec = next(line for line in out.splitlines() if line.startswith("spec"))
+    assert "10 mA ± 3.00%" in spec and "9.7 mA … 10.3 mA" in spec
+    assert "0.01 A" not in out
+
+
+def test_spec_tolerance_range_is_given_in_per_cent(capsys, tmp_path):
+    path = write_record(tmp_path, spec={"current": "1 mA", "tolerance": "70 %"})
+    code, _, err = run(capsys, "check", str(path))
+    assert code == 2 and "spec.tolerance" in err and "0 … 50 %" in err
+
+
+def test_unreadable_value_error_gives_its_range(capsys, tmp_path):
+    path = write_record(tmp_path, values={"r_e": "2k2 V"})
+    code, _, err = run(capsys, "evaluate", str(path))
+    assert code == 2 and "values.r_e" in err and "0.01 … 1e+09 Ω" in err
+
+
+def test_not_evaluable_error_gives_the_value_with_its_unit(capsys, tmp_path):
+    path = write_record(tmp_path, values={"v_load": "0.5 V"})
+    code, _, err = run(capsys, "evaluate", str(path))
+    assert code == 3 and "values.v_load = '500 mV'" in err
+
+
+def test_record_text_cannot_drive_the_terminal(capsys, tmp_path):
+    # The reader refuses control characters in a title; the printer drops escapes anyway.
+    path = write_record(tmp_path, title="Panel \x1b[2J bias")
+    code, out, err = run(capsys, "evaluate", str(path))
+    assert code == 2 and "title" in err and "\x1b" not in out + err

@@ -24,7 +24,7 @@ from kit.safety import terminal_text
 
 ROOT = Path(__file__).resolve().parents[1]
 ESC = "\x1b"
-BAD_RECORD = ('biasbook_record = 1\ntitle = "Bad"\n[circuit]\ntopology = "divider_source"\npolarity = "npn"\n'
+BAD_RECORD = ('biasbook_record = 2\ntitle = "Bad"\n[circuit]\ntopology = "divider_source"\npolarity = "npn"\n'
               '[values]\nr1 = -5\nr2 = "10k"\nr_e = "2k2"\nv_supply = "12 V"\nv_load = "8 V"\n')
 
 

@@ -8,7 +8,6 @@ from pathlib import Path
 import pytest
 
 import kit
-from kit.devices import KINDS
 from kit.record import load_record
 
 EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.toml"))
@@ -19,13 +18,13 @@ def test_example_evaluates_with_every_device_in_its_region(path):
     record = load_record(path)
     evaluation = kit.evaluate(record.design, edge=record.edge)
     assert evaluation.points.converged.all()
-    spec = record.design.spec
+    structure = record.design.structure
     for name, region in evaluation.regions.items():
-        assert region == KINDS[spec.kind_of(name)].GOOD_REGION, (name, region)
+        assert region == structure.part(name).kind.good_region, (name, region)
     assert evaluation.compliance.contains(record.design.values["v_load"])
     assert evaluation.i_out > 0 and evaluation.r_out > 0
 
 
 def test_every_topology_has_an_example():
-    covered = {load_record(p).design.topology for p in EXAMPLES}
+    covered = {load_record(p).design.topology.key for p in EXAMPLES}
     assert {t.key for t in kit.list_topologies()} <= covered

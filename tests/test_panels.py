@@ -1,7 +1,7 @@
 """Kernel-side tests of the interactive panels (kit.panels), driven through their widgets.
 
 Every check compares what the panel shows with what the kit itself computes
-for the new input (kit.evaluate, kit.evaluation.sweep, the analyses), so a
+for the new input (kit.evaluate, kit.analysis.evaluation.sweep, the analyses), so a
 panel that drew stale data, the wrong design or its own physics would fail.
 E-series values are those of IEC 60063:2015 (E12 and E24 tables).  The
 designs and specs are scenarios of our own.
@@ -19,10 +19,11 @@ import kit  # noqa: E402
 from kit.analysis.spec import Spec  # noqa: E402
 from kit.analysis.temperature import temperature_sweep  # noqa: E402
 from kit.errors import DesignError, OperatingPointError  # noqa: E402
-from kit.evaluation import sweep  # noqa: E402
+from kit.analysis.evaluation import sweep  # noqa: E402
 from kit.panels import DesignPanel  # noqa: E402
 from kit.panels.curves import HEATED_POINTS  # noqa: E402
 from kit.quantities import celsius_to_kelvin, format_quantity  # noqa: E402
+from kit.report.evaluation import headline  # noqa: E402
 
 # A 1 mA sink for a resistive bridge, collector at 4-10 V (our own scenario).
 BASE = dict(r1="33k", r2="10k", r_e="2k2", v_supply="12 V", v_load="8 V")
@@ -79,14 +80,14 @@ def assert_plots_match_kit(panel, design):
     np.testing.assert_array_equal(src["load"].data["i_out"], exact(points))
     np.testing.assert_array_equal(src["load"].data["y"], exact(points) / scale)
     forms = points.model.closed_forms(points.q)
-    assert list(src["load_forms"].data["key"]) == [s.key for s in design.spec.simplifications]
+    assert list(src["load_forms"].data["key"]) == [s.key for s in design.structure.closed_forms]
     for key, ys in zip(src["load_forms"].data["key"], src["load_forms"].data["i_out"]):
         np.testing.assert_array_equal(ys, forms[key])
     np.testing.assert_array_equal(src["load_edges"].data["x"], [ev.compliance.low.voltage, ev.compliance.high.voltage])
     assert src["load_point"].data["i_out"][0] == ev.i_out
     gains = [n for n, m in design.devices.items() if "beta_f" in m.numbers()]
     if gains:
-        shown = design.spec.output_transistor
+        shown = design.structure.output_part
         b = src["beta"].data["beta"]
         ratio = b / design.devices[shown].beta_f
         overrides = {f"{n}.beta_f": design.devices[n].beta_f * ratio for n in gains}
@@ -114,8 +115,8 @@ def test_typing_an_rkm_resistor_updates_numbers_plots_and_ledger(panel, base):
     assert panel.design == new
     ev = kit.evaluate(new)
     text = panel.headline_text()
-    assert text["I_out"] == format_quantity(ev.i_out, "A", 4) == ev.headline()["I_out"]
-    assert text == ev.headline() and text != before
+    assert text["I_out"] == format_quantity(ev.i_out, "A", 4) == headline(ev)["I_out"]
+    assert text == headline(ev) and text != before
     assert text["I_out"] in panel.headline.value and text["compliance"] in panel.headline.value
     assert panel.fields["r_e"].text.value == "2 kΩ"
     assert_plots_match_kit(panel, new)
@@ -130,7 +131,7 @@ def test_update_takes_text_and_numbers_through_the_same_path(panel, base):
     assert panel.update(r1="39 kΩ", v_supply=15)
     new = base.with_values(r1=39e3, v_supply=15.0)
     assert panel.design == new
-    assert panel.headline_text() == kit.evaluate(new).headline()
+    assert panel.headline_text() == headline(kit.evaluate(new))
     assert panel.fields["r1"].text.value == "39 kΩ" and panel.sliders["v_supply"].widget.value == 15.0
 
 
@@ -140,7 +141,7 @@ def test_steppers_move_to_neighbouring_iec_60063_values(panel):
     field = panel.fields["r_e"]
     field.up.click()  # E24 (IEC 60063): 2.2 -> 2.4
     assert panel.design.values["r_e"] == 2400.0
-    assert panel.headline_text() == kit.evaluate(panel.design).headline()
+    assert panel.headline_text() == headline(kit.evaluate(panel.design))
     field.down.click()
     field.down.click()  # 2.4 -> 2.2 -> 2.0
     assert panel.design.values["r_e"] == 2000.0
@@ -271,17 +272,17 @@ def test_a_bare_panel_shows_its_widget(panel):
 def test_panel_works_for_a_current_mirror():
     mirror = kit.design("basic_mirror_rref", "npn")
     panel = DesignPanel(mirror)
-    assert list(panel.fields) == [v.name for v in mirror.spec.values]
+    assert list(panel.fields) == [v.name for v in mirror.topology.values]
     panel.fields["r_ref"].text.value = "47k"
     new = mirror.with_values(r_ref=47e3)
     assert panel.design == new
-    assert panel.headline_text() == kit.evaluate(new).headline()
+    assert panel.headline_text() == headline(kit.evaluate(new))
     assert_plots_match_kit(panel, new)
     panel.common_choice.widget.value = False  # one gain slider per transistor
     assert set(panel.sliders) >= {"Q1.beta_f", "Q2.beta_f"}
     panel.sliders["Q1.beta_f"].widget.value = 90.0
     assert panel.design.devices["Q1"].beta_f == 90.0 and panel.design.devices["Q2"].beta_f == 200.0
-    assert panel.headline_text() == kit.evaluate(new.with_parameter("Q1.beta_f", 90.0)).headline()
+    assert panel.headline_text() == headline(kit.evaluate(new.with_parameter("Q1.beta_f", 90.0)))
 
 
 # -- spec views: worst case and standard-value search ------------------------------------------
@@ -311,7 +312,7 @@ def test_synthesis_load_button_loads_the_candidate(spec_panel, base):
     candidate = result.candidates[0].design
     panel.search.load_buttons[0].click()
     assert panel.design == candidate and panel.message == ""
-    assert panel.headline_text() == kit.evaluate(candidate).headline()
+    assert panel.headline_text() == headline(kit.evaluate(candidate))
     assert panel.fields["r_e"].text.value == format_quantity(candidate.values["r_e"], "Ω", 6)
     assert_plots_match_kit(panel, candidate)
 

@@ -31,7 +31,7 @@ from kit.record_scan import first_excess
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = sorted((ROOT / "examples").glob("*.toml"))
-HEAD = 'biasbook_record = 1\ntitle = "Hostile"\n'
+HEAD = 'biasbook_record = 2\ntitle = "Hostile"\n'
 
 
 @pytest.fixture
@@ -107,7 +107,7 @@ def test_brackets_dots_and_equals_inside_strings_and_comments_count_for_nothing(
     """TOML 1.0: a string or comment is one token whatever it holds (four kinds of string)."""
     noise = "[[{{a.b.c.d.e.f.g.h.i.j.k.l.m.n.o.p.q = [[[[[[[[[[[[[[[[[[" * 50
     text = (f"# {noise}\n"
-            f'biasbook_record = 1\ntitle = "{noise[:150]}"\n'
+            f'biasbook_record = 2\ntitle = "{noise[:150]}"\n'
             f"author = '{noise[:150]}'\n"
             f'notes = """{noise}\n""\\"""{noise}\n"""\n'
             f"revision = 'A'  # {noise}\n"

@@ -21,6 +21,7 @@ import kit
 from kit.cli import main
 from kit.quantities import format_quantity
 from kit.record import load_record
+from kit.report.evaluation import headline
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = ROOT / "examples"
@@ -130,7 +131,7 @@ def test_review_text_holds_title_block_numbers_and_cautions(reviewed):
     assert record.content_hash() in flat  # the hash names exactly what was reviewed
     assert f"biasbook {kit.__version__}" in flat and "SymPy" in flat and "NumPy" in flat
     # the headline numbers as the kit computes and formats them
-    assert evaluation.headline()["I_out"] in flat
+    assert headline(evaluation)["I_out"] in flat
     assert format_quantity(evaluation.compliance.low.voltage, "V") in flat
     assert "licensed practitioner" in flat and "dissipation" in flat
     assert "extreme-value" in flat and "Monte Carlo" in flat  # the spec, method by method
@@ -193,3 +194,26 @@ def test_review_refuses_what_it_cannot_read(tmp_path, capsys):
     assert code == 2 and "source" in err
     code, _, err = run(capsys, "review", str(tmp_path / "missing.ipynb"), "-o", str(tmp_path / "x.pdf"))
     assert code == 2
+
+
+@pytest.mark.parametrize("polarity", ["nmos", "pmos"])
+def test_mosfet_balances_name_the_drain_current_and_lose_nothing(polarity):
+    # A review prints the exact equations: the MOSFET's four-case drain current is
+    # named in the node balances and written out once (common practice, no source).
+    # Putting the written-out law back must give the very balances the solve uses.
+    import sympy as sp
+
+    from kit import report
+    from kit.analysis.derivation import derivation
+
+    der = derivation(kit.design("opamp_mos_source", polarity))
+    assert any("I_{D,M1}" in r for r in der.residuals_latex)
+    assert not any(r"\begin{cases}" in r for r in der.residuals_latex)
+    assert len(der.laws_latex) == 1 and der.laws_latex[0].startswith("I_{D,M1} = ")
+    named = der.named_currents()
+    back = {symbol: expression for symbol, _, expression in named}
+    swap = {expression: symbol for symbol, _, expression in named}
+    for residual in der.equations.residuals:
+        assert sp.simplify(residual.subs(swap).subs(back) - residual) == 0
+    html = report.html(der)
+    assert "I_{D,M1} = " in html and "part currents" in html

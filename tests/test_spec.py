@@ -150,8 +150,19 @@ BAD_SPECS = [
     (dict(p_max=0.0), "p_max"),
     (dict(p_max=-0.1), "p_max"),
     (dict(p_max=float("nan")), "p_max"),
-    (dict(mismatch=-0.01), "mismatch"),
-    (dict(mismatch=0.9), "mismatch"),
+    (dict(mismatch_beta=-0.01), "mismatch_beta"),
+    (dict(mismatch_beta=0.9), "mismatch_beta"),
+    (dict(mismatch_vbe=-1e-3), "mismatch_vbe"),
+    (dict(mismatch_vbe=0.5), "mismatch_vbe"),  # half a volt is no mismatch, a wrong unit (mV?)
+    (dict(mismatch_vbe="1 mV"), "mismatch_vbe"),
+    (dict(mismatch_vth=2.0), "mismatch_vth"),
+    (dict(mismatch_k=float("nan")), "mismatch_k"),
+    (dict(a_vth=1e-3), "a_vth"),  # mV·µm written as mV: 1e-3 V·m is a million times too big
+    (dict(a_k=-1e-9), "a_k"),
+    (dict(a_vth=5e-9), "gate_area"),  # an area constant without the area
+    (dict(a_vth=5e-9, mismatch_vth=1e-3, gate_area=1e-10), "a_vth"),  # both ways at once
+    (dict(a_k=1e-8, gate_area=20.0), "gate_area"),  # 20 µm² given as 20 m²
+    (dict(a_k=1e-8, gate_area={"M1": 0.0}), "gate_area.M1"),
     (dict(beta_distribution="normal"), "beta_distribution"),
     (dict(samples=5), "samples"),  # below range
     (dict(samples=2_000_000), "samples"),  # above range
@@ -182,9 +193,11 @@ def test_whole_numbers_of_any_type_are_counts(count):
 def test_numpy_scalars_are_numbers_in_a_spec():
     spec = Spec(np.float32(1e-3), np.float64(0.05), v_load=(np.float32(4.0), np.int64(9)),
                 beta={"npn": (np.int32(100), np.float32(300.0))}, resistor_tolerance=np.float32(0.01),
-                resistor_tcr=np.float64(100e-6), p_max=np.float32(0.25), mismatch=np.float32(0.02))
+                resistor_tcr=np.float64(100e-6), p_max=np.float32(0.25), mismatch_beta=np.float32(0.02),
+                mismatch_vbe=np.float64(1e-3))
     assert spec.v_load == (4.0, 9.0) and spec.beta["npn"] == (100.0, 300.0)
-    for value in (spec.i_target, spec.tolerance, spec.resistor_tolerance, spec.p_max, spec.mismatch, *spec.v_load):
+    for value in (spec.i_target, spec.tolerance, spec.resistor_tolerance, spec.p_max, spec.mismatch_beta,
+                  spec.mismatch_vbe, *spec.v_load):
         assert type(value) is float
     assert spec.i_target == pytest.approx(1e-3, rel=1e-7)  # float32 holds about 7 digits
 

@@ -148,3 +148,29 @@ def test_reports_escape_the_title_and_name_every_row():
     text = report.text(s)
     for row in ("base-current part", "output-conductance part", "I_out range", "tempco, β rising"):
         assert row in text
+
+
+def test_the_figure_draws_the_result_own_curves(mirror):
+    from kit.panels.spread import spread_figure
+
+    s = spread(mirror, beta=(100, 300))
+    fig = spread_figure(s)
+    lines = {r.name: r for r in fig.renderers if r.name}
+    assert set(lines) == {"β low (100)", "β nominal", "β high (300)", "design point"}
+    drawn = lines["β high (300)"].data_source.data["y"]
+    assert list(drawn) == pytest.approx(list(s.curves["high"] * 1e6))  # µA at 250 µA × 3
+    assert fig.legend[0] in fig.right  # beside the curves, never over them
+
+
+def test_command_line_answers_from_a_record_and_refuses_a_bad_option(capsys):
+    from kit.cli import main
+
+    record = "examples/spec-bridge-excitation-fails.toml"
+    assert main(["spread", record, "--json", "--supply", "11:13"]) == 0
+    data = json.loads(capsys.readouterr().out)["spread"]
+    assert data["beta"]["range_source"] == "the record's [spec]"
+    assert data["supply"]["range"] == [11.0, 13.0]
+    assert main(["spread", record, "--beta", "300:50"]) == 2
+    assert "--beta" in capsys.readouterr().err
+    assert main(["spread", record, "--beta-rise", "0.5 %/K"]) == 0
+    assert "β rising linearly at +0.5 %/K" in capsys.readouterr().out

@@ -362,8 +362,7 @@ def _mirror():
 def test_matched_group_draws_one_gain():
     d = _mirror()
     n = 500
-    spec = Spec(0.69e-3, 0.05, beta={"npn": (100.0, 300.0)}, matched=(("Q1", "Q2"),), mismatch=0.0,
-                samples=n, seed=2)
+    spec = Spec(0.69e-3, 0.05, beta={"npn": (100.0, 300.0)}, matched=(("Q1", "Q2"),), samples=n, seed=2)
     mc = worst_case(d, spec, self_heating=False, methods=("Monte Carlo",)).methods["Monte Carlo"]
     b1, b2 = mc.arrays["draws"]["Q1.beta_f"], mc.arrays["draws"]["Q2.beta_f"]
     assert np.array_equal(b1, b2)
@@ -379,21 +378,29 @@ def test_matched_group_draws_one_gain():
     r = np.corrcoef(np.log(free.arrays["draws"]["Q1.beta_f"]), np.log(free.arrays["draws"]["Q2.beta_f"]))[0, 1]
     assert abs(r) < 4 / math.sqrt(n)
 
-    # with a mismatch m, each gain lies within m of the group's common gain, so the ratio of
-    # two members lies within (1-m)/(1+m) ... (1+m)/(1-m), and it is not always 1
+    # with a gain mismatch bound m (3 sigma of the difference of two members), the ratio of
+    # the members' gains is 1 + (d2 - d1) with d1, d2 independent of sigma m/(3 sqrt 2), each
+    # cut at ±m/2 (the guarantee's bound): its standard deviation is m/3 times the sigma of a
+    # Gaussian cut at ±3/sqrt(2) (scipy.stats.truncnorm), to first order, within the standard
+    # error of a sample standard deviation, sigma/sqrt(2(N - 1)) (common practice), away from
+    # the range's ends; and no two members differ by more than the bound
     m = 0.05
     loose = worst_case(d, Spec(0.69e-3, 0.05, beta={"npn": (100.0, 300.0)}, matched=(("Q1", "Q2"),),
-                               mismatch=m, samples=n, seed=2),
+                               mismatch_beta=m, samples=n, seed=2),
                        self_heating=False, methods=("Monte Carlo",)).methods["Monte Carlo"]
-    ratio = loose.arrays["draws"]["Q2.beta_f"] / loose.arrays["draws"]["Q1.beta_f"]
-    assert np.all((ratio >= (1 - m) / (1 + m)) & (ratio <= (1 + m) / (1 - m)))
-    assert np.std(ratio) > m / 10
+    common = loose.arrays["draws"]["Q1+Q2.beta_f"]
+    inside = (common > 110.0) & (common < 270.0)  # no member clipped at the range's ends
+    ratio = (loose.arrays["draws"]["Q2.beta_f"] / loose.arrays["draws"]["Q1.beta_f"])[inside]
+    sigma = m / 3 * stats.truncnorm(-3 / math.sqrt(2), 3 / math.sqrt(2)).std()
+    assert abs(np.std(ratio) - sigma) < 3 * sigma / math.sqrt(2 * (inside.sum() - 1)) + 2 * sigma ** 2
+    assert np.all(np.abs(ratio - 1) <= m * (1 + m))
+    assert abs(np.mean(ratio) - 1) < 4 * sigma / math.sqrt(inside.sum())
 
 
 def test_matched_draws_stay_in_the_gain_range():
     """The spec says beta_F lies in 100 ... 300; a sample outside is a part the spec
     excludes (JCGM 101: draw from the assigned distribution, whose support is the range)."""
-    spec = Spec(0.69e-3, 0.05, beta={"npn": (100.0, 300.0)}, matched=(("Q1", "Q2"),), mismatch=0.05,
+    spec = Spec(0.69e-3, 0.05, beta={"npn": (100.0, 300.0)}, matched=(("Q1", "Q2"),), mismatch_beta=0.05,
                 samples=500, seed=2)
     mc = worst_case(_mirror(), spec, self_heating=False, methods=("Monte Carlo",)).methods["Monte Carlo"]
     for name in ("Q1.beta_f", "Q2.beta_f"):

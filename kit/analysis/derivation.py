@@ -51,10 +51,35 @@ class Derivation:
     def unknowns_latex(self):
         return [self.latex(u) for u in self.equations.unknowns]
 
+    def named_currents(self):
+        """``[(symbol, LaTeX name, expression)]`` of every part current that is a case split.
+
+        A MOSFET's drain current (both directions, above and below threshold,
+        triode and saturation) nests four cases; written inside a node's
+        current balance it makes a line no page can hold.  The balances name
+        it (``I_{D,M1}``) and :attr:`laws_latex` writes it out once.
+        """
+        import sympy as sp
+
+        out = []
+        for name, part in self.equations.parts.items():
+            for key, expression in part.q.items():
+                if key.startswith("i_") and isinstance(expression, sp.Piecewise):
+                    out.append((sp.Symbol(f"_named_{key}_{name}"), f"I_{{{key[2:].upper()},{name}}}", expression))
+        return out
+
     @property
     def residuals_latex(self):
-        """The exact KCL residuals, one LaTeX line per unknown node."""
-        return [self.latex(r) + " = 0" for r in self.equations.residuals]
+        """The exact KCL residuals, one LaTeX line per unknown node (case-split currents by name)."""
+        named = self.named_currents()
+        labels = dict(self.equations.labels) | {symbol.name: (text,) for symbol, text, _ in named}
+        swap = {expression: symbol for symbol, _, expression in named}
+        return [latex(r.subs(swap), labels) + " = 0" for r in self.equations.residuals]
+
+    @property
+    def laws_latex(self):
+        """``I_{D,M1} = ...``: each part current the residuals name, written out in full."""
+        return [f"{text} = {self.latex(expression)}" for _, text, expression in self.named_currents()]
 
     def closed_form(self, key):
         """SymPy expression of closed form ``key``."""

@@ -99,10 +99,26 @@ class Spec:
         Dissipation limit per transistor in W (besides the junction
         temperature limit of each device model).
     matched : tuple of tuples
-        Groups of transistors whose gain varies together (a matched pair),
-        for Monte Carlo.
-    mismatch : float
-        Relative gain mismatch within a matched group (Monte Carlo).
+        Groups of transistors made together (a matched pair, one die): their
+        gain takes one value over the gain range in every method, and they
+        differ only by the mismatch below (see :mod:`kit.analysis.mismatch`).
+    mismatch_vbe : float
+        Bound on ``|ΔV_BE|`` between two bipolar members at equal current, in
+        V (taken as 3 σ of the difference); 0 … 0.1 V.
+    mismatch_beta : float
+        Bound on ``|Δβ_F/β_F|`` between two bipolar members (fraction, 3 σ).
+    mismatch_vth : float
+        Bound on ``|ΔV_th|`` between two MOSFET members in V (3 σ); 0 … 1 V.
+    mismatch_k : float
+        Bound on ``|Δk/k|`` between two MOSFET members (fraction, 3 σ).
+    a_vth, a_k : float
+        Area constants of the MOSFET mismatch, ``σ(ΔV_th) = a_vth/sqrt(W L)``
+        in V·m and ``σ(Δk/k) = a_k/sqrt(W L)`` in m (Pelgrom et al., IEEE
+        JSSC 1989); instead of ``mismatch_vth`` / ``mismatch_k``, with
+        ``gate_area``.  1 mV·µm is 1e-9 V·m.
+    gate_area : float or dict
+        Gate area ``W L`` in m² of every MOSFET of a matched group, or
+        transistor name -> area; needed with ``a_vth`` or ``a_k``.
     beta_distribution : {"log-uniform", "uniform"}
     samples : int
         Monte Carlo samples.
@@ -130,7 +146,13 @@ class Spec:
     bounds: dict = field(default_factory=dict)
     p_max: float | None = None
     matched: tuple = ()
-    mismatch: float = 0.0
+    mismatch_vbe: float = 0.0
+    mismatch_beta: float = 0.0
+    mismatch_vth: float = 0.0
+    mismatch_k: float = 0.0
+    a_vth: float = 0.0
+    a_k: float = 0.0
+    gate_area: object = None
     beta_distribution: str = "log-uniform"
     samples: int = 2000
     seed: int = 1
@@ -172,13 +194,50 @@ class Spec:
                 raise ParameterError("dissipation limit out of range", parameter="p_max",
                                      value=self.p_max, valid="0 … 10 kW")
             object.__setattr__(self, "p_max", float(self.p_max))
-        object.__setattr__(self, "mismatch", _fraction("mismatch", self.mismatch))
+        self._check_mismatch()
         if self.beta_distribution not in DISTRIBUTIONS:
             raise ParameterError("unknown distribution", parameter="beta_distribution",
                                  value=self.beta_distribution, valid=" or ".join(DISTRIBUTIONS))
         object.__setattr__(self, "samples", _count("samples", self.samples, 10, MAX_SAMPLES))
         object.__setattr__(self, "seed", _count("seed", self.seed, 0, None))
         object.__setattr__(self, "matched", tuple(tuple(g) for g in self.matched))
+
+    def _check_mismatch(self):
+        for name, high, unit in (("mismatch_vbe", 0.1, "V"), ("mismatch_vth", 1.0, "V"),
+                                 ("mismatch_beta", 0.5, ""), ("mismatch_k", 0.5, ""),
+                                 ("a_vth", 1e-6, "V·m (1 mV·µm = 1e-9 V·m)"),
+                                 ("a_k", 1e-6, "m (1 %·µm = 1e-8 m)")):
+            value = getattr(self, name)
+            if not is_real_number(value) or not (0 <= value <= high):
+                valid = f"0 … {high:g} {unit}".rstrip() if unit else f"0 … {high:g} (a fraction: 0.01 is 1 %)"
+                raise ParameterError("mismatch out of range", parameter=name, value=value, valid=valid)
+            object.__setattr__(self, name, float(value))
+        for constant, direct in (("a_vth", "mismatch_vth"), ("a_k", "mismatch_k")):
+            if getattr(self, constant) and getattr(self, direct):
+                raise ParameterError("give the mismatch or its area constant, not both", parameter=constant,
+                                     value=getattr(self, constant), valid=f"0 when {direct} is given")
+        area = self.gate_area
+        if area is not None:
+            entries = dict(area) if isinstance(area, (dict, MappingProxyType)) else {"": area}
+            for key, value in entries.items():
+                if not is_real_number(value) or not (1e-15 <= value <= 1e-3):
+                    raise ParameterError("gate area out of range",
+                                         parameter="gate_area" + (f".{key}" if key else ""), value=value,
+                                         valid="1e-15 … 1e-3 m² (1 µm² = 1e-12 m²)")
+            entries = {k: float(v) for k, v in entries.items()}
+            object.__setattr__(self, "gate_area", entries[""] if "" in entries else MappingProxyType(entries))
+        if (self.a_vth or self.a_k) and area is None:
+            raise ParameterError("an area constant needs the gate area", parameter="gate_area",
+                                 valid="W·L in m², e.g. 2e-11 for 20 µm²")
+
+    def gate_area_of(self, transistor):
+        """The gate area ``W L`` (m²) the spec gives ``transistor``."""
+        if isinstance(self.gate_area, MappingProxyType):
+            if transistor not in self.gate_area:
+                raise ParameterError("no gate area for this transistor", parameter="gate_area",
+                                     value=transistor, valid="an area for every matched MOSFET")
+            return self.gate_area[transistor]
+        return self.gate_area
 
     @property
     def limits(self):
@@ -234,8 +293,10 @@ def _tcr(name, value):
 class Factor:
     """One varied parameter of the tolerance box.
 
-    ``name`` is the flat parameter name; ``kind`` is ``"part"`` (varies from
-    part to part: resistors, gain, reference) or ``"condition"`` (the
+    ``name`` is the flat parameter name (or, for a factor with ``targets``,
+    a name of its own such as ``Q1+Q2.beta_f``); ``kind`` is ``"part"``
+    (varies from part to part: resistors, gain, reference), ``"mismatch"``
+    (a member of a matched group against the group) or ``"condition"`` (the
     environment the design must work over: temperature, supply, load).
     """
 
@@ -246,6 +307,11 @@ class Factor:
     kind: str
     distribution: str = "uniform"
     label: str = ""
+    # A factor standing for more than one parameter (a matched group's common gain, a
+    # member's mismatch): (flat parameter, law, limits) per target; see kit.analysis.mismatch.
+    targets: tuple = ()
+    sigma: float | None = None  # the Gaussian sigma of a "normal" factor (Monte Carlo, RSS)
+    group: tuple = ()  # the matched group it belongs to
 
     @property
     def half_range(self):
@@ -263,16 +329,21 @@ def factors(spec, design):
     >>> names[:3], names[-1]
     (['r1', 'r2', 'r_e'], 'temp')
     """
+    from kit.analysis import mismatch
+
     top = design.topology
     words = design.vocabulary
     params = design.parameters()
     _check_names(spec, design)
+    found = mismatch.groups(spec, design)
+    mismatch.check_used(spec, found)
+    in_group = {m: g for g in found for m in g.members}
     out = []
     for name in top.resistors:
         tol = spec.tolerances.get(name, spec.resistor_tolerance)
         if tol:
             out.append(Factor(name, params[name], params[name] * (1 - tol), params[name] * (1 + tol),
-                              "part", label=f"{name} ±{tol:.3g}"))
+                              "part", label=f"{name} ±{100 * tol:.3g} %"))
     for name in top.resistors:
         tcr = spec.tcrs.get(name, spec.resistor_tcr)
         if tcr and spec.temp is not None:
@@ -281,11 +352,13 @@ def factors(spec, design):
             out.append(Factor(f"tcr_{name}", own, own - tcr, own + tcr, "part", label=f"TCR of {name}"))
     for transistor, model in design.devices.items():
         bounds = spec.beta.get(transistor) or spec.beta.get(model.polarity)
-        if bounds is not None and "beta_f" in model.values:
+        if bounds is not None and "beta_f" in model.values and transistor not in in_group:
             out.append(Factor(f"{transistor}.beta_f", model.beta_f, bounds[0], bounds[1], "part",
                               spec.beta_distribution, label=f"β_F of {transistor}"))
-    varied = {f.name for f in out} | {n for n, b in (("v_supply", spec.v_supply), ("v_load", spec.v_load),
-                                                     ("temp", spec.temp)) if b is not None}
+    shared = mismatch.group_factors(spec, design, found)
+    out += [f for f in shared if f.kind == "part"]
+    varied = {f.name for f in out} | {t for f in out for t, _, _ in f.targets} | {
+        n for n, b in (("v_supply", spec.v_supply), ("v_load", spec.v_load), ("temp", spec.temp)) if b is not None}
     for name, (low, high) in spec.bounds.items():
         field = f"bounds.{name}"
         if name not in params:
@@ -298,7 +371,21 @@ def factors(spec, design):
         if not (e.low <= low <= high <= e.high):
             raise ParameterError("outside the value's valid range", parameter=field, value=(low, high),
                                  valid=e.valid)
+        part, _, own = name.partition(".")
+        group = in_group.get(part)
+        if group is not None and params[name] != 0:
+            # A part of a matched group: the bound is the group's common spread, every member together.
+            targets = tuple((f"{m}.{own}", "scale", None) for m in group.members)
+            if any(t in varied for t, _, _ in targets):
+                raise ParameterError("a matched group's parameter is bounded once, for the whole group",
+                                     parameter=field, valid=f"one entry for {group.text}")
+            varied |= {t for t, _, _ in targets}
+            out.append(Factor(f"{'+'.join(group.members)}.{own}", params[name], low, high, "part",
+                              label=f"{own} of {group.text} (matched)", targets=targets,
+                              group=group.members))
+            continue
         out.append(Factor(name, params[name], low, high, "part", label=name))
+    out += [f for f in shared if f.kind == "mismatch"]
     for name, bounds in (("v_supply", spec.v_supply), ("v_load", spec.v_load), ("temp", spec.temp)):
         if bounds is not None:
             out.append(Factor(name, params[name], bounds[0], bounds[1], "condition", label=name))
@@ -320,8 +407,4 @@ def _check_names(spec, design):
             if key not in resistors:
                 raise ParameterError("names no resistor of this design", parameter=f"{table}.{key}",
                                      valid=", ".join(sorted(resistors)))
-    for group in spec.matched:
-        stray = [name for name in group if name not in transistors]
-        if stray:
-            raise ParameterError("names no transistor of this design", parameter="matched", value=stray[0],
-                                 valid=", ".join(sorted(transistors)))
+    # matched groups are checked by kit.analysis.mismatch.groups (bipolar and MOS parts)

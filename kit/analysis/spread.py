@@ -141,7 +141,8 @@ class Spread:
         }
 
 
-def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge="vce_sat"):
+def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge="vce_sat",
+           beta_source="given", load_source="given"):
     """Answer the four questions for ``design`` (see the module docstring).
 
     Parameters
@@ -162,6 +163,9 @@ def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge=
         compliance at every gain.
     edge : {"vce_sat", "vcb_zero"}
         Saturation criterion.
+    beta_source, load_source : str
+        How to say where a given ``beta`` or ``v_load`` range came from (the
+        command line says "the record's [spec]" for a range it took there).
 
     Returns
     -------
@@ -177,7 +181,7 @@ def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge=
     model = model_of(design)
     values = design.parameters()
     bipolar = tuple(p.name for p in model.structure.devices if "beta_f" in p.params)
-    beta_range, beta_source = _beta_range(beta, bipolar, values)
+    beta_range, beta_source = _beta_range(beta, bipolar, values, beta_source)
     corners = [{}] if beta_range is None else [_with_beta(bipolar, b) for b in beta_range]
 
     compliance = nominal.compliance
@@ -185,7 +189,8 @@ def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge=
     for change in corners:
         other = find_compliance(model, values | change, edge=edge)
         low, high = max(low, other.low.voltage), min(high, other.high.voltage)
-    load_range, load_source = _load_range(v_load, design, model.output_sign > 0, low, high)
+    load_range, load_source = _load_range(v_load, model.output_sign > 0, values["v_supply"], (low, high),
+                                          load_source)
 
     grid = np.linspace(*load_range, LOAD_POINTS)
     curves = {"v_load": grid, "nominal": _currents(design, grid, {})}
@@ -227,11 +232,11 @@ def _pair(name, pair, low, high, unit):
     return a, b
 
 
-def _beta_range(beta, bipolar, values):
+def _beta_range(beta, bipolar, values, given):
     if not bipolar:
         return None, "no bipolar transistor: the gain spread does not apply"
     if beta is not None:
-        return _pair("beta", beta, *BETA_LIMITS, ""), "given"
+        return _pair("beta", beta, *BETA_LIMITS, ""), given
     gains = [values[f"{name}.beta_f"] for name in bipolar]
     lo, hi = min(gains) * DEFAULT_BETA_FACTORS[0], max(gains) * DEFAULT_BETA_FACTORS[1]
     return (max(lo, BETA_LIMITS[0]), min(hi, BETA_LIMITS[1])), "not given: half to twice the nominal β"
@@ -241,7 +246,8 @@ def _with_beta(bipolar, value):
     return {f"{name}.beta_f": value for name in bipolar}
 
 
-def _load_range(v_load, design, sinks, low, high):
+def _load_range(v_load, sinks, supply_voltage, edges, given):
+    low, high = edges
     if low >= high:
         raise ParameterError("no load voltage keeps every gain in compliance", parameter="beta",
                              value=None, valid="a narrower gain range")
@@ -250,9 +256,9 @@ def _load_range(v_load, design, sinks, low, high):
         if a < low or b > high:
             raise ParameterError("load range leaves compliance at some gain", parameter="v_load",
                                  value=(a, b), valid=f"{low:.4g} … {high:.4g} V")
-        return (a, b), "given"
+        return (a, b), given
     if sinks:
-        top = min(high, design.values["v_supply"])
+        top = min(high, supply_voltage)
         return (low, top), "low compliance edge up to the supply (a sink)"
     bottom = max(low, 0.0)
     return (bottom, high), "0 V up to the high compliance edge (a source)"

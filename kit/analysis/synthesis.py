@@ -261,7 +261,7 @@ def _fit_spec(spec, design):
             bounds[name] = (low, high)
     matched = []
     for group in spec.matched:
-        stray = [n for n in group if n not in transistors]
+        stray = [n for n in group if n not in design.devices]
         if stray:
             skipped.append(("matched", f"no transistor {stray[0]} here"))
         else:
@@ -522,7 +522,7 @@ def _screen(spec, candidates, searched, edge):
     first = candidates[0]
     box = _Box(spec, first, self_heating=False, edge=edge)
     box_factors = factors(spec, first)
-    parts = [f for f in box_factors if f.kind == "part"]
+    parts = [f for f in box_factors if f.kind != "condition"]  # parts, matched groups, mismatches
     conditions = [f for f in box_factors if f.kind == "condition"]
     grid = np.array(list(itertools.product((0.0, 1.0), repeat=len(conditions))))
     count = len(grid)  # condition corners (1 without any)
@@ -546,8 +546,7 @@ def _screen(spec, candidates, searched, edge):
     for f in parts:
         changes[f.name] = np.repeat(ends[f.name][1], count)
     nominal = box.solve(changes)
-    index = box.model.parameter_index
-    slopes = nominal.di_dp[[index[f.name] for f in parts]] if parts else np.zeros((0, n * count))
+    slopes = box.slopes(nominal, parts) if parts else np.zeros((0, n * count))
     low_changes, high_changes = dict(changes), dict(changes)
     for k, f in enumerate(parts):
         lo, hi = (np.repeat(e, count) for e in (ends[f.name][0], ends[f.name][2]))

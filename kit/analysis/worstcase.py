@@ -29,7 +29,9 @@ import itertools
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy import special
 
+from kit.analysis import mismatch
 from kit.analysis.evaluation import model_of
 from kit.analysis.spec import SIGMA_PER_TOLERANCE, factors
 from kit.analysis.streaming import RunningHistogram, SeededColumns, wilson_interval
@@ -95,19 +97,69 @@ class BudgetEntry:
         return dict(self.__dict__)
 
 
-class _Box:
-    """Solve the design at many points of the tolerance box and judge each point."""
+@dataclass(frozen=True)
+class OutputMismatch:
+    """What the mismatch within one matched group does to the output current, at nominal.
 
-    def __init__(self, spec, design, self_heating, edge):
+    ``sigma`` is the first-order standard deviation from the exact
+    sensitivities and the members' sigmas; ``bound`` the largest exact change
+    over every corner of the members' mismatch bounds (the budget's row);
+    ``linear_bound`` the first-order sum of the same.
+    """
+
+    group: tuple
+    sigma: float  # A
+    relative_sigma: float
+    bound: float  # A
+    linear_bound: float  # A
+    coverage: str = (f"bound: 3 sigma of the difference of two members, each member within "
+                     f"±{mismatch.EVA_MEMBER_SIGMAS:.3g} sigma of the group's mean")
+
+    def to_dict(self):
+        return {"group": list(self.group), "sigma": self.sigma, "relative_sigma": self.relative_sigma,
+                "bound": self.bound, "linear_bound": self.linear_bound, "coverage": self.coverage}
+
+
+def _output_mismatch(box, box_factors, nominal_points, budget):
+    rows = {b.name: b for b in budget if b.kind == "mismatch"}
+    slope = box.slopes(nominal_points, box_factors)[:, 0]
+    out = []
+    nominal = float(nominal_points.i_out[0])
+    for text, figures in mismatch.output_mismatch(box_factors, slope, nominal).items():
+        group = tuple(text.split(", "))
+        out.append(OutputMismatch(group, figures["sigma"], figures["relative_sigma"],
+                                  rows["+".join(group) + ".mismatch"].swing, figures["linear_bound"]))
+    return out
+
+
+class _Box:
+    """Solve the design at many points of the tolerance box and judge each point.
+
+    Points are given by factor values; a factor with targets (a matched
+    group's common gain, a member's mismatch) is expanded to the parameters
+    it moves (:func:`kit.analysis.mismatch.expand`).
+    """
+
+    def __init__(self, spec, design, self_heating, edge, box_factors=None):
         self.spec = spec
         self.design = design
         self.model = model_of(design)
         self.base = design.parameters()
         self.self_heating = self_heating
         self.edge = edge
+        self.factors = list(factors(spec, design) if box_factors is None else box_factors)
+        self.v_t = mismatch.BOLTZMANN_OVER_CHARGE * self.base["t_ref"]
+
+    def flat(self, changes):
+        """The parameter values the factor values ``changes`` stand for."""
+        return mismatch.expand(self.factors, changes, self.base, self.v_t)
+
+    def slopes(self, points, box_factors):
+        """``dI/dx`` of each of ``box_factors`` (rows) at every point (columns)."""
+        return mismatch.slopes(box_factors, points.di_dp, self.model.parameter_index, self.base, self.v_t)
 
     def solve(self, changes):
-        values = self.base | {k: np.asarray(v, dtype=float) for k, v in changes.items()}
+        values = self.base | {k: np.asarray(v, dtype=float) for k, v in self.flat(changes).items()}
         if self.self_heating:
             return solve_self_heated(self.model, values)
         return solve_points(self.model, values)
@@ -157,11 +209,10 @@ def _extreme_value(box, box_factors, nominal_points):
     else:
         # Too many for every corner: the two extreme corners by the sign of each
         # exact sensitivity at nominal, plus random corners.
-        slope = nominal_points.di_dp[:, 0]
-        index = box.model.parameter_index
+        slope = box.slopes(nominal_points, box_factors)[:, 0]
         rng = np.random.default_rng(spec.seed)
         pick = rng.integers(0, 2, size=(4096, len(box_factors))).astype(float)
-        signs = np.array([slope[index[f.name]] > 0 for f in box_factors], dtype=float)
+        signs = np.array(slope > 0, dtype=float)
         pick = np.vstack([pick, signs, 1 - signs])
         corners = {f.name: f.low + pick[:, i] * (f.high - f.low) for i, f in enumerate(box_factors)}
         note.append(f"{len(pick)} corners (extreme pair by sensitivity signs, rest random)")
@@ -169,8 +220,7 @@ def _extreme_value(box, box_factors, nominal_points):
     ok, reasons = box.judge(points)
     current = points.i_out
     # Interior extrema: does any sensitivity change sign across the corners?
-    index = box.model.parameter_index
-    slopes = points.di_dp[[index[f.name] for f in box_factors]][:, points.converged]
+    slopes = box.slopes(points, box_factors)[:, points.converged] if box_factors else np.empty((0, 0))
     turning = [f for f, s in zip(box_factors, slopes) if s.size and np.any(s > 0) and np.any(s < 0)]
     rng = np.random.default_rng(spec.seed + 1)
     inside = {f.name: rng.uniform(f.low, f.high, INTERIOR_SAMPLES) for f in box_factors}
@@ -215,14 +265,14 @@ def _condition_corners(box_factors):
 
 def _rss(box, box_factors):
     spec = box.spec
-    parts = [f for f in box_factors if f.kind == "part"]
+    parts = [f for f in box_factors if f.kind != "condition"]
     corners, count = _condition_corners(box_factors)
     points = box.solve(corners)
     ok, _ = box.judge(points)
-    index = box.model.parameter_index
     sigma = np.zeros(points.size)
-    for f in parts:
-        sigma += (points.di_dp[index[f.name]] * f.half_range / SIGMA_PER_TOLERANCE) ** 2
+    for f, slope in zip(parts, box.slopes(points, parts)):
+        # a ± tolerance is 3 sigma; a mismatch carries its own sigma (kit.analysis.mismatch)
+        sigma += (slope * (f.sigma if f.sigma is not None else f.half_range / SIGMA_PER_TOLERANCE)) ** 2
     sigma = np.sqrt(sigma)
     k = SIGMA_PER_TOLERANCE
     low, _ = _valid_range(points.i_out - k * sigma, ok)
@@ -235,23 +285,25 @@ def _rss(box, box_factors):
         "how": "linear in the exact sensitivities, at every corner of the conditions"})
 
 
-def _draw_parts(spec, parts, block):
-    """One block of samples of the parts (see SeededColumns: one column per call, in this order)."""
+def _draw_parts(parts, block):
+    """One block of samples of the parts (see SeededColumns: one column per call, in this order).
+
+    A matched group draws one common value (one factor); each member's
+    mismatch is Gaussian with its own sigma, cut at the guarantee's bound (a
+    datasheet's maximum: parts beyond it are not shipped, and a Monte Carlo
+    sample stays a point of the box), by the inverse normal CDF of a uniform
+    column between the bound's probabilities (so every column stays one
+    uniform draw of the seed).
+    """
     draws = {}
     for f in parts:
-        if f.distribution == "log-uniform" and f.low > 0:
+        if f.distribution == "normal":
+            ends = special.ndtr(np.array([f.low, f.high]) / f.sigma)
+            draws[f.name] = f.sigma * special.ndtri(block.uniform(*ends))
+        elif f.distribution == "log-uniform" and f.low > 0:
             draws[f.name] = np.exp(block.uniform(np.log(f.low), np.log(f.high)))
         else:
             draws[f.name] = block.uniform(f.low, f.high)
-    # Matched groups: one gain for the group, each member within the mismatch of
-    # it, kept inside the spec's gain range (clipped at its ends).
-    ranges = {f.name: (f.low, f.high) for f in parts}
-    for group in spec.matched:
-        names = [f"{t}.beta_f" for t in group if f"{t}.beta_f" in draws]
-        if names:
-            common = draws[names[0]]
-            for name in names:
-                draws[name] = np.clip(common * (1 + spec.mismatch * block.uniform(-1, 1)), *ranges[name])
     return draws
 
 
@@ -288,7 +340,7 @@ class _MonteCarloTally:
 
 def _monte_carlo(box, box_factors):
     spec = box.spec
-    parts = [f for f in box_factors if f.kind == "part"]
+    parts = [f for f in box_factors if f.kind != "condition"]
     n = spec.samples
     conditions = [f for f in box_factors if f.kind == "condition"]
     levels = [np.linspace(f.low, f.high, 3 if f.name == "temp" else 2) for f in conditions]
@@ -296,14 +348,18 @@ def _monte_carlo(box, box_factors):
     at_conditions = {f.name: np.array([g[i] for g in grid]) for i, f in enumerate(conditions)}
     lo, hi = spec.limits
     columns = SeededColumns(spec.seed, n)
-    tally = _MonteCarloTally(n, len(grid), [f.name for f in parts])
+    # kept draws: each factor, and the parameters a grouped factor moves (a member's gain)
+    targets = list(dict.fromkeys(t for f in parts for t, _, _ in f.targets))
+    tally = _MonteCarloTally(n, len(grid), [f.name for f in parts] + targets)
     # Solve a chunk of samples at a time: the solver's arrays, not the sample
     # count, set the memory (about 1 kB per point while it runs).
     per_chunk = max(1, MONTE_CARLO_CHUNK_POINTS // len(grid))
     for start in range(0, n, per_chunk):
         size = min(per_chunk, n - start)
-        draws = _draw_parts(spec, parts, columns.block(start, size))
+        draws = _draw_parts(parts, columns.block(start, size))
         changes = {name: np.repeat(values, len(grid)) for name, values in draws.items()}
+        if targets:  # kept for plots and checks; the solve expands the factors itself
+            draws = draws | {k: np.broadcast_to(v, size) for k, v in box.flat(draws).items() if k in targets}
         changes |= {name: np.tile(values, size) for name, values in at_conditions.items()}
         if not changes:  # nothing varies: every sample is the nominal point
             changes = {"temp": np.full(size * len(grid), box.base["temp"])}
@@ -324,9 +380,11 @@ def _monte_carlo(box, box_factors):
         "percentiles": percentiles, "percentile_resolution": hist.width if hist.count else None,
         "valid_points": int(hist.count), "failing_samples": n - tally.passing,
         "kept_samples": int(tally.passed.size),
-        "distributions": {f.name: ("log-uniform" if f.distribution == "log-uniform" else "uniform")
+        "distributions": {f.name: (f"normal, sigma {f.sigma:.4g}, cut at ±{f.high:.4g}"
+                                   if f.distribution == "normal" else
+                                   "log-uniform" if f.distribution == "log-uniform" else "uniform")
                           for f in parts},
-        "matched": [list(g) for g in spec.matched], "mismatch": spec.mismatch,
+        "matched": [list(g) for g in dict.fromkeys(f.group for f in parts if f.group)],
         "how": ("parts drawn per sample, each sample solved at every condition level; percentiles from "
                 f"a running histogram of {hist.bins} bins (within one bin width)")},
         arrays={"histogram": hist, "current": tally.current, "ok": tally.ok, "passed": tally.passed,
@@ -338,25 +396,40 @@ def _budget(box, box_factors, nominal_points):
 
     A part's swing is taken at the condition corner where it is largest, so a
     TCR (which does nothing at the reference temperature) is charged what it
-    does at the temperature extremes.
+    does at the temperature extremes.  The mismatch of a matched group is one
+    row (kind "mismatch"): every corner of its members' mismatch bounds
+    together, the rest nominal.
     """
-    index = box.model.parameter_index
     parts = [f for f in box_factors if f.kind == "part"]
     conditions = [f for f in box_factors if f.kind == "condition"]
+    groups = {}
+    for f in box_factors:
+        if f.kind == "mismatch":
+            groups.setdefault(f.group, []).append(f)
     corners, count = _condition_corners(box_factors)
-    rows = 1 + 2 * len(parts)  # nominal parts, then each part at its low and high end
+    slope = dict(zip((f.name for f in box_factors), box.slopes(nominal_points, box_factors)[:, 0]))
+    grids = [_mismatch_corners(members, slope) for members in groups.values()]
+    # nominal parts, then each part at its low and high end, then each group's mismatch corners
+    blocks = [1] + [2] * len(parts) + [len(grid[members[0].name]) for grid, members in zip(grids, groups.values())]
+    rows = sum(blocks)
     changes = {f.name: np.full((rows, count), f.nominal) for f in parts}
     for i, f in enumerate(parts):
         changes[f.name][1 + 2 * i] = f.low
         changes[f.name][2 + 2 * i] = f.high
+    start = 1 + 2 * len(parts)
+    for grid, members in zip(grids, groups.values()):
+        for f in members:
+            changes[f.name] = np.full((rows, count), f.nominal)
+            changes[f.name][start:start + len(grid[f.name])] = grid[f.name][:, None]
+        start += len(grid[members[0].name])
     for name, values in corners.items():
         changes[name] = np.broadcast_to(values, (rows, count))
     points = box.solve({k: np.ravel(v) for k, v in changes.items()})
     ok = box.judge(points)[0].reshape(rows, count)
     current = points.i_out.reshape(rows, count)
     # Only solved, valid points count: a run-away or saturated point has no current to compare.
-    swings = [_largest_change(current[1 + 2 * i: 3 + 2 * i], current[0], ok[1 + 2 * i: 3 + 2 * i] & ok[0])
-              for i in range(len(parts))]
+    edges = np.cumsum(blocks)
+    swings = [_largest_change(current[a:b], current[0], ok[a:b] & ok[0]) for a, b in zip(edges[:-1], edges[1:])]
     if conditions:
         alone = {f.name: np.full(2 * len(conditions), f.nominal) for f in conditions}
         for i, f in enumerate(conditions):
@@ -365,12 +438,26 @@ def _budget(box, box_factors, nominal_points):
         moved_ok = box.judge(moved_points)[0].reshape(len(conditions), 2)
         moved = moved_points.i_out.reshape(len(conditions), 2)
         swings += [_largest_change(m, nominal_points.i_out[0], k) for m, k in zip(moved, moved_ok)]
-    ordered = parts + conditions
     total = float(sum(swings)) or 1.0
-    slope = nominal_points.di_dp[:, 0]
-    entries = [BudgetEntry(f.name, f.label, f.kind, float(s), float(abs(slope[index[f.name]]) * f.half_range),
-                           float(s / total)) for f, s in zip(ordered, swings)]
+    slope = {name: abs(value) for name, value in slope.items()}
+    rows_of = ([(f.name, f.label, f.kind, slope[f.name] * f.half_range) for f in parts]
+               + [("+".join(group) + ".mismatch", f"mismatch within {', '.join(group)}", "mismatch",
+                   sum(slope[f.name] * f.half_range for f in members)) for group, members in groups.items()]
+               + [(f.name, f.label, f.kind, slope[f.name] * f.half_range) for f in conditions])
+    entries = [BudgetEntry(name, label, kind, float(s), float(linear), float(s / total))
+               for (name, label, kind, linear), s in zip(rows_of, swings)]
     return sorted(entries, key=lambda e: -e.swing)
+
+
+def _mismatch_corners(members, slope):
+    """Corners of one group's mismatch bounds: all of them, or for a large group the two
+    extreme corners by the signs of the exact sensitivities and random ones besides."""
+    if len(members) <= MAX_CORNER_FACTORS:
+        return _corner_values(members)
+    signs = np.array([slope[f.name] > 0 for f in members], dtype=float)
+    pick = np.random.default_rng(len(members)).integers(0, 2, size=(1024, len(members))).astype(float)
+    pick = np.vstack([signs, 1 - signs, pick])
+    return {f.name: f.low + pick[:, i] * (f.high - f.low) for i, f in enumerate(members)}
 
 
 def _largest_change(values, reference, ok):
@@ -387,7 +474,7 @@ class WorstCase:
     Carlo; ``decided_by`` names the method and :meth:`verdict` says so.
     """
 
-    def __init__(self, spec, design, nominal, methods, budget, box_factors, self_heating):
+    def __init__(self, spec, design, nominal, methods, budget, box_factors, self_heating, mismatch=()):
         self.spec = spec
         self.design = design
         self.nominal = nominal
@@ -395,6 +482,7 @@ class WorstCase:
         self.budget = budget
         self.factors = box_factors
         self.self_heating = self_heating
+        self.mismatch = tuple(mismatch)  # OutputMismatch per matched group with a mismatch
 
     @property
     def decided_by(self):
@@ -444,8 +532,12 @@ class WorstCase:
                 "self_heating": self.self_heating,
                 "methods": {k: m.to_dict() for k, m in self.methods.items()},
                 "budget": [b.to_dict() for b in self.budget], "reasons": self.reasons(),
+                "mismatch": [m.to_dict() for m in self.mismatch],
                 "factors": [{"name": f.name, "nominal": f.nominal, "low": f.low, "high": f.high,
-                             "kind": f.kind, "distribution": f.distribution} for f in self.factors]}
+                             "kind": f.kind, "distribution": f.distribution}
+                            | ({"sigma": f.sigma} if f.sigma is not None else {})
+                            | ({"targets": [t for t, _, _ in f.targets]} if f.targets else {})
+                            for f in self.factors]}
 
 
 def _checked_methods(methods):
@@ -491,7 +583,7 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
     """
     methods = _checked_methods(methods)
     box_factors = factors(spec, design)
-    box = _Box(spec, design, self_heating, edge)
+    box = _Box(spec, design, self_heating, edge, box_factors)
     nominal_points = box.solve({})
     nominal_points.require("nominal design point")
     nominal = float(nominal_points.i_out[0])
@@ -499,5 +591,6 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
                "RSS": lambda: _rss(box, box_factors),
                "Monte Carlo": lambda: _monte_carlo(box, box_factors)}
     results = {name: runners[name]() for name in methods}
-    return WorstCase(spec, design, nominal, results, _budget(box, box_factors, nominal_points),
-                     box_factors, self_heating)
+    budget = _budget(box, box_factors, nominal_points)
+    return WorstCase(spec, design, nominal, results, budget, box_factors, self_heating,
+                     _output_mismatch(box, box_factors, nominal_points, budget))

@@ -77,7 +77,9 @@ def check_range(name, value, low, high, unit="", *, allow_inf=False):
     if allow_inf and value == math.inf:
         return
     if not (low <= value <= high):  # also false for NaN
-        raise ParameterError("out of range", parameter=name, value=float(value),
+        # The value as the user wrote it (-5, not -5.0); a NumPy scalar becomes a Python number.
+        shown = value.item() if isinstance(value, (np.integer, np.floating)) else value
+        raise ParameterError("out of range", parameter=name, value=shown,
                              valid=f"{low:g} … {high:g} {unit}".rstrip())
 
 

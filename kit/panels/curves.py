@@ -225,7 +225,8 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
                              "align": ["left", "right"], "offset": [4, -4]}
     columns["load_point"] = {"x": [params["v_load"]], "y": [evaluation.i_out / factor],
                              "i_out": [evaluation.i_out]}
-    labels["load"] = {"title": "Output current against load voltage, across and beyond compliance",
+    # Titles start over the plot frame, not the axis: short enough for the frame of a printed page.
+    labels["load"] = {"title": "Output current across compliance and beyond its edges",
                       "x": "load voltage V_load (V)", "y": f"I_out ({unit})"}
 
     # 2. forward gain
@@ -291,8 +292,8 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
         "anchor": ["left" if v >= 0 else "right" for v in ppm],
         "offset": [4 if v >= 0 else -4 for v in ppm]}
     factors["tempco"] = names
-    labels["tempco"] = {"title": "Tempco budget: (1/I_out) dI_out/dT by mechanism",
-                        "x": "contribution (ppm/K)", "y": "mechanism"}
+    labels["tempco"] = {"title": "Tempco budget by mechanism",
+                        "x": "contribution to (1/I_out) dI_out/dT (ppm/K)", "y": "mechanism"}
     for name in SOURCES:
         columns.setdefault(name, {})
     return PlotData(columns, labels, factors, scale)

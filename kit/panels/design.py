@@ -142,7 +142,7 @@ class DesignPanel:
 
     def load(self, design):
         """Show another design (any topology); returns True if it evaluates."""
-        return self._apply(lambda: design, {"design": f"{design.topology} ({design.polarity})"})
+        return self._apply(lambda: design, {"design": f"{design.topology.key} ({design.polarity})"})
 
     def step(self, name, direction):
         """Move resistor ``name`` to the next standard value up (+1) or down (-1)."""

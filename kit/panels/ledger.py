@@ -35,7 +35,7 @@ def _equations_html(topology, polarity):
 
     der = derivation(topologies.get(topology), polarity)
     unknowns = ", ".join(der.unknowns_latex)
-    lines = "".join(f"<div>$${r}$$</div>" for r in der.residuals_latex)
+    lines = "".join(f"<div>$${r}$$</div>" for r in [*der.residuals_latex, *der.laws_latex])
     return (f"<p>Unknown node voltages ${unknowns}$. One current balance per unknown node, "
             "with the full large-signal device laws:</p>" + lines
             + "<p>The exact sensitivities are those of the solved point, by implicit differentiation "

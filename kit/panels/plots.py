@@ -46,7 +46,7 @@ def _load_figure(src):
     fig = _curve_figure(theme.LOAD_HEIGHT, y_range=DataRange1d(range_padding=0))
     fig.quad(left="left", right="right", bottom="bottom", top="top", source=src["load_outside"],
              fill_color=theme.OUTSIDE, fill_alpha=0.25, hatch_pattern="/", hatch_color=theme.OUTSIDE,
-             hatch_alpha=0.8, line_color=None, legend_label="a transistor leaves forward active",
+             hatch_alpha=0.8, line_color=None, legend_label="a part leaves its working region",
              level="underlay")
     edges = fig.segment(x0="x", x1="x", y0="y0", y1="y1", source=src["load_edges"], line_color=theme.EDGE,
                         line_dash="dashed", line_width=1.5, legend_label="compliance edges")

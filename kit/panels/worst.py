@@ -187,7 +187,7 @@ class SynthesisView:
     def __init__(self, panel, spec, topologies=None, polarities=None):
         self.panel = panel
         self.spec = spec
-        self.topologies = list(topologies or [panel.design.topology])
+        self.topologies = list(topologies or [panel.design.topology.key])
         self.polarities = list(polarities or [panel.design.polarity])
         self.result = None
         self.load_buttons = []

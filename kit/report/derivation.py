@@ -18,6 +18,8 @@ def html(der):
         f"<p>Unknowns ${unknowns}$; Kirchhoff's current law at each unknown node "
         f"({tables.escape(_model_words(structure))}):</p>"
         + "".join(f"<p>$${r}$$</p>" for r in der.residuals_latex)
+        + ("<p>where the part currents named are:</p>" if der.laws_latex else "")
+        + "".join(f"<p>$${law}$$</p>" for law in der.laws_latex)
         + "<p>Exact sensitivities follow from the implicit function theorem at the solved point: "
         r"$$\frac{\partial x}{\partial p} = -J_x^{-1}\,\frac{\partial F}{\partial p},\qquad"
         r"\frac{dI_{out}}{dp} = \frac{\partial I_{out}}{\partial p}"

@@ -52,7 +52,8 @@ def _value(evaluation, s):
 
 
 def _derivative(s):
-    unit = per("A", "K" if s.parameter == "temp" else s.unit)
+    # A current over a current (a mirror's ratio) keeps its A/A rather than reading as a bare number.
+    unit = per("A", "K" if s.parameter == "temp" else s.unit) or (f"A/{s.unit}" if s.unit else "")
     return format_quantity(s.derivative, unit) if unit else f"{s.derivative:.4g}"
 
 
@@ -73,16 +74,13 @@ def text(evaluation):
         lines.append(f"  {label:<12} {value}")
     c = evaluation.compliance
     lines.append(f"  low edge     {c.low.describe()}; high edge {c.high.describe()}")
-    if evaluation.r_out_forms:
-        lines.append("output resistance, hand forms")
-        labels = {key: design.structure.extra_label(key) for key in evaluation.r_out_forms}
-        width = max(map(len, labels.values()))
-        for key, value in evaluation.r_out_forms.items():
-            lines.append(f"  {labels[key]:<{width}}  {resistance(value):>10}")
+    structure = design.structure
+    for key, value in evaluation.r_out_forms.items():  # beside the exact R_out above
+        lines.append(f"  {'':<12} {resistance(value)}: {structure.extra_label(key)}")
     lines.append("parts")
     for name, p in evaluation.parts.items():
         lines.append(f"  {name}: {p.region}, {_describe_part(evaluation, name)}")
-    lines.append("sensitivities            dI/dp             S = (p/I) dI/dp")
+    lines.append(f"{'sensitivities':<17}{'dI/dp':>16}  S = (p/I) dI/dp")  # over the columns below
     for s in evaluation.sensitivities:
         lines.append(f"  {s.parameter:<14} {_derivative(s):>16}  {_normalised(s)}")
     lines.append("tempco budget")

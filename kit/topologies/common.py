@@ -61,8 +61,8 @@ def start_behind_emitter_resistor(c, q, current, r_e):
 
     The base sits one V_BE (the device law inverted at ``current``) above the
     drop across ``r_e``; when that would put the base far above the collector
-    (saturation), it is clamped to :data:`SATURATED_VBC_START` beyond the
-    load rail.  Returns the base voltage expression.
+    (saturation), it is clamped to :data:`SATURATED_VBC_START` (or the start's
+    V_BE, if smaller) beyond the load rail.  Returns the base voltage expression.
     """
     import sympy as sp
 
@@ -70,11 +70,15 @@ def start_behind_emitter_resistor(c, q, current, r_e):
     current = positive_or(current)
     v_be = BJT.start(q.sense, current, q.symbols)
     v_re = current * (q["beta"] + 1) / q["beta"] * r_e
+    # Never more forward bias than the start's own V_BE either: a hot junction with
+    # a large I_S (V_BE ~ 0.25 V at 400 K) biased by 0.55 V would carry amperes,
+    # and Newton wanders off with the emitter above the base.
+    v_bc = sp.Min(v_be, SATURATED_VBC_START)
     if c.sense == "n":
-        v_b = sp.Min(v_re + v_be, v_out + SATURATED_VBC_START)
+        v_b = sp.Min(v_re + v_be, v_out + v_bc)
         c.start("e", v_b - v_be)
     else:
-        v_b = sp.Max(v_cc - v_re - v_be, v_out - SATURATED_VBC_START)
+        v_b = sp.Max(v_cc - v_re - v_be, v_out - v_bc)
         c.start("e", v_b + v_be)
     c.start("b", v_b)
     return v_b
