@@ -344,3 +344,18 @@ def test_all_topologies_print_progress_on_stderr():
     data = json.loads(out)
     assert code in (0, 1) and set(data["synthesis"]) >= {"candidates", "rejected", "infeasible", "defaults"}
     assert np.isfinite([c["margin"] for c in data["synthesis"]["candidates"]]).all()
+
+
+def test_held_value_outside_an_absolute_bound_moves_into_it():
+    # The bridge record has no set voltage; an op-amp source tried for it starts from its default
+    # set voltage (0.5 V), which an absolute bound of 1.19 ... 1.21 V must override (the bound rules).
+    record = load_record(BRIDGE)
+    assert kit.topologies.get("opamp_mos_source").value("v_set").default_for("nmos") == 0.5
+    spec = replace(record.spec, bounds={"v_set": (1.19, 1.21)}, beta={})
+    result = synthesize(spec, start=record.design, topologies=["opamp_mos_source"], polarities=["nmos"])
+    c = _own(result)
+    assert c.held["v_set"] == (pytest.approx(1.2, rel=1e-12), "spec")
+    assert {b["name"]: b["applied"] for b in c.bounds} == {"v_set": "absolute"}
+    # what the record has is still the record's
+    assert c.held["v_supply"] == (12.0, "record") and c.held["v_load"] == (11.0, "record")
+    assert c.design.temp == record.design.temp and c.design.title == record.design.title
