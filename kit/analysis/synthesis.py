@@ -43,7 +43,6 @@ import itertools
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-from scipy.optimize import brentq
 
 from kit.analysis import eseries
 from kit.analysis.spec import factors
