@@ -23,6 +23,7 @@ import os
 import sys
 
 import kit
+from kit.analysis.eseries import SERIES
 from kit.errors import DesignError
 from kit.record import EDGES
 from kit.safety import terminal_text
@@ -78,12 +79,17 @@ def build_parser():
                        help="junctions at ambient (default: ambient + theta_JA x dissipation)")
     synth = commands.add_parser(
         "synthesize", help="standard values meeting a record's [spec], ranked by margin",
-        description="Size each topology for the record's [spec], snap to the E-series of the spec's "
-                    "resistor tolerance and rank the candidates by worst-case margin.")
+        description="Size each topology for the record's [spec], starting from the record (every value, "
+                    "part and condition it does not search is kept), snap the resistors to an E-series and "
+                    "rank the candidates by worst-case margin; designs needing an external reference are "
+                    "ranked apart. Progress goes to stderr.")
     synth.add_argument("record", metavar="RECORD.toml", help="a design record with a [spec] section")
     synth.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     synth.add_argument("--all", action="store_true",
-                       help="try every topology (default: the record's own), same polarity")
+                       help="try every topology (default: the record's own) that sinks or sources like the record")
+    synth.add_argument("--series", type=str.upper, choices=SERIES, default=None,
+                       help="E-series of the resistors, whatever their tolerance (default: the series "
+                            "customary for the spec's resistor tolerance)")
     spread_cmd = commands.add_parser(
         "spread", help="the four questions of a current source: compliance, gain spread, tempco, supply",
         description="For the record's design: the current and its compliance range; how much the "
@@ -150,7 +156,7 @@ def main(argv=None):
         if args.command == "check":
             return _check(args.record, args.json, not args.no_self_heating)
         if args.command == "synthesize":
-            return _synthesize(args.record, args.json, args.all)
+            return _synthesize(args.record, args.json, args.all, args.series)
         if args.command == "spread":
             return _spread(args)
         if args.command == "review":
@@ -327,7 +333,7 @@ def _check(path, as_json, self_heating):
     return EXIT_OK if result.met else EXIT_SPEC_NOT_MET
 
 
-def _synthesize(path, as_json, every):
+def _synthesize(path, as_json, every, series):
     from kit.analysis.synthesis import synthesize
     from kit.report import text
     from kit.report.worstcase import spec_line
@@ -336,8 +342,16 @@ def _synthesize(path, as_json, every):
     if record is None:
         return code
     design = record.design
-    topologies = None if every else [design.topology.key]
-    result = synthesize(record.spec, topologies=topologies, polarities=[design.polarity])
+
+    def progress(index, total, key):
+        print(f"synthesize [{index}/{total}] {key}", file=sys.stderr, flush=True)
+
+    own = {"topologies": None} if every else {"topologies": [design.topology.key],
+                                              "polarities": [design.polarity]}
+    try:
+        result = synthesize(record.spec, start=design, series=series, edge=record.edge, progress=progress, **own)
+    except DesignError as err:
+        return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
                     "migrated": list(record.migrated), "synthesis": result.to_dict()})
