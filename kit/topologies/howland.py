@@ -88,7 +88,8 @@ VALUES = (
 )
 
 # U1's defaults here: a general-purpose op-amp on ±15 V (generic values of our own).
-OPAMP_SPLIT = dict(a_ol=1e5, v_os=0.5e-3, v_os_tc=0.0, i_bias=20e-9, v_oh=13.5, v_ol=-13.5)
+# A general-purpose part's offset drifts a few µV/K (common practice, no source).
+OPAMP_SPLIT = dict(a_ol=1e5, v_os=0.5e-3, v_os_tc=5e-6, i_bias=20e-9, v_oh=13.5, v_ol=-13.5)
 
 DERIVED = "derived here (SymPy, nodal equations with the op-amp gain law)"
 PEASE = ("Pease, A Comprehensive Study of the Howland Current Pump, National Semiconductor AN-1515 "
@@ -148,6 +149,7 @@ def draw(sheet, d):
     import schemdraw.elements as elm
 
     op = elm.Opamp(leads=True).label("U1", loc="center", ofst=(-0.35, 0))
+    op.label(f"supply ±{sheet.text('v_supply')}", loc="bottom", fontsize=10)
     minus, plus, out = op.in1, op.in2, op.out
     # − input: R3 to 0 V on the left, R4 over the top to the output.
     elm.Line().at(minus).left(0.5)
