@@ -61,8 +61,8 @@ SCHEMA_VERSION = 2
 READABLE_VERSIONS = (1, 2)  # format 1 is migrated on reading (see _migrate_1)
 MAX_RECORD_BYTES = 1024 * 1024  # a record is a page of text; anything larger is a mistake
 # Bounds on the shape of the text, checked before the TOML parser runs (see
-# kit.record_scan).  The examples need at most 4 levels, 39 key names and 202
-# tokens.  Within the bounds the parser's time grows with the byte count only
+# kit.record_scan).  The examples need at most 5 levels (a spec's matched groups are
+# lists in a list), 39 key names and 202 tokens.  Within the bounds the parser's time grows with the byte count only
 # (well under a second for 1 MiB of string escapes, its slowest input).
 MAX_RECORD_DEPTH = 16
 MAX_RECORD_KEYS = 1000
@@ -839,7 +839,7 @@ def _too_large(size):
 # What each bound of the shape says when passed: (message, valid).
 _SHAPE_WORDS = {
     "depth": ("nested more than {limit} levels deep in {source}",
-              "at most {limit} levels of tables, dotted keys and arrays; a record needs about 4"),
+              "at most {limit} levels of tables, dotted keys and arrays; a record needs about 5"),
     "keys": ("more than {limit} key names in {source}",
              "at most {limit} key names, each part of a dotted key counted; a record has about 40"),
     "tokens": ("more than {limit} words, strings and brackets in {source}",
