@@ -247,9 +247,12 @@ def _check_order(name, values):
 
 def merge(base, changes):
     """Datasheet ``changes`` over ``base``, entry by entry and key by key (a record over a part class)."""
-    out = {name: dict(values) for name, values in base.items()}
+    def table(values):  # a scalar entry may be a bare number
+        return dict(values) if isinstance(values, (dict, MappingProxyType)) else {"value": values}
+
+    out = {name: table(values) for name, values in base.items()}
     for name, values in changes.items():
-        out[name] = out.get(name, {}) | dict(values)
+        out[name] = out.get(name, {}) | table(values)
     return out
 
 

@@ -24,7 +24,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from types import MappingProxyType
 
-from kit.devices.datasheet import DEFAULT_TEST_TEMPERATURE, check_entries, from_datasheet
+from kit.devices.datasheet import DEFAULT_TEST_TEMPERATURE, from_datasheet
 from kit.errors import ParameterError
 
 GENERIC = "generic, from memory, not a part's data"
@@ -85,7 +85,7 @@ class PartClass:
         from kit.devices import KINDS
         from kit.devices.datasheet import merge
 
-        sheet = merge(self.sheet, check_entries(self.kind, sheet_changes or {}))
+        sheet = merge(self.sheet, sheet_changes or {})  # checked whole by from_datasheet
         start = (base if base is not None else KINDS[self.kind].typical(self.polarity)).with_values(**self.params)
         return from_datasheet(KINDS[self.kind], self.polarity, sheet, base=start, t_ref=t_ref, rails=rails,
                               supply_range=supply_range, label=self.label)
