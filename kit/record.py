@@ -373,6 +373,9 @@ def _part_data(overrides, part, context, where):
     chosen = None
     if "class" in overrides:
         field = f"{where}.class"
+        if not isinstance(overrides["class"], str):
+            raise _fail(f"must be text, not {_kind(overrides['class'])}", field, overrides["class"],
+                        "a class name (`biasbook parts` lists them)")
         _text(overrides["class"], field, 100)
         try:
             chosen = part_classes.get(overrides["class"])
