@@ -4,7 +4,7 @@ Examples
 --------
 >>> from kit.devices.part_classes import get
 >>> print(text(get("zener-6v2")).splitlines()[0])
-zener-6v2: 6.2 V zener, 5 %, half a watt (zener, zener)
+zener-6v2: 6.2 V zener, 5 %, half a watt (zener diode, zener)
 """
 
 from __future__ import annotations
