@@ -393,7 +393,8 @@ def _part_data(overrides, part, context, where):
         converted = convert(None)
     except ParameterError as err:
         raise _from_kit(err, f"{where}.datasheet.{err.parameter}") from None
-    context.setdefault("part_data", {})[part.name] = (convert, f"{where}.datasheet")
+    context.setdefault("part_data", {})[part.name] = (convert, f"{where}.datasheet",
+                                                      dict(chosen.matching) if chosen else {})
     return converted.model
 
 
@@ -570,7 +571,7 @@ def _with_part_ranges(args, design, part_data):
     members = {m: g.members for g in groups for m in g.members}
     beta, bounds = dict(args.get("beta", {})), dict(args.get("bounds", {}))
     added = []
-    for part, (convert, where) in part_data.items():
+    for part, (convert, where, _) in part_data.items():
         try:
             converted = convert(args.get("v_supply"))
         except ParameterError as err:
@@ -585,7 +586,29 @@ def _with_part_ranges(args, design, part_data):
                     continue
                 bounds[f"{part}.{param}"], what = (low, high), f"spec.bounds.{part}.{param}"
             added.append(f"{what} = [{low:.6g}, {high:.6g}] from {where.rsplit('.', 1)[0]}")
-    return args | {"beta": beta, "bounds": bounds}, tuple(added)
+    matching = _class_matching(args, groups, part_data)
+    added += [f"spec.{k} = {v:.6g} from the class of {', '.join(g)}" for k, (v, g) in matching.items()]
+    return args | {"beta": beta, "bounds": bounds} | {k: v for k, (v, _) in matching.items()}, tuple(added)
+
+
+def _class_matching(args, groups, part_data):
+    """Mismatch bounds of matched-pair classes for the spec fields it leaves at zero.
+
+    Only where every member of every matched group of that kind names a class
+    stating them (a spec's mismatch applies to all groups of a kind); the
+    largest stated bound is taken.
+    """
+    out = {}
+    for kind in ("bjt", "mos"):
+        of_kind = [g for g in groups if g.kind == kind]
+        if not of_kind:
+            continue
+        stated = [part_data.get(m, (None, None, {}))[2] for g in of_kind for m in g.members]
+        for key in sorted({k for entry in stated for k in entry}):
+            if args.get(key) or not all(key in entry for entry in stated):
+                continue
+            out[key] = (max(entry[key] for entry in stated), tuple(m for g in of_kind for m in g.members))
+    return out
 
 
 SECTIONS = {

@@ -239,3 +239,34 @@ def test_parts_command_json(capsys):
     small = listing[0]
     assert small["source"] == GENERIC and small["ranges"]["beta_f"][0] == pytest.approx(100 / 1.05, rel=1e-6)
     assert all(d["label"].endswith(f"{GENERIC})") for d in listing)
+
+
+def test_matched_pair_class_gives_its_mismatch_to_a_matched_group():
+    # The class states |dV_BE| <= 1 mV and |d beta/beta| <= 10 % between its two transistors
+    # (generic, from memory); a spec that matches Q1 and Q2 and states no mismatch takes them.
+    text = '''
+biasbook_record = 2
+title = "Matched pair by class"
+[circuit]
+topology = "basic_mirror"
+polarity = "npn"
+[values]
+i_ref = "0.5 mA"
+i_ref_tc = 0
+n_area = 1
+v_supply = "9 V"
+v_load = "4 V"
+[devices.Q1]
+class = "dual-npn-matched"
+[devices.Q2]
+class = "dual-npn-matched"
+[spec]
+current = "0.5 mA"
+tolerance = "10 %"
+matched = [["Q1", "Q2"]]
+'''
+    r = parse_record(text)
+    assert r.spec.mismatch_vbe == pytest.approx(1e-3) and r.spec.mismatch_beta == pytest.approx(0.1)
+    assert r.spec.beta["Q1"] == r.spec.beta["Q2"]
+    own = parse_record(text.replace('matched = [["Q1", "Q2"]]', 'matched = [["Q1", "Q2"]]\nmismatch_vbe = "2 mV"'))
+    assert own.spec.mismatch_vbe == pytest.approx(2e-3) and own.spec.mismatch_beta == pytest.approx(0.1)
