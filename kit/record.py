@@ -674,6 +674,9 @@ class Record:
         Saturation criterion for evaluation (``conditions.edge``).
     title, revision, author, notes : str
         Header text (``""`` when absent).
+    spec_from_parts : tuple of str
+        The spec ranges filled from parts given by class or datasheet
+        (``"spec.beta.Q1 = [114.286, 342.857] from devices.Q1"``).
 
     Examples
     --------

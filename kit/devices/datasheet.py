@@ -333,6 +333,13 @@ def saturation_current_for(v_be, i_c, v_ce, temp, values, t_ref):
 
     The transport law is linear in I_S:
     ``I_C = I_S [e^(v_be/V_T) (1 - e^(-v_ce/V_T)) (1 + v_ce/V_A) - (e^(v_bc/V_T) - 1)/β_R]``.
+
+    Examples
+    --------
+    >>> from kit.devices import KINDS
+    >>> values = KINDS["bjt"].typical("npn").numbers()
+    >>> f"{saturation_current_for(0.65, 1e-3, 5.0, 298.15, values, 298.15):.3e}"
+    '9.807e-15'
     """
     v_t = BOLTZMANN_OVER_CHARGE * temp
     forward = math.exp(v_be / v_t)
@@ -343,7 +350,17 @@ def saturation_current_for(v_be, i_c, v_ce, temp, values, t_ref):
 
 
 def beta_for(h_fe, i_c, v_ce, temp, values, t_ref):
-    """β_F at ``t_ref`` that gives ``I_C/I_B = h_fe`` at ``i_c``, ``v_ce`` and ``temp`` in the kit's law."""
+    """β_F at ``t_ref`` that gives ``I_C/I_B = h_fe`` at ``i_c``, ``v_ce`` and ``temp`` in the kit's law.
+
+    Examples
+    --------
+    With V_A = 100 V, h_FE = 210 at 5 V is β_F = 210/1.05:
+
+    >>> from kit.devices import KINDS
+    >>> values = KINDS["bjt"].typical("npn").numbers()
+    >>> round(beta_for(210.0, 1e-3, 5.0, 298.15, values, 298.15), 6)
+    200.0
+    """
     v_t = BOLTZMANN_OVER_CHARGE * temp
     f_is, f_beta = _bjt_temperature_factors(values, temp, t_ref)
     i_s, beta_r = values["i_s"] * f_is, values["beta_r"]
