@@ -1,4 +1,4 @@
-"""The ``biasbook`` command: list the topologies, evaluate a design record.
+"""The ``biasbook`` command: list the topologies and part classes, evaluate a design record.
 
 Exit status: 0 done; 2 bad record or bad command line; 3 the design cannot
 be evaluated (load voltage outside compliance, supply too low, no converged
@@ -59,6 +59,12 @@ def build_parser():
         "topologies", help="list the circuits the kit can evaluate",
         description="List every topology with its values and what the kit derives.")
     listing.add_argument("--json", action="store_true", help="print a JSON list instead of text")
+    parts = commands.add_parser(
+        "parts", help="list the generic part classes a record can name",
+        description="List the part classes (generic, from memory, not a part's data): their "
+                    "datasheet-style entries and the model and spreads they give. A record names "
+                    "one in [devices.<part>] with class = \"...\" and overrides any field.")
+    parts.add_argument("--json", action="store_true", help="print a JSON list instead of text")
     evaluate = commands.add_parser(
         "evaluate", help="evaluate a design record (TOML)",
         description="Solve a design record exactly and report current, compliance, output "
@@ -153,6 +159,8 @@ def main(argv=None):
     try:
         if args.command == "topologies":
             return _list_topologies(args.json)
+        if args.command == "parts":
+            return _list_parts(args.json)
         if args.command == "check":
             return _check(args.record, args.json, not args.no_self_heating)
         if args.command == "synthesize":
@@ -224,6 +232,17 @@ def _list_topologies(as_json):
         _emit_json([report.describe(t) for t in all_topologies()])
     else:
         _say("\n\n".join(report.text(t) for t in all_topologies()))
+    return EXIT_OK
+
+
+def _list_parts(as_json):
+    from kit.devices.part_classes import CLASSES
+    from kit.report import parts as report
+
+    if as_json:
+        _emit_json([report.describe(c) for c in CLASSES.values()])
+    else:
+        _say("\n\n".join(report.text(c) for c in CLASSES.values()))
     return EXIT_OK
 
 
