@@ -19,7 +19,7 @@ import numpy as np
 from kit.errors import OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
 from kit.model.compliance import find_compliance
-from kit.model.solve import check_edge, solve_points
+from kit.model.solve import check_edge, check_laws, solve_points
 
 DISSIPATION_POINTS = 101
 PPM = 1e6
@@ -242,6 +242,7 @@ def evaluate(design, *, edge="vce_sat"):
     check_edge(edge)
     model = model_of(design)
     values = design.parameters()
+    check_laws(model, values)
     points = solve_points(model, values).require("design point")
     try:
         compliance = find_compliance(model, values, edge=edge)

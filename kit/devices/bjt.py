@@ -118,7 +118,8 @@ class BJT(DeviceKind):
     breakdown = "bv_ceo"  # the rating that bounds the load voltage
     good_region = "active"
     causes = {"saturation": "saturates", "cutoff": "cuts off", "breakdown": "reaches BV_CEO",
-              "power": "reaches its dissipation limit"}
+              "power": "reaches its dissipation limit", "beta_tc": "has β_F(T) ≤ 0",
+              "v_a": "has a negative Early factor (V_CE < −V_A)"}
     sensitivity = {"beta_f": "", "v_a": "V"}
     symbol_roles = {
         "I_S": ("I_S_", "I_{S}", "saturation current I_S"),
@@ -195,6 +196,22 @@ class BJT(DeviceKind):
         region[(j["v_be"] < off) & (j["v_bc"] >= off)] = "reverse"
         region[(j["v_bc"] < off) & (j["i_c"] < CUTOFF_CURRENT)] = "cutoff"
         return region
+
+    def domain(self, j, op):
+        """``β_F(T) > 0`` (its temperature law), ``1 + V_CE/V_A > 0`` (the Early factor).
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> law = KIND.domain({"v_ce": np.array([5.0, -120.0])},
+        ...                   {"beta": np.array([180.0, 180.0]), "V_A": np.array([100.0, 100.0])})
+        >>> law["v_a"][1] > 0
+        array([ True, False])
+        """
+        with np.errstate(divide="ignore", invalid="ignore"):
+            early = 1.0 + j["v_ce"] / op["V_A"] if "v_ce" in j else np.ones_like(op["beta"])
+        return {"beta_tc": ("β_F(T) > 0", op["beta"]),
+                "v_a": ("Early factor 1 + V_CE/V_A > 0", np.where(np.isinf(op["V_A"]), 1.0, early))}
 
     def margins(self, j, p, temp, edge):
         """Saturation and cut-off (V), breakdown (V) and dissipation (W, at the point's temperature).

@@ -74,6 +74,15 @@ class CompiledModel:
         return Params({f"{part.name}.{k}": self.parameter_index[v] for k, v in part.params.items()},
                       p, part.name)
 
+    def operating_of(self, part, q):
+        """Role -> row of ``q`` of one part's operating values (``"beta"``, ``"V_A"``, ...)."""
+        out = {}
+        for role, (prefix, _, _) in part.kind.symbol_roles.items():
+            index = self.operating_index.get(f"{prefix}{part.name}")
+            if index is not None:
+                out[role] = q[index]
+        return out
+
     def operating(self, p):
         """Operating values ``q`` (M, N) from parameters ``p`` (P, N)."""
         return _stack(self.module.operating(p), p.shape[1:])

@@ -121,8 +121,15 @@ class OperatingPoints:
             for cause, margin in part.kind.margins(j, self.model.params(self.p, part), self.temp,
                                                    edge).items():
                 out[part.name, cause] = margin
+            # A law outside its domain is outside every limit (margin -inf there).
+            for param, (_, margin) in self.domain(part).items():
+                out[part.name, param] = np.where(margin > 0, np.inf, -np.inf)
         out[None, "solve"] = np.where(self.converged, np.inf, -np.inf)
         return out
+
+    def domain(self, part):
+        """``parameter -> (law in words, margin)`` of one part's laws at these points (> 0 inside)."""
+        return part.kind.domain(self.junctions[part.name], self.model.operating_of(part, self.q))
 
     def worst_margin(self, edge="vce_sat"):
         """Smallest margin at each point and its ``(part, cause)`` key."""
@@ -179,6 +186,40 @@ class OperatingPoints:
                 f"the exact solve did not converge at {bad.size} of {self.size} points "
                 f"(first: point {bad[0]})", parameter=what)
         return self
+
+
+def check_laws(model, values):
+    """Refuse parameters under which a part's temperature law leaves its domain.
+
+    A current gain ``β_F(T)`` or a zener voltage ``V_Z(T)`` that reaches zero
+    at the temperature of the point (the junction's, self-heating included)
+    makes a law without physical meaning; the error names the part's
+    parameter, the junction temperature and the value there.
+
+    Raises
+    ------
+    kit.errors.ParameterError
+    """
+    p = parameter_array(model, values)
+    q = model.operating(p)
+    temp = p[model.parameter_index["temp"]]
+    for part in model.structure.devices:
+        ops = model.operating_of(part, q)
+        if not ops:
+            continue
+        rise = model.parameter_index.get(f"{part.name}.t_rise")
+        junction = temp + (p[rise] if rise is not None else 0.0)
+        for param, (law, margin) in part.kind.domain({}, ops).items():
+            bad = np.flatnonzero(~(margin > 0))
+            if bad.size:
+                k = bad[0]
+                name = f"{part.name}.{param}"
+                raise ParameterError(
+                    f"{law} fails at T = {junction[k]:.4g} K ({junction[k] - 273.15:.4g} °C): "
+                    f"the law gives {margin[k]:.4g} there",
+                    parameter=name, value=float(p[model.parameter_index[name]][k])
+                    if name in model.parameter_index else None,
+                    valid=f"a value that keeps {law} at every temperature of the design")
 
 
 def _batched_solve(a, b):
