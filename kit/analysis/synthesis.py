@@ -31,7 +31,7 @@ from kit.analysis import eseries
 from kit.analysis.spec import factors
 from kit.analysis.worstcase import _Box, _corner_values, worst_case
 from kit.model.design import make_design
-from kit.errors import DesignError
+from kit.errors import DesignError, ParameterError
 from kit.quantities import format_quantity
 
 CONFIRMED = 3  # candidates per topology given the full extreme-value analysis, at most
@@ -234,10 +234,20 @@ def synthesize(spec, *, topologies=None, polarities=None):
 
     series = eseries.series_for_tolerance(spec.resistor_tolerance or 0.01)
     chosen = [registry.get(k) for k in topologies] if topologies else registry.all_topologies()
+    if polarities is not None:
+        if isinstance(polarities, str):
+            polarities = (polarities,)
+        known = sorted({pol for top in chosen for pol in top.polarities})
+        if not any(pol in known for pol in polarities):
+            # Nothing to try: say so rather than return an empty ranking.
+            raise ParameterError("no chosen topology has this polarity", parameter="polarities",
+                                 value=list(polarities), valid=", ".join(known))
     ranked, infeasible = [], {}
     for top in chosen:
         for polarity in polarities or top.polarities:
             if polarity not in top.polarities:
+                infeasible[f"{top.key}/{polarity}"] = [
+                    f"{top.title} has no {polarity} form (it has {' and '.join(top.polarities)})"]
                 continue
             key = f"{top.key}/{polarity}"
             try:
