@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.errors import OperatingPointError, ParameterError
+from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
 from kit.model.compliance import find_compliance
 from kit.model.solve import check_edge, check_laws, solve_points
@@ -243,20 +243,35 @@ def evaluate(design, *, edge="vce_sat"):
     model = model_of(design)
     values = design.parameters()
     check_laws(model, values)
-    points = solve_points(model, values).require("design point")
+    points = solve_points(model, values)
     try:
         compliance = find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
     v_load = values["v_load"]
+    if not points.converged[0] and compliance.contains(v_load):
+        points = _continue_in_load(model, values, compliance)
     worst, keys = points.worst_margin(edge)
+    if (worst[0] < 0 or not compliance.contains(v_load)) and points.converged[0] and keys[0][1] == "cutoff":
+        # Starved rather than misloaded: say so if a higher supply serves this load.
+        starved = _supply_error(model, values, design, edge)
+        if starved.parameter == "v_supply" and starved.valid.startswith("≥"):
+            raise starved
     if worst[0] < 0 or not compliance.contains(v_load):
-        part, cause = keys[0]
+        # A load voltage far outside compliance may have no operating point
+        # at all: the refusal is the same as just outside, with the range.
+        part, cause = keys[0] if points.converged[0] else _nearest_edge(compliance, v_load)
+        here = "here" if points.converged[0] else "beyond this end"
         raise OperatingPointError(
-            f"load voltage outside compliance: {part} {points.cause_text(part, cause)} here",
+            f"load voltage outside compliance: {part} {points.cause_text(part, cause)} {here}",
             parameter="v_load", value=v_load,
             valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     i_out = float(points.i_out[0])
+    if not i_out > 0:
+        raise OperatingPointError(
+            "the output current flows the wrong way at this point (the circuit does not source "
+            "or sink as drawn)", parameter="v_load", value=v_load,
+            valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     gradient = dict(zip(model.parameter_names, (float(v) for v in points.di_dp[:, 0])))
     sensitivities = _sensitivities(design, gradient, i_out)
     regions = points.regions(edge)
@@ -282,6 +297,34 @@ def evaluate(design, *, edge="vce_sat"):
         dissipation_sweep=(v_sweep, power), max_dissipation=(biggest, float(power[biggest][k]), float(v_sweep[k])),
         hottest=hottest,
         node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points)
+
+
+def _nearest_edge(compliance, v_load):
+    """``(part, cause)`` of the compliance end nearer ``v_load``."""
+    end = compliance.low if v_load < compliance.low.voltage else compliance.high
+    return end.part, end.cause
+
+
+def _continue_in_load(model, values, compliance, steps=24):
+    """The design point reached from inside compliance, one load step at a time.
+
+    Used when the solve from the declared start or by source stepping
+    misses a point that lies inside compliance: the middle of the range
+    solved, each step starting from the last.
+    """
+    v_load = values["v_load"]
+    middle = 0.5 * (compliance.low.voltage + compliance.high.voltage)
+    x = None
+    for v in np.linspace(middle, v_load, steps):
+        points = solve_points(model, values | {"v_load": v}, x0=x)
+        if not points.converged[0]:
+            break
+        x = points.x
+    if x is None or not points.converged[0]:
+        raise ConvergenceError("the exact solve did not converge at the design point, although the "
+                               "load voltages around it solve", parameter="v_load", value=v_load,
+                               valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
+    return points
 
 
 def _hottest(model, values, v_load, power):
@@ -313,6 +356,22 @@ def _supply_error(model, values, design, edge):
         return OperatingPointError(
             "too low to bias the circuit", parameter="v_supply",
             value=values["v_supply"], valid=f"≥ {trial[good[0]]:.3g} V at v_load = {values['v_load']:.3g} V")
+    # Name what stops it at the given supply and load voltage, in the part's words.
+    here = solve_points(model, values)
+    margin, keys = here.worst_margin(edge)
+    part, cause = keys[0]
+    if part is not None and here.converged[0]:
+        info = model.structure.part(part)
+        limit = info.kind.limit_parameter(cause, here.junctions[part], model.params(here.p, info))
+        if limit is not None:
+            name = f"{part}.{limit}"
+            return OperatingPointError(
+                f"{part} {here.cause_text(part, cause)} at every load voltage, whatever the supply",
+                parameter=name, value=values[name], valid="a limit the circuit's operating point stays inside")
+        return OperatingPointError(
+            f"no load voltage and no higher supply bias the circuit: {part} {here.cause_text(part, cause)} "
+            f"at v_load = {values['v_load']:.4g} V; check the bias values",
+            parameter="v_supply", value=values["v_supply"], valid="a supply and bias that turn the circuit on")
     return OperatingPointError(
         "no load voltage and no higher supply bias the circuit; check the bias values",
         parameter="v_supply", value=values["v_supply"], valid="a supply and bias that turn the circuit on")

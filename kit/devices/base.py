@@ -335,6 +335,14 @@ class DeviceKind:
         """The current that names the part's operating point (I_C, I_D, I_Z)."""
         return None
 
+    def limit_parameter(self, cause, j, p):
+        """The part's own parameter that sets the limit ``cause`` at these points, if one does.
+
+        For a refusal that no supply or load can cure (an op-amp whose
+        output must pass its swing): the error names that parameter.
+        """
+        return None
+
     def cause_text(self, cause):
         return self.causes.get(cause, cause.replace("_", " "))
 

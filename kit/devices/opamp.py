@@ -85,6 +85,12 @@ class OpAmp(DeviceKind):
         """Output swing: ``min(V_OH - V_o, V_o - V_OL)`` (V)."""
         return {"output_swing": np.minimum(p.v_oh - j["v_o"], j["v_o"] - p.v_ol)}
 
+    def limit_parameter(self, cause, j, p):
+        """``v_oh`` when the output would rise past its highest voltage, else ``v_ol``."""
+        if cause != "output_swing":
+            return None
+        return "v_oh" if np.all(p.v_oh - j["v_o"] <= j["v_o"] - p.v_ol) else "v_ol"
+
     def describe(self, j):
         from kit.quantities import format_quantity
 

@@ -203,6 +203,21 @@ def check_laws(model, values):
     p = parameter_array(model, values)
     q = model.operating(p)
     temp = p[model.parameter_index["temp"]]
+    t_ref = p[model.parameter_index["t_ref"]]
+    for part in model.structure.parts:
+        # R (1 + TCR (T - T_ref)) must stay positive: a TCR far from zero over a
+        # wide span reaches zero (and the solve would meet a negative resistor).
+        tcr = model.parameter_index.get(f"tcr_{part.value}") if part.value else None
+        if tcr is None:
+            continue
+        factor = 1.0 + p[tcr] * (temp - t_ref)
+        bad = np.flatnonzero(~(factor > 0))
+        if bad.size:
+            k = bad[0]
+            raise ParameterError(
+                f"{part.value} (1 + TCR (T − T_ref)) ≤ 0 at T = {temp[k]:.4g} K: a negative resistance",
+                parameter=f"tcr_{part.value}", value=float(p[tcr][k]),
+                valid=f"|TCR| < {1.0 / abs(temp[k] - t_ref[k]):.3g} 1/K for this temperature span")
     for part in model.structure.devices:
         ops = model.operating_of(part, q)
         if not ops:
