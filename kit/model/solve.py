@@ -256,9 +256,13 @@ def _batched_solve(a, b):
     try:
         return np.linalg.solve(a, b)
     except np.linalg.LinAlgError:
-        out = np.empty(a.shape[:1] + a.shape[2:3] + b.shape[2:])
+        out = np.full(a.shape[:1] + a.shape[2:3] + b.shape[2:], np.nan)
         for k in range(a.shape[0]):
-            out[k] = np.linalg.lstsq(a[k], b[k], rcond=None)[0]
+            # A matrix with a NaN or inf (a diverged point) has no least-squares
+            # answer either (LAPACK's SVD fails on it): leave NaN, the caller
+            # marks that point unconverged.
+            if np.all(np.isfinite(a[k])) and np.all(np.isfinite(b[k])):
+                out[k] = np.linalg.lstsq(a[k], b[k], rcond=None)[0]
         return out
 
 
