@@ -11,8 +11,8 @@ two is a check of the kit, not of itself:
   Microelectronic Circuits, and Gray, Hurst, Lewis & Meyer, Analysis and
   Design of Analog ICs, ch. 1 — from memory);
 * temperature laws of Getreu, Modeling the Bipolar Transistor (1976) /
-  Gummel–Poon: ``I_S(T) = I_S0 (T/T0)^XTI exp[(q E_g/k)(1/T0 - 1/T)]``,
-  ``beta(T) = beta0 (T/T0)^XTB (1 + TC_beta (T - T0))`` (from memory);
+  Gummel–Poon: ``I_S(T) = I_S0 (T/T0)^m_IS exp[(q E_g/k)(1/T0 - 1/T)]``,
+  ``beta(T) = beta0 (T/T0)^m_beta (1 + TC_beta (T - T0))`` (from memory);
   resistors ``R (1 + TCR (T - T_ref))`` (IEC 60115-1 TCR convention, from memory);
 * constants k and q from CODATA 2018 via ``scipy.constants`` (exact in the 2019 SI).
 

@@ -16,10 +16,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import kit
-from kit.devices.bjt import TYPICAL_NPN, TYPICAL_PNP
+from kit.analysis.evaluation import sweep
+from kit.devices.bjt import KIND as BJT
 from kit.errors import DesignError, OperatingPointError
-from kit.evaluation import sweep
-from kit.solve import solve_points
+from kit.model.solve import solve_points
 
 few = settings(max_examples=40, deadline=None, derandomize=True, database=None,
                suppress_health_check=[HealthCheck.function_scoped_fixture])
@@ -133,10 +133,15 @@ def test_unknown_keyword_is_refused():
     assert "r1" in e.valid and "v_load" in e.valid
 
 
-@pytest.mark.parametrize("polarity", ["nnp", "NPN", "", None, "pmos"])
+@pytest.mark.parametrize("polarity", ["nnp", "NPN", "", "sink", "pmos", 1])
 def test_wrong_polarity_is_refused(polarity):
     e = _raises_naming("polarity", kit.design, "divider_source", polarity)
     assert "npn" in e.valid and "pnp" in e.valid
+
+
+def test_no_polarity_means_the_topologys_first():
+    # documented in kit.model.design.make_design: None is the default, the sink
+    assert kit.design("divider_source", None).polarity == "npn"
 
 
 def test_unknown_topology_is_refused():
@@ -144,7 +149,7 @@ def test_unknown_topology_is_refused():
     assert "divider_source" in e.valid
 
 
-@pytest.mark.parametrize("polarity, model", [("npn", TYPICAL_PNP), ("pnp", TYPICAL_NPN)])
+@pytest.mark.parametrize("polarity, model", [("npn", BJT.typical("p")), ("pnp", BJT.typical("n"))])
 def test_a_device_of_the_other_polarity_is_refused(polarity, model):
     e = _raises_naming("Q1.polarity", kit.design, "divider_source", polarity, devices={"Q1": model})
     assert e.valid == polarity
@@ -248,6 +253,21 @@ def _walk(obj, path=""):
         yield path, float(obj)
 
 
+NUMBER = r"-?[0-9.]+(?:e[+-]?[0-9]+)?"
+
+
+def _as_the_error_says(design, err):
+    """The design with the named input moved where the error's valid text says it works."""
+    assert err.parameter in ("v_load", "v_supply"), err
+    if err.parameter == "v_load":
+        low, high = (float(v) for v in re.match(rf"\s*({NUMBER})\s*…\s*({NUMBER})\s*V", err.valid).groups())
+        assert low < high and not (low <= err.value <= high), err
+        return design.with_values(v_load=(low + high) / 2)
+    offered = float(re.match(rf"\s*≥\s*({NUMBER})\s*V", err.valid).group(1))
+    assert offered > design.values["v_supply"], err
+    return design.with_values(v_supply=offered * 1.01)
+
+
 @settings(max_examples=30, deadline=None, derandomize=True, database=None)
 @given(r1=st.floats(5e3, 500e3), r2=st.floats(2e3, 200e3), r_e=st.floats(100.0, 20e3),
        v_supply=st.floats(3.0, 36.0), load_fraction=st.floats(0.2, 0.95),
@@ -258,13 +278,17 @@ def test_valid_designs_have_no_nan_anywhere(r1, r2, r_e, v_supply, load_fraction
     v_load = v_supply * load_fraction if polarity == "npn" else v_supply * (1 - load_fraction)
     design = kit.design("divider_source", polarity, r1=r1, r2=r2, r_e=r_e, v_supply=v_supply,
                         v_load=v_load, temp=temp, devices={"Q1": {"beta_f": beta_f, "v_a": v_a}})
-    try:
-        ev = kit.evaluate(design)
-    except OperatingPointError as err:
-        # a design the source cannot serve is told so, naming the input to change
-        assert err.parameter in ("v_load", "v_supply")
-        assert err.valid
-        return
+    # A design the source cannot serve is told so, naming the input to change
+    # and the values that work; the design changed as the error says must then
+    # evaluate (a supply first may leave the load to move next).
+    for _ in range(3):
+        try:
+            ev = kit.evaluate(design)
+            break
+        except OperatingPointError as err:
+            design = _as_the_error_says(design, err)
+    else:
+        raise AssertionError(f"following the errors' advice did not give a working design: {design}")
     data = ev.to_dict()
     for path, value in _walk(data):
         assert not math.isnan(value), path

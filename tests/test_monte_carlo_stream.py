@@ -33,6 +33,7 @@ from kit.analysis import worstcase
 from kit.analysis.spec import Spec, factors
 from kit.analysis.streaming import RunningHistogram, SeededColumns, wilson_interval
 from kit.analysis.worstcase import worst_case
+from kit.report import worstcase as report
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -133,7 +134,7 @@ def test_yield_interval_means_something_at_full_yield():
     ref = stats.binomtest(n, n).proportion_ci(confidence_level=0.95, method="wilson")
     assert (low, high) == pytest.approx((ref.low, ref.high), rel=1e-12)
     assert high == 1.0 and 0.98 < low < 0.995  # z^2 / n = 1.96^2 / 400 ~ 1 %
-    assert "95% interval" in worst_case(_sink(), spec, self_heating=False, methods=("Monte Carlo",)).text()
+    assert "95% interval" in report.text(worst_case(_sink(), spec, self_heating=False, methods=("Monte Carlo",)))
 
 
 def test_zero_yield_interval_is_shown_with_its_upper_end():
@@ -145,7 +146,7 @@ def test_zero_yield_interval_is_shown_with_its_upper_end():
     mc = wc.methods["Monte Carlo"]
     ref = stats.binomtest(0, n).proportion_ci(confidence_level=0.95, method="wilson")
     assert mc.detail["yield"] == 0.0 and mc.detail["yield_interval"] == pytest.approx([0.0, ref.high], rel=1e-12)
-    assert "yield 0.00% (95% interval 0% … 0.19%)" in wc.text()  # 1.96^2 / (2000 + 1.96^2) = 0.19 %
+    assert "yield 0.00% (95% interval 0% … 0.19%)" in report.text(wc)  # 1.96^2 / (2000 + 1.96^2) = 0.19 %
 
 
 def _spec(**changes):

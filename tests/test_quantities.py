@@ -334,3 +334,11 @@ def test_global_quantiphy_preferences_are_left_alone():
     # quantiphy's default renders micro as ASCII u with no preferences set
     # (quantiphy documentation, set_prefs map_sf).
     assert str(Quantity(1e-6, "A")) == "1 uA"
+
+
+def test_property_tests_run_derandomized():
+    # tests/conftest.py loads the "biasbook" profile: every @given draws the same
+    # examples on every machine (the project's rule), with or without its own settings.
+    assert settings.default.derandomize is True
+    assert settings.get_profile("biasbook").derandomize is True
+    assert deterministic.derandomize is True

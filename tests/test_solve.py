@@ -1,4 +1,4 @@
-"""The exact solve (kit.solve) against an independent solution of the same KCL.
+"""The exact solve (kit.model.solve) against an independent solution of the same KCL.
 
 The reference is ``scipy.optimize.root`` (MINPACK hybrd) on the divider
 source's node equations written out by hand in tests/conftest.py from the
@@ -15,8 +15,8 @@ import pytest
 
 import kit
 from kit.errors import ConvergenceError
-from kit.evaluation import sweep
-from kit.solve import solve_points
+from kit.analysis.evaluation import sweep
+from kit.model.solve import MAX_ITERATIONS, solve_points
 
 SCENARIO_NAMES = ["sink_15v", "sink_5v", "sink_weak", "source_12v", "source_9v"]  # tests/conftest.py
 
@@ -24,7 +24,7 @@ VARIANTS = {
     "nominal": {},
     "no_early": {"v_a": math.inf},
     "hot_self_heated": {"temp": 358.15, "t_rise": 15.0, "tcr": {"r1": 100e-6, "r_e": -200e-6}},
-    "cold_low_beta": {"temp": 233.15, "beta_f": 45.0, "beta_tc": 4e-3, "xtb": 0.0},
+    "cold_low_beta": {"temp": 233.15, "beta_f": 45.0, "beta_tc": 4e-3, "beta_temp_exponent": 0.0},
 }
 
 
@@ -99,14 +99,20 @@ def _random_parameters(rng, n, polarity):
     """Random but valid parameter vectors (every value inside its documented range)."""
     inf_mask = rng.random(n) < 0.1
     v_a = np.where(inf_mask, np.inf, 10 ** rng.uniform(1.3, 2.5, n))
-    return {
+    # Ratings (breakdown, power, junction limit) only judge the solved point:
+    # they keep their typical values.
+    typical = kit.design("divider_source", polarity).parameters()
+    ratings = {name: np.full(n, typical[name]) for name in
+               ("Q1.bv_ceo", "Q1.t_j_max", "Q1.theta_ja", "Q1.v_ce_sat", "p_rated_r1", "p_rated_r2",
+                "p_rated_r_e")}
+    return ratings | {
         "r1": 10 ** rng.uniform(2.5, 6.5, n), "r2": 10 ** rng.uniform(2.5, 6.5, n),
         "r_e": 10 ** rng.uniform(1.0, 5.0, n), "v_supply": rng.uniform(1.0, 60.0, n),
         "v_load": rng.uniform(-10.0, 70.0, n),
         "Q1.beta_f": 10 ** rng.uniform(1.3, 3.0, n), "Q1.beta_r": rng.uniform(0.5, 10.0, n),
         "Q1.v_a": v_a, "Q1.i_s": 10 ** rng.uniform(-16.0, -12.0, n),
-        "Q1.e_g": rng.uniform(1.05, 1.2, n), "Q1.xti": rng.uniform(2.0, 4.0, n),
-        "Q1.xtb": rng.uniform(0.0, 2.0, n), "Q1.beta_tc": rng.uniform(-2e-3, 5e-3, n),
+        "Q1.e_g": rng.uniform(1.05, 1.2, n), "Q1.i_s_temp_exponent": rng.uniform(2.0, 4.0, n),
+        "Q1.beta_temp_exponent": rng.uniform(0.0, 2.0, n), "Q1.beta_tc": rng.uniform(-2e-3, 5e-3, n),
         "Q1.t_rise": rng.uniform(0.0, 30.0, n),
         "temp": rng.uniform(220.0, 420.0, n), "t_ref": np.full(n, 298.15),
         "tcr_r1": rng.uniform(-1e-3, 1e-3, n), "tcr_r2": rng.uniform(-1e-3, 1e-3, n),
@@ -134,7 +140,7 @@ def test_vectorised_solve_converges_or_flags_and_never_returns_nan(random_batche
     assert np.all(np.isfinite(points.i_out[good]))
     assert np.all(np.isfinite(points.x[:, good]))
     # Most random designs solve (the rest sit in saturation, reverse or cut-off,
-    # see the forward-active test below and the xfails at the end of this file).
+    # see the forward-active test below and the regression checks at the end).
     assert good.mean() > 0.9, f"{(~good).sum()} of 2500 did not converge"
 
 
@@ -195,8 +201,9 @@ def test_vectorised_solve_equals_one_point_at_a_time(random_batches, models, pol
 def test_points_that_do_not_converge_are_flagged_and_refused(models, scenario):
     design = scenario("sink_15v")
     values = design.parameters() | {"v_load": np.linspace(0.0, 30.0, 7)}
-    # two Newton steps cannot reach a 1e-12 relative step from the closed-form guess
-    points = solve_points(models["npn"], values, max_iterations=2)
+    # Two Newton steps cannot reach a 1e-12 relative step from every node at
+    # 0 V (an explicit start: no declared start, no source stepping to rescue it).
+    points = solve_points(models["npn"], values, x0=np.zeros((2, 1)), max_iterations=2)
     assert not points.converged.all()
     with pytest.raises(ConvergenceError) as err:
         points.require("test points")
@@ -205,8 +212,8 @@ def test_points_that_do_not_converge_are_flagged_and_refused(models, scenario):
 
 
 # ---------------------------------------------------------------------------
-# known kit bugs found by the random batches above (strict xfails: they turn
-# into failures as soon as the kit is fixed, so the marker can be removed)
+# points the random batches above once found the kit getting wrong (kept as
+# regression checks)
 
 def test_cut_off_pnp_at_high_supply_is_reported_as_an_operating_point_error():
     # R1 (supply to base) 1 kOhm against R2 1.5 MOhm: 32 mV across the base-emitter
@@ -225,14 +232,21 @@ def test_cut_off_pnp_at_high_supply_is_reported_as_an_operating_point_error():
     assert err.value.parameter == npn_err.value.parameter
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "kit bug: damped Newton does not converge in 200 iterations for a valid, lightly "
-    "saturated point at 400 K (V_CE = 0.096 V, V_BC = +0.154 V per scipy root; I_out 130 uA)"))
-def test_lightly_saturated_hot_point_converges(reference):
-    design = kit.design("divider_source", "npn", r1=1.2e6, r2=5.1e5, r_e=43e3, v_supply=30.0,
-                        v_load=6.0, temp=400.0, devices={"Q1": {"beta_f": 27.0, "i_s": 7e-13}})
-    ours = reference.solve("npn", design.parameters())
-    assert 0 < ours["v_bc"] < 0.3 and ours["v_ce"] > 0.05  # saturated but not deeply
-    points = sweep(design, "v_load", [6.0])
+@pytest.mark.parametrize("polarity", ["npn", "pnp"])
+def test_lightly_saturated_hot_point_converges(reference, polarity):
+    # Damped Newton once wandered off from the declared start here (V_CE =
+    # 0.096 V, V_BC = +0.154 V per scipy root; I_out 130 uA): the start put
+    # 0.55 V across a collector junction whose V_BE is only ~0.25 V at 400 K
+    # with this I_S.  The PNP case is the mirror image (R1 and R2 swapped, the
+    # load the same distance from the supply).
+    npn = polarity == "npn"
+    design = kit.design("divider_source", polarity, r1=1.2e6 if npn else 5.1e5, r2=5.1e5 if npn else 1.2e6,
+                        r_e=43e3, v_supply=30.0, v_load=6.0 if npn else 24.0, temp=400.0,
+                        devices={"Q1": {"beta_f": 27.0, "i_s": 7e-13}})
+    ours = reference.solve(polarity, design.parameters())
+    assert 0 < ours["v_bc"] < 0.3 and abs(ours["v_ce"]) > 0.05  # saturated but not deeply
+    points = sweep(design, "v_load", [design.values["v_load"]])
     assert points.converged[0]
+    # from the declared start itself, not rescued by the source-stepping retry
+    assert points.iterations[0] < MAX_ITERATIONS
     assert points.i_out[0] == pytest.approx(ours["i_out"], rel=1e-9)

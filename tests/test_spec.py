@@ -20,8 +20,10 @@ from kit.errors import ParameterError
 
 
 def _sink():
-    # a 1.4 mA sink from a 12 V rail for a sensor-bridge excitation (our scenario)
-    return kit.design("divider_source", "npn", r1=27e3, r2=8.2e3, r_e=1.5e3, v_supply=12.0, v_load=7.0)
+    # a 1.4 mA sink from a 12 V rail for a sensor-bridge excitation (our scenario, E24 values:
+    # V_TH = 12 V x 12k/48k = 3 V, R_TH = 36k || 12k = 9 kOhm; its current is checked by hand
+    # in tests/test_worstcase.py)
+    return kit.design("divider_source", "npn", r1=36e3, r2=12e3, r_e=1.6e3, v_supply=12.0, v_load=7.0)
 
 
 def _mirror():
@@ -59,9 +61,9 @@ def test_factors_of_a_full_spec():
                      "v_supply", "v_load", "temp"]
     assert [got[n].kind for n in names] == ["part"] * 8 + ["condition"] * 3
     # resistor ranges: value (1 -+ tol), the per-resistor override for r_e (by hand)
-    assert (got["r1"].low, got["r1"].high) == pytest.approx((27e3 * 0.99, 27e3 * 1.01), rel=1e-15)
-    assert (got["r_e"].low, got["r_e"].high) == pytest.approx((1.5e3 * 0.999, 1.5e3 * 1.001), rel=1e-15)
-    assert got["r_e"].half_range == pytest.approx(1.5, rel=1e-12)
+    assert (got["r1"].low, got["r1"].high) == pytest.approx((35.64e3, 36.36e3), rel=1e-15)
+    assert (got["r_e"].low, got["r_e"].high) == pytest.approx((1598.4, 1601.6), rel=1e-15)
+    assert got["r_e"].half_range == pytest.approx(1.6, rel=1e-12)  # 1.6 kOhm x 0.1 %
     # TCR bounds are signed-unknown: +- bound; the r_e override applies
     assert (got["tcr_r2"].low, got["tcr_r2"].high) == (-50e-6, 50e-6)
     assert (got["tcr_r_e"].low, got["tcr_r_e"].high) == (-10e-6, 10e-6)
@@ -90,7 +92,7 @@ def test_factors_defaults_and_overrides():
     assert got["Q2.beta_f"].distribution == "uniform"
 
 
-@pytest.mark.parametrize("bounds", [{"r_e": (1.45e3, 1.55e3)}, {"temp": (273.15, 323.15)}],
+@pytest.mark.parametrize("bounds", [{"r_e": (1.55e3, 1.65e3)}, {"temp": (273.15, 323.15)}],
                          ids=["resistor", "condition"])
 def test_a_bounds_entry_for_a_value_already_varied_is_refused(bounds):
     """The corner grid and the Monte Carlo draws are keyed by factor name, so two factors of
@@ -218,9 +220,9 @@ def test_unknown_bounds_name_is_refused():
     assert info.value.parameter == "bounds.v_zz"
 
 
-# Names the design does not have are silently dropped today, so a typo gives a worst case
-# without the tolerance the engineer asked for (an optimistic answer).  Each should be a
-# ParameterError naming the entry, as an unknown bounds name already is.
+# A name the design does not have, silently dropped, would give a worst case without the
+# tolerance the engineer asked for (an optimistic answer): each is a ParameterError naming
+# the entry, as an unknown bounds name is.
 UNKNOWN_NAMES = [
     (dict(beta={"NPN": (100.0, 300.0)}), "beta.NPN", _sink),
     (dict(beta={"Q7": (100.0, 300.0)}), "beta.Q7", _sink),
@@ -239,7 +241,7 @@ def test_unknown_names_are_refused(changes, parameter, make):
 
 
 def test_bounds_outside_the_value_range_are_refused():
-    spec = Spec(1.4e-3, 0.05, resistor_tolerance=0.0, bounds={"r_e": (-100.0, 1.6e3)})
+    spec = Spec(1.4e-3, 0.05, resistor_tolerance=0.0, bounds={"r_e": (-100.0, 1.7e3)})
     with pytest.raises(ParameterError) as info:
         factors(spec, _sink())
     assert info.value.parameter == "bounds.r_e"
@@ -264,6 +266,6 @@ def test_spec_to_dict_is_strict_json_and_round_trips():
 
 
 def test_factor_half_range():
-    f = Factor("r_e", 1500.0, 1485.0, 1515.0, "part")
-    assert f.half_range == pytest.approx(15.0, rel=1e-15)
+    f = Factor("r_e", 1600.0, 1584.0, 1616.0, "part")  # 1.6 kOhm +- 1 %
+    assert f.half_range == pytest.approx(16.0, rel=1e-15)
     assert math.isclose(Factor("temp", 298.15, 233.15, 358.15, "condition").half_range, 62.5)

@@ -26,11 +26,12 @@ import numpy as np
 import pytest
 
 import kit
+from kit import report
 from kit.analysis.temperature import temperature_sweep
 from kit.analysis.thermal import junction_temperatures, solve_self_heated
 from kit.errors import OperatingPointError
-from kit.evaluation import model_of, sweep
-from kit.solve import solve_points
+from kit.analysis.evaluation import model_of, sweep
+from kit.model.solve import solve_points
 
 # Scenarios (our own): an 11 mA sink from 24 V that dissipates about 0.1 W in a small
 # package (about 27 K of self-heating at 250 K/W), and its PNP twin sourcing into a
@@ -73,7 +74,7 @@ def test_junction_fixed_point(reference, polarity):
     d = _hot(polarity)
     model = model_of(d)
     params = d.parameters()
-    heated = solve_self_heated(model, params, d.devices)
+    heated = solve_self_heated(model, params)
     assert heated.converged.all()
     rise = float(heated.p[model.parameter_index["Q1.t_rise"], 0])
     t_j = float(junction_temperatures(heated)["Q1"][0])
@@ -91,7 +92,7 @@ def test_more_dissipation_warms_more(reference):
     d = _hot("npn")
     model = model_of(d)
     loads = np.array([8.0, 12.0, 16.0, 20.0])
-    heated = solve_self_heated(model, d.parameters() | {"v_load": loads}, d.devices)
+    heated = solve_self_heated(model, d.parameters() | {"v_load": loads})
     assert heated.converged.all()
     rise = junction_temperatures(heated)["Q1"] - d.temp
     theta = d.devices["Q1"].theta_ja
@@ -108,7 +109,7 @@ def test_more_dissipation_warms_more(reference):
     # extra current adds power (positive thermal feedback: more than twice the rise), where
     # V_CE < I R_E it removes power (less than twice).  The loads straddle V_CE = I R_E.
     hot2 = _hot("npn", devices={"Q1": {"theta_ja": 2 * theta}})
-    heated2 = solve_self_heated(model, hot2.parameters() | {"v_load": loads}, hot2.devices)
+    heated2 = solve_self_heated(model, hot2.parameters() | {"v_load": loads})
     rise2 = junction_temperatures(heated2)["Q1"] - d.temp
     loop = np.array(loop)
     assert np.any(loop < 0) and np.any(loop > 0)
@@ -121,7 +122,7 @@ def test_self_heating_raises_the_current(polarity):
     d = _hot(polarity)
     model = model_of(d)
     cold = solve_points(model, d.parameters())
-    hot = solve_self_heated(model, d.parameters(), d.devices)
+    hot = solve_self_heated(model, d.parameters())
     rise = float(hot.p[model.parameter_index["Q1.t_rise"], 0])
     shift = float(hot.i_out[0] / cold.i_out[0] - 1)
     assert shift > 0  # V_BE falls as the junction warms: more across R_E (common practice)
@@ -178,7 +179,7 @@ def test_junction_over_its_rating_fails_the_worst_case():
     d = _hot("npn", devices={"Q1": {"theta_ja": 1000.0}})
     q1 = d.devices["Q1"]
     loads = np.array([10.0, 15.0, 20.0])
-    heated = solve_self_heated(model_of(d), d.parameters() | {"v_load": loads}, d.devices)
+    heated = solve_self_heated(model_of(d), d.parameters() | {"v_load": loads})
     t_j = junction_temperatures(heated)["Q1"]
     over = t_j > q1.t_j_max
     assert heated.converged.all() and list(over) == [False, False, True]  # own check of the scenario
@@ -201,7 +202,7 @@ def test_budget_ignores_points_that_ran_away():
 
     d = _hot("npn", devices={"Q1": {"theta_ja": 2000.0}})
     loads = np.array([10.0, 15.0, 20.0])
-    heated = solve_self_heated(model_of(d), d.parameters() | {"v_load": loads}, d.devices)
+    heated = solve_self_heated(model_of(d), d.parameters() | {"v_load": loads})
     assert list(heated.converged) == [True, True, False]  # own check of the scenario
     wc = worst_case(d, Spec(11e-3, 0.2, v_load=(10.0, 20.0), resistor_tolerance=0.0, resistor_tcr=0.0),
                     methods=("extreme-value",))
@@ -244,8 +245,8 @@ def test_tempco_budget_sums_and_matches_finite_differences():
 
 def test_tempco_mechanisms_against_the_temperature_laws():
     """Derivation (x = T - T_ref): R(T) = R (1 + TCR x) so the TCR share is
-    (1/I)(dI/dR) R TCR / (1 + TCR x); beta(T) = beta_0 (T/T_0)^XTB (beta_tc = 0) so the gain
-    share is (1/I)(dI/dbeta_0) beta_0 XTB / T.  dI/dR and dI/dbeta_0 by central differences
+    (1/I)(dI/dR) R TCR / (1 + TCR x); beta(T) = beta_0 (T/T_0)^m_beta (beta_tc = 0) so the gain
+    share is (1/I)(dI/dbeta_0) beta_0 m_beta / T.  dI/dR and dI/dbeta_0 by central differences
     of the exact solve (relative step 1e-5).  V_T = kT/q raises V_BE at fixed I_S (share < 0);
     I_S grows steeply with T and lowers V_BE (share > 0)."""
     d = _tempco_scenario()
@@ -266,7 +267,7 @@ def test_tempco_mechanisms_against_the_temperature_laws():
         expected = share_by_difference(name, d.values[name]) * d.values[name] * tcr / (1 + tcr * x)
         assert np.allclose(sw.budget[label], expected, rtol=1e-5, atol=1e-12), label
     beta = q1.beta_f
-    expected = share_by_difference("Q1.beta_f", beta) * beta * q1.xtb / temps
+    expected = share_by_difference("Q1.beta_f", beta) * beta * q1.beta_temp_exponent / temps
     assert np.allclose(sw.budget["current gain β_F of Q1"], expected, rtol=1e-5, atol=1e-12)
     assert np.all(sw.budget["thermal voltage V_T of Q1"] < 0)
     assert np.all(sw.budget["saturation current I_S of Q1"] > 0)
@@ -284,9 +285,10 @@ def test_sweep_junction_temperatures(reference):
 
 
 def test_sweep_refuses_a_saturated_design():
-    # the topology's default values as a PNP source: its emitter sits near 3.4 V, below the
-    # 8 V load, so Q1 is saturated (kit.evaluate says so: an OperatingPointError)
-    d = kit.design("divider_source", "pnp")
+    # the topology's default divider as a PNP source with the load at 8 V: its emitter sits
+    # near 3.4 V (base at 12 V x 10k/43k = 2.8 V, one V_BE above), below the 8 V load, so
+    # Q1 is saturated (kit.evaluate says so: an OperatingPointError)
+    d = kit.design("divider_source", "pnp", v_load=8.0)
     with pytest.raises(OperatingPointError):
         kit.evaluate(d)
     with pytest.raises(OperatingPointError):
@@ -298,5 +300,7 @@ def test_sweep_to_dict_is_strict_json():
     data = json.loads(json.dumps(sw.to_dict(), allow_nan=False))
     assert len(data["temps"]) == 7 and set(data["budget"]) == set(sw.budget)
     assert math.isfinite(data["r_out_heated"])
-    text = sw.text()
+    # the result is data; words come from the report layer
+    assert not any(hasattr(sw, name) for name in ("text", "html", "_repr_html_"))
+    text = report.text(sw)
     assert "R_out isothermal" in text and "with self-heating" in text

@@ -267,7 +267,15 @@ def evaluate(design, *, edge="vce_sat"):
             parameter="v_load", value=v_load,
             valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     i_out = float(points.i_out[0])
-    if not i_out > 0:
+    if i_out == 0.0:
+        # Sensitivities, tempco and ledger errors are relative to I_out; a bidirectional
+        # source (the Howland pump) reaches exactly zero at zero drive without offsets.
+        raise OperatingPointError(
+            "the output current is exactly zero here: nothing to weigh sensitivities and errors against",
+            parameter="i_out", value=i_out, valid="a design point with a nonzero output current")
+    if i_out < 0 and len(design.topology.polarities) == 2:
+        # A sink or a source (two polarity words) reports its current positive in
+        # its own sense; a negative one means the circuit does not work as drawn.
         raise OperatingPointError(
             "the output current flows the wrong way at this point (the circuit does not source "
             "or sink as drawn)", parameter="v_load", value=v_load,
@@ -356,22 +364,23 @@ def _supply_error(model, values, design, edge):
         return OperatingPointError(
             "too low to bias the circuit", parameter="v_supply",
             value=values["v_supply"], valid=f"≥ {trial[good[0]]:.3g} V at v_load = {values['v_load']:.3g} V")
-    # Name what stops it at the given supply and load voltage, in the part's words.
-    here = solve_points(model, values)
-    margin, keys = here.worst_margin(edge)
+    # Name what stops it at the design's own load voltage: in a circuit whose supply
+    # biases nothing (a Howland pump's input drives it) that is the true cause.
+    nominal = solve_points(model, values)
+    _, keys = nominal.worst_margin(edge)
     part, cause = keys[0]
-    if part is not None and here.converged[0]:
+    if part is not None and nominal.converged[0]:
+        # A limit of the part itself (an op-amp's output swing) that no supply
+        # or load voltage can cure: name that parameter.
         info = model.structure.part(part)
-        limit = info.kind.limit_parameter(cause, here.junctions[part], model.params(here.p, info))
+        limit = info.kind.limit_parameter(cause, nominal.junctions[part], model.params(nominal.p, info))
         if limit is not None:
             name = f"{part}.{limit}"
             return OperatingPointError(
-                f"{part} {here.cause_text(part, cause)} at every load voltage, whatever the supply",
+                f"{part} {nominal.cause_text(part, cause)} at every load voltage, whatever the supply",
                 parameter=name, value=values[name], valid="a limit the circuit's operating point stays inside")
-        return OperatingPointError(
-            f"no load voltage and no higher supply bias the circuit: {part} {here.cause_text(part, cause)} "
-            f"at v_load = {values['v_load']:.4g} V; check the bias values",
-            parameter="v_supply", value=values["v_supply"], valid="a supply and bias that turn the circuit on")
+    where = f"{part} {nominal.cause_text(part, cause)}" if part else "the solve fails"
     return OperatingPointError(
-        "no load voltage and no higher supply bias the circuit; check the bias values",
+        f"no load voltage and no higher supply bias the circuit ({where} at "
+        f"v_load = {values['v_load']:.3g} V); check the bias values",
         parameter="v_supply", value=values["v_supply"], valid="a supply and bias that turn the circuit on")

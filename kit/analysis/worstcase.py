@@ -469,7 +469,7 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
 
     Parameters
     ----------
-    design : kit.designs.Design
+    design : kit.model.design.Design
     spec : kit.analysis.spec.Spec
     self_heating : bool
         Solve every point with its junctions at ambient + theta_JA x dissipation.

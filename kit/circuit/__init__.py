@@ -24,12 +24,14 @@ Everything here is symbolic (SymPy); nothing numeric happens until
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-
-import sympy as sp
+from typing import TYPE_CHECKING
 
 from kit.devices.base import BOLTZMANN_OVER_CHARGE
 from kit.devices.resistor import RESISTOR, SOURCE
 from kit.words import ASSUMPTIONS
+
+if TYPE_CHECKING:  # SymPy loads only when a circuit is built (a cold cache)
+    import sympy as sp
 
 
 @dataclass
@@ -147,6 +149,8 @@ class Circuit:
     # -- parameters and operating values -------------------------------------
     def parameter(self, name):
         """The symbol of public parameter ``name`` (created once)."""
+        import sympy as sp
+
         if name not in self.parameters:
             self.parameters[name] = sp.Symbol(name, real=True)
         return self.parameters[name]
@@ -157,6 +161,8 @@ class Circuit:
         ``latex`` is how equations write it, ``budget`` how the tempco budget
         names it when it has a temperature law.
         """
+        import sympy as sp
+
         symbol = sp.Symbol(name, positive=True) if positive else sp.Symbol(name, real=True)
         self.operating[symbol] = expression
         self.labels[name] = (latex or _default_latex(name), budget or "")
@@ -178,14 +184,42 @@ class Circuit:
         A parameter expression becomes an operating symbol named after the
         node (``cc`` -> ``V_CC``) so sensitivities to it are reported.
         """
+        import sympy as sp
+
         if isinstance(voltage, (int, float)):
             self.voltages[node] = sp.Integer(voltage) if voltage == int(voltage) else sp.Float(voltage)
         else:
             self.voltages[node] = self.operating_value(f"V_{node.upper()}", voltage)
             self.sources.append(self.voltages[node])
 
+    def supply_and_load(self, supply="cc", *, sinks=None):
+        """Ground, the supply rail and the load rail; declare the load rail the output.
+
+        The supply rail (``supply``, held at ``v_supply``) and the output rail
+        ``out`` (held at ``v_load``) are what every current source here shares.
+        ``sinks`` says whether the circuit sinks the output current; by default
+        an n-sense circuit (NPN, NMOS) sinks it and a p-sense one sources it.
+        Returns ``True`` for the n sense, which most builds branch on.
+
+        Examples
+        --------
+        >>> c = Circuit("npn", "n")
+        >>> c.supply_and_load()
+        True
+        >>> sorted(c.voltages)
+        ['0', 'cc', 'out']
+        """
+        n_sense = self.sense == "n"
+        self.rail("0", 0)
+        self.rail(supply, self.parameter("v_supply"))
+        self.rail("out", self.parameter("v_load"))
+        self.output("out", 1 if (n_sense if sinks is None else sinks) else -1)
+        return n_sense
+
     def node(self, node):
         """An unknown node; its voltage is solved for."""
+        import sympy as sp
+
         symbol = sp.Symbol(f"V_{node}", real=True)
         self.voltages[node] = symbol
         self.kcl[node] = []
@@ -272,6 +306,8 @@ class Circuit:
         TCR parameter ``tcr_<value>``; its power rating is ``p_rated_<value>``.
         Returns the operating symbol of its resistance.
         """
+        import sympy as sp
+
         r_ref = self.parameter(value)
         params = {p.name: self.parameter(RESISTOR.flat_name(value, p.name)) for p in RESISTOR.params}
         resistance = sp.Symbol(label, positive=True)
@@ -292,6 +328,8 @@ class Circuit:
 
         A part: it limits compliance when it runs out of headroom (``V_a < V_b``).
         """
+        import sympy as sp
+
         self.current(a, b, current)
         if isinstance(current, sp.Symbol) and current in self.operating:
             self.sources.append(current)
@@ -314,6 +352,8 @@ class Circuit:
         Each assumption must be registered (:func:`kit.words.assumption`) and
         the expression must not contain an operating symbol it excludes.
         """
+        import sympy as sp
+
         for name in assumes:
             if name not in ASSUMPTIONS:
                 raise ValueError(f"closed form {key}: unknown assumption {name!r}")
@@ -353,6 +393,8 @@ class Circuit:
     # -- result ----------------------------------------------------------------------
     def equations(self):
         """Collect the :class:`Equations`."""
+        import sympy as sp
+
         residuals = [sp.Add(*terms) for terms in self.kcl.values()]
         scales = [sp.Add(*[sp.Abs(t) for t in terms]) for terms in self.kcl.values()]
         for symbol, expression in self.driven.values():

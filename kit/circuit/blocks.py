@@ -18,8 +18,6 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-import sympy as sp
-
 
 # --- functions the code generator prints specially --------------------------------
 
@@ -30,6 +28,7 @@ def wright_omega():
     It avoids the overflow of ``e^x`` in Lambert-W forms (Corless & Jeffrey,
     "The Wright ω function", 2002); the generated code calls SciPy's.
     """
+    import sympy as sp
 
     class wright_omega(sp.Function):  # noqa: N801 - reads like the math
         """Wright omega, ``ω(x) = W0(e^x)``."""
@@ -46,6 +45,8 @@ def wright_omega():
 
 @lru_cache(maxsize=1)
 def _positive_or_class():
+    import sympy as sp
+
     class positive_or(sp.Function):  # noqa: N801
         """``x`` where it is finite and positive, else ``fallback`` (starting points only)."""
 
@@ -60,6 +61,8 @@ def positive_or(expression, fallback=1e-9):
     For starting points of the solve only (far outside compliance a closed
     form may be negative or undefined).
     """
+    import sympy as sp
+
     return _positive_or_class()(expression, sp.Float(fallback))
 
 
@@ -117,6 +120,8 @@ def junction_behind_resistor(voltage, resistance, slope, saturation):
     >>> abs(float(residual.replace(wright_omega(), lambda x: sp.LambertW(sp.exp(x))))) < 1e-12
     True
     """
+    import sympy as sp
+
     omega = wright_omega()
     return slope / resistance * omega(voltage / slope + sp.log(saturation * resistance / slope))
 
@@ -156,6 +161,8 @@ def nodal_output_resistance(c, parts=None):
     parts : iterable of str, optional
         The parts to include (default: all).
     """
+    import sympy as sp
+
     names = list(c.parts) if parts is None else list(parts)
     floating = list(c.kcl) + list(c.driven)
     output = c._output["node"]

@@ -4,7 +4,7 @@ Every module of this package that defines ``KIND`` (or a tuple ``KINDS``)
 is registered by discovery: a new kind of part is one new module.
 
 >>> sorted(KINDS)
-['bjt', 'diode', 'mos', 'opamp', 'resistor', 'source', 'zener']
+['bjt', 'diode', 'jfet', 'mos', 'opamp', 'resistor', 'source', 'zener']
 """
 
 import importlib

@@ -47,7 +47,7 @@ def check_edge(edge):
                              valid=" or ".join(EDGES))
 
 
-@dataclass
+@dataclass(repr=False)
 class OperatingPoints:
     """Solved operating points of one compiled model (arrays over N points).
 
@@ -66,6 +66,11 @@ class OperatingPoints:
     x: np.ndarray
     converged: np.ndarray
     iterations: np.ndarray
+
+    def __repr__(self):
+        # A sweep of thousands of points: say what it is, not every array.
+        done = int(np.count_nonzero(self.converged))
+        return f"<OperatingPoints: {self.size} points, {done} converged>"
 
     @property
     def size(self):

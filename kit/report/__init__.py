@@ -25,6 +25,7 @@ RENDERERS = {
     ("kit.analysis.worstcase", "WorstCase"): "kit.report.worstcase",
     ("kit.analysis.synthesis", "Synthesis"): "kit.report.synthesis",
     ("kit.analysis.temperature", "TemperatureSweep"): "kit.report.temperature",
+    ("kit.analysis.spread", "Spread"): "kit.report.spread",
     ("kit.analysis.derivation", "Derivation"): "kit.report.derivation",
     ("kit.topologies.base", "Topology"): "kit.report.topology",
 }

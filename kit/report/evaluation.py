@@ -73,8 +73,12 @@ def text(evaluation):
         lines.append(f"  {label:<12} {value}")
     c = evaluation.compliance
     lines.append(f"  low edge     {c.low.describe()}; high edge {c.high.describe()}")
-    for key, value in evaluation.r_out_forms.items():
-        lines.append(f"  {key:<12} {resistance(value)}")
+    if evaluation.r_out_forms:
+        lines.append("output resistance, hand forms")
+        labels = {key: design.structure.extra_label(key) for key in evaluation.r_out_forms}
+        width = max(map(len, labels.values()))
+        for key, value in evaluation.r_out_forms.items():
+            lines.append(f"  {labels[key]:<{width}}  {resistance(value):>10}")
     lines.append("parts")
     for name, p in evaluation.parts.items():
         lines.append(f"  {name}: {p.region}, {_describe_part(evaluation, name)}")

@@ -55,7 +55,6 @@ from kit.topologies import common, drawing
 from kit.topologies.base import Topology, Value
 from kit.words import ISOTHERMAL
 
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated collector junction
 SATURATED_VCE_START = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
 STACK_START = 0.3  # V; least distance kept between the stacked nodes of a start
 LABEL_ROOM = 1.8  # drawing units beside the reference source for its two-line label
@@ -64,11 +63,7 @@ EARLY_SOURCE = "derived here (Early factor 1 + V_CE/V_A on each collector curren
 
 def _rails(c):
     """Supply, load and the emitter rail (0 V for the NPN sink, V_CC for the PNP source)."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     rail = "0" if npn else "cc"
     # The output's distance from the emitter rail, in the forward sense.
     height = c.voltages["out"] - c.voltages[rail] if npn else c.voltages[rail] - c.voltages["out"]
@@ -144,7 +139,7 @@ def _start_mirror(c, rail, height):
     i_c1 = i_c2 * q1["I_S"] / q2["I_S"]
     i_c3 = (i_c1 * (1 + 1 / q1["beta"]) + i_c2 / q2["beta"]) * q3["beta"] / (q3["beta"] + 1)
     h_1 = BJT.start(q1.sense, i_c1, q1.symbols)
-    h_3 = sp.Min(h_1 + BJT.start(q3.sense, i_c3, q3.symbols), height + SATURATED_VBC_START)
+    h_3 = sp.Min(h_1 + BJT.start(q3.sense, i_c3, q3.symbols), height + common.SATURATED_VBC_START)
     h_1 = sp.Min(h_1, h_3 - STACK_START)
     h_4 = sp.Min(h_3 - BJT.start(q4.sense, current, q4.symbols), h_3 - STACK_START,
                  height + SATURATED_VCE_START)
@@ -232,9 +227,9 @@ def _start_source(c, rail, height, bias):
     i_c1 = current * (q2["beta"] + 1) / q2["beta"]
     h_e1 = i_c1 * (q1["beta"] + 1) / q1["beta"] * r_e
     h_b1 = h_e1 + BJT.start(q1.sense, i_c1, q1.symbols)
-    h_b2 = sp.Min(drive_2 - r_b2 * current / q2["beta"], height + SATURATED_VBC_START)
+    h_b2 = sp.Min(drive_2 - r_b2 * current / q2["beta"], height + common.SATURATED_VBC_START)
     h_m = sp.Min(h_b2 - BJT.start(q2.sense, current, q2.symbols), height + SATURATED_VCE_START)
-    start_from_rail(c, rail, {"b1": sp.Min(h_b1, h_m + SATURATED_VBC_START),
+    start_from_rail(c, rail, {"b1": sp.Min(h_b1, h_m + common.SATURATED_VBC_START),
                              "e1": sp.Min(h_e1, h_m + SATURATED_VCE_START), "m": h_m, "b2": h_b2})
 
 
@@ -257,11 +252,7 @@ def draw_mirror(sheet, d):
 
     npn = sheet.sink
     s = 1.0 if npn else -1.0
-    q1 = drawing.transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
-    drawing.emitter_return(sheet, q1.emitter, npn)
-    elm.Line().at(q1.base).right(drawing.GAP)
-    q2 = drawing.transistor(npn, label="Q2").anchor("base")
-    drawing.emitter_return(sheet, q2.emitter, npn)
+    q1, q2 = drawing.mirror_pair(sheet)
     # Q1 diode: collector strapped to the lower base line (node n1).
     n1 = (q1.collector[0], q1.collector[1] + s * 0.5)
     elm.Line().at(q1.collector).to(n1)

@@ -29,9 +29,10 @@ Small-signal output resistance (hybrid-pi, base returned through R_B = R_TH)::
 from __future__ import annotations
 
 from kit.circuit.blocks import (degenerated_output_resistance, divider_drive, hand_vbe,
-                                junction_behind_resistor, positive_or)
+                                junction_behind_resistor)
 from kit.devices.bjt import (ALPHA_ONE, BASE_CURRENT_NEGLECTED, FORWARD_ACTIVE, KIND as BJT,
                              NO_EARLY, VBE_FIXED)
+from kit.topologies import common
 from kit.topologies.base import Topology, Value
 from kit.topologies.drawing import UNIT_WIDTH
 
@@ -44,20 +45,9 @@ VALUES = (
           -1000.0, 1000.0, "load"),
 )
 
-# In saturation the collector pulls the base: keep the guessed base-collector
-# bias modest so Newton starts near the right branch.
-SATURATED_VBC_START = 0.55  # V
-
-
 def build(c):
     """The exact circuit: divider, Q1 with its emitter resistor, load at the collector."""
-    import sympy as sp
-
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     r1 = c.resistor("R1", "cc", "b", "r1")
@@ -89,17 +79,7 @@ def build(c):
 
     # Start: the exponential form's current (exact for V_A -> inf), its V_BE and the
     # drop across R_E; in saturation the collector pulls the base.
-    current = positive_or(exponential)
-    v_be = BJT.start(q1.sense, current, q1.symbols)
-    v_re = current * (beta + 1) / beta * r_e
-    v_out = c.voltages["out"]
-    if npn:
-        v_b = sp.Min(v_re + v_be, v_out + SATURATED_VBC_START)
-        c.start("e", v_b - v_be)
-    else:
-        v_b = sp.Max(v_cc - v_re - v_be, v_out - SATURATED_VBC_START)
-        c.start("e", v_b + v_be)
-    c.start("b", v_b)
+    common.start_behind_emitter_resistor(c, q1, exponential, r_e)
 
 
 def draw(sheet, d):

@@ -89,6 +89,39 @@ def emitter_return(sheet, at, npn, resistor=None, designator=None):
         elm.Vdd().label(sheet.supply())
 
 
+def mirror_pair(sheet):
+    """Q1 (facing left) and Q2 side by side, bases joined, emitters to their rail.
+
+    The start of every two-transistor mirror drawing; returns ``(q1, q2)``.
+    """
+    import schemdraw.elements as elm
+
+    npn = sheet.sink
+    q1 = transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
+    emitter_return(sheet, q1.emitter, npn)
+    elm.Line().at(q1.base).right(GAP)
+    q2 = transistor(npn, label="Q2").anchor("base")
+    emitter_return(sheet, q2.emitter, npn)
+    return q1, q2
+
+
+def diode_strap(collector, base, npn, *, rise=LEAD * 0.6, inset=0.8):
+    """Strap a collector (or drain) to its own base (gate) line: the diode connection.
+
+    Rises ``rise`` from ``collector`` toward the far rail, dots the node, and
+    runs back down to the base line ``inset`` beside ``base``.  Returns the node,
+    where the reference feed joins.
+    """
+    import schemdraw.elements as elm
+
+    node = getattr(elm.Line().at(collector), toward_top(npn))(rise).end
+    elm.Dot()
+    elm.Line().at(node).tox(base[0] + inset)
+    elm.Line().toy(base[1])
+    elm.Dot()
+    return node
+
+
 def output_terminal(at, npn, text=None, side="right"):
     """The load connection above an NPN collector (below a PNP collector)."""
     import schemdraw.elements as elm

@@ -80,11 +80,6 @@ GRAY_SEDRA = ("Gray, Hurst, Lewis & Meyer, Analysis and Design of Analog ICs, ch
 DERIVED_EARLY = "derived here (Early law I_C = I_S e^(V_BE/V_T)(1 + V_CE/V_A))"
 R_OUT_LABEL = "R_out = r_o2 = (V_A2 + V_CE2)/I_C2 (exact in the hybrid-π model)"
 
-# In saturation the output collector pulls the shared base node: keep the
-# guessed base-collector forward bias near what carries the reference; this
-# is the least forward bias used.
-SATURATED_VBC_START = 0.3  # V
-
 IDEAL = (BASE_CURRENT_NEGLECTED.key, NO_EARLY.key, FORWARD_ACTIVE.key, ISOTHERMAL.key)
 FINITE_BETA = (NO_EARLY.key, FORWARD_ACTIVE.key, ISOTHERMAL.key)
 EARLY = (FORWARD_ACTIVE.key, ISOTHERMAL.key)
@@ -92,11 +87,7 @@ EARLY = (FORWARD_ACTIVE.key, ISOTHERMAL.key)
 
 def _mirror(c, reference, extra_outputs=False):
     """Rails, the reference, the pair Q1 (diode) and Q2 (area N), and optional further outputs."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     emitter_rail = "0" if npn else "cc"
     s = {}
@@ -137,7 +128,7 @@ def _start(c, s, current):
     drop = BJT.start(q1.sense, i_c1, q1.symbols)
     # In saturation Q2's collector-base junction carries up to the input current; the
     # drop that passes it follows temperature and I_S.
-    clamp = sp.Max(BJT.start(q2.sense, i_c1, q2.symbols), SATURATED_VBC_START)
+    clamp = sp.Max(BJT.start(q2.sense, i_c1, q2.symbols), common.LEAST_SATURATED_VBC)
     if c.sense == "n":
         c.start("b", sp.Min(drop, c.voltages["out"] + clamp))
     else:
@@ -214,7 +205,6 @@ def _draw(sheet, d, *, resistor=None, extra=False):
     import schemdraw.elements as elm
 
     npn = sheet.sink
-    up = drawing.toward_top(npn)
     n_text = f"N = {sheet['n_area']:g}"
     q1 = drawing.transistor(npn, facing_left=True, label="Q1")
     drawing.emitter_return(sheet, q1.emitter, npn)
@@ -223,11 +213,7 @@ def _draw(sheet, d, *, resistor=None, extra=False):
     drawing.emitter_return(sheet, q2.emitter, npn)
     drawing.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the shared base line.
-    node = getattr(elm.Line().at(q1.collector), up)(drawing.LEAD * 0.6).end
-    elm.Dot()
-    elm.Line().at(node).tox(q1.base[0] + 0.8)
-    elm.Line().toy(q1.base[1])
-    elm.Dot()
+    node = drawing.diode_strap(q1.collector, q1.base, npn)
     drawing.reference_feed(sheet, node, npn, resistor=resistor)
     if extra:
         elm.Line().at(node).left(drawing.GAP)

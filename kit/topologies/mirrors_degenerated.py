@@ -68,10 +68,6 @@ VALUES = (
 EQUAL_VBE = assumption("equal_vbe", "equal V_BE in both halves (the junction drops cancel)",
                        excludes=("I_S_", "V_T_"))
 
-# In saturation the output collector pulls the shared base node: the least
-# base-collector forward bias a starting point allows.
-SATURATED_VBC_START = 0.3  # V
-
 GRAY = "Gray, Hurst, Lewis & Meyer, Analysis and Design of Analog ICs, ch. 4 (from memory)"
 R_OUT_LABEL = ("R_out = r_o2[1 + βR_E2/(R_E2 + r_π2 + R_B)] + R_E2‖(r_π2 + R_B), "
                "R_B = R_E1 + 1/(g_m1 + 1/r_π1 + 1/r_o1)")
@@ -81,11 +77,7 @@ def build(c):
     """The exact circuit: reference into the strapped input, both emitters degenerated."""
     import sympy as sp
 
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e1")
     c.node("e2")
@@ -135,7 +127,7 @@ def _start(c, q1, q2, r_e1, r_e2, i_ref, i_c1):
     drop = BJT.start(q1.sense, i_c1, q1.symbols) + i_c1 * (1 + 1 / q1["beta"]) * r_e1
     # In saturation Q2's collector-base junction carries up to the reference; the
     # drop that passes it follows temperature and I_S.
-    clamp = sp.Max(BJT.start(q2.sense, i_ref, q2.symbols), SATURATED_VBC_START)
+    clamp = sp.Max(BJT.start(q2.sense, i_ref, q2.symbols), common.LEAST_SATURATED_VBC)
     v_b = sp.Min(drop, v_out + clamp) if npn else sp.Max(v_cc - drop, v_out - clamp)
     drop = v_b if npn else v_cc - v_b
     v_e1 = r_e1 * junction_behind_resistor(drop, r_e1, q1["V_T"], q1["I_S"])
@@ -163,11 +155,7 @@ def draw(sheet, d):
     drawing.emitter_return(sheet, q2.emitter, npn, "r_e2", "R_E2")
     drawing.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the shared base line.
-    node = getattr(elm.Line().at(q1.collector), drawing.toward_top(npn))(drawing.LEAD * 0.6).end
-    elm.Dot()
-    elm.Line().at(node).tox(q1.base[0] + 0.8)
-    elm.Line().toy(q1.base[1])
-    elm.Dot()
+    node = drawing.diode_strap(q1.collector, q1.base, npn)
     drawing.reference_feed(sheet, node, npn)
 
 

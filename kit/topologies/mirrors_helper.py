@@ -70,20 +70,12 @@ SEDRA = "Sedra & Smith, Microelectronic Circuits, base-current compensation (fro
 DERIVED_EARLY = "derived here (Early law; junction voltages from the no-Early solution)"
 R_OUT_LABEL = "R_out = r_o2 = (V_A2 + V_CE2)/I_C2 (exact in the hybrid-π model)"
 
-# In saturation the output collector pulls the shared base node: the least
-# base-collector forward bias a starting point allows.
-SATURATED_VBC_START = 0.3  # V
-
 
 def _build(c, pulldown):
     """The exact circuit, its closed forms and R_out form; ``pulldown`` adds R_x."""
     import sympy as sp
 
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("x")
     c.node("b")
     rail, far = ("0", "cc") if npn else ("cc", "0")
@@ -142,7 +134,7 @@ def _start(c, q1, q2, q3, i_ref, i_c1):
     i_c1 = positive_or(i_c1)
     drop = BJT.start(q1.sense, i_c1, q1.symbols)
     # In saturation Q2's collector-base junction carries up to the reference.
-    clamp = sp.Max(BJT.start(q2.sense, i_ref, q2.symbols), SATURATED_VBC_START)
+    clamp = sp.Max(BJT.start(q2.sense, i_ref, q2.symbols), common.LEAST_SATURATED_VBC)
     v_be3 = BJT.start(q3.sense, q3["beta"] * positive_or(i_ref - i_c1, 1e-12), q3.symbols)
     # On a low supply the helper saturates and its emitter, the base node, reaches
     # its collector rail (V_CC for NPN, 0 V for PNP) but not beyond.

@@ -64,11 +64,7 @@ def build(c):
     """The mirror fed by an ideal reference current from the V_DD side (NMOS) or to 0 V (PMOS)."""
     import sympy as sp
 
-    nmos = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("dd", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if nmos else -1)
+    nmos = c.supply_and_load("dd")
     c.node("g")
     source_rail, far_rail = ("0", "dd") if nmos else ("dd", "0")
     i_ref = c.drifting("I_REF", "i_ref", latex="I_{REF}", budget="reference current I_REF")
@@ -123,16 +119,11 @@ def draw(sheet, d):
         else:
             elm.Vdd().label(rail)
     # Diode connection: M1's drain strapped to the gate line.
-    toward_far = drawing.toward_top(nmos)
-    node = getattr(elm.Line().at(m1.drain), toward_far)(0.8).end
-    elm.Dot()
-    elm.Line().at(node).tox(m1.gate[0] + 0.6)
-    elm.Line().toy(m1.gate[1])
-    elm.Dot()
+    node = drawing.diode_strap(m1.drain, m1.gate, nmos, rise=0.8, inset=0.6)
     text = f"I_REF\n{sheet.text('i_ref')}"
     source = elm.SourceI().label(text, loc="top")
     source = source.reverse() if nmos else source
-    feed = getattr(source.at(node), toward_far)()
+    feed = getattr(source.at(node), drawing.toward_top(nmos))()
     drawing.make_room(feed.center, "left", text, 0.9)
     if nmos:
         elm.Vdd().at(feed.end).label(rail)

@@ -150,11 +150,7 @@ class Loop:
 
 def _loop(c, supply, opamp_typical):
     """Rails, sense node, R_S, the set point and the op-amp U1."""
-    sink = c.sense == "n"
-    c.rail("0", 0)
-    c.rail(supply, c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if sink else -1)
+    sink = c.supply_and_load(supply)
     c.node("s")
     c.node("o")
     r_s = c.resistor("R_S", "s", "0" if sink else supply, "r_s")

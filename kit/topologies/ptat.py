@@ -65,7 +65,6 @@ from kit.words import ISOTHERMAL
 # A point whose Q1 current is below this fraction of V_T ln(N)/R has found
 # the zero-current state (leakage level, many decades below).
 ZERO_BRANCH_FRACTION = 1e-3
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
 OVERDRIVE_START = 0.6  # V of load beyond the output's rail where the cell is taken as shut down
 
 VALUES = (
@@ -85,10 +84,8 @@ def build(c):
 
     npn = c.sense == "n"
     core_rail, mirror_rail = ("0", "cc") if npn else ("cc", "0")
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", -1 if npn else 1)  # the mirror's output transistor sources (npn) or sinks
+    # the mirror's output transistor sources (npn core) or sinks (pnp core)
+    c.supply_and_load(sinks=not npn)
     c.node("b")
     c.node("e")
     c.node("p")
@@ -170,11 +167,11 @@ def _start(c, q1, q3, q2, r, current):
     v_r = current * (1 + 1 / q2["beta"]) * r
     if c.sense == "n":
         overdriven = v_out > v_cc + OVERDRIVE_START
-        starts = {"b": (0, v_be_core), "e": (0, v_r), "p": (v_out - SATURATED_VBC_START, v_cc - v_be_mirror)}
+        starts = {"b": (0, v_be_core), "e": (0, v_r), "p": (v_out - common.SATURATED_VBC_START, v_cc - v_be_mirror)}
     else:
         overdriven = v_out < -OVERDRIVE_START
         starts = {"b": (v_cc, v_cc - v_be_core), "e": (v_cc, v_cc - v_r),
-                  "p": (v_out + SATURATED_VBC_START, v_be_mirror)}
+                  "p": (v_out + common.SATURATED_VBC_START, v_be_mirror)}
     for node, (shut_down, running) in starts.items():
         c.start(node, sp.Piecewise((shut_down, overdriven), (running, True)))
 

@@ -69,10 +69,6 @@ from kit.words import ISOTHERMAL, assumption
 REFERENCE_LINEARISED = assumption(
     "reference_linearised", "junction reference linearised at its current without base-current loading")
 
-# In saturation the collector pulls the base: keep the guessed base-collector
-# bias modest so Newton starts near the right branch.
-SATURATED_VBC_START = 0.55  # V
-
 SOURCE_HAND = "Tietze & Schenk, Electronic Circuits, zener-referenced sources (from memory)"
 SOURCE_THEVENIN = ("derived here: Thevenin of the PWL zener into the divider form of "
                    "Sedra & Smith, Microelectronic Circuits, BJT biasing (from memory)")
@@ -103,11 +99,7 @@ PAIRED_ZENER_TYPICAL = ZENER_TYPICAL | dict(r_z=20.0, tc_z=0.2e-3)
 
 def _source(c):
     """Rails, R_Z, R_E, Q1 and V_BE(on); returns the pieces and the reference's upper and lower node."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     if npn:
@@ -157,20 +149,7 @@ def _forms(c, s, drive, r_th, r_reference, stiff_drive, stiff, linearised=False)
 
 def _start(c, s, current):
     """Start at Q1's base and emitter from a closed form of its current (clamped in saturation)."""
-    import sympy as sp
-
-    q1, v_cc, v_out = s["q1"], c.voltages["cc"], c.voltages["out"]
-    current = positive_or(current)
-    v_be = BJT.start(q1.sense, current, q1.symbols)
-    v_re = current * (q1["beta"] + 1) / q1["beta"] * s["r_e"]
-    if c.sense == "n":
-        v_b = sp.Min(v_re + v_be, v_out + SATURATED_VBC_START)
-        c.start("e", v_b - v_be)
-    else:
-        v_b = sp.Max(v_cc - v_re - v_be, v_out - SATURATED_VBC_START)
-        c.start("e", v_b + v_be)
-    c.start("b", v_b)
-    return v_b
+    return common.start_behind_emitter_resistor(c, s["q1"], current, s["r_e"])
 
 
 def build_zener(c):

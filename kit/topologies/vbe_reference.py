@@ -64,11 +64,7 @@ def build(c):
     """The exact circuit: feed resistor, sense transistor Q1 across R_S, pass transistor Q2."""
     import sympy as sp
 
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     emitter_rail = "0" if npn else "cc"

@@ -63,7 +63,6 @@ WIDLAR = "Widlar, IEEE Trans. Circuit Theory CT-12 (1965), from memory"
 LAMBERT = "Lambert-W solution (Wright ω form) derived here"
 EARLY_SOURCE = "derived here (Early factor 1 + V_CE/V_A on each collector current)"
 
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
 SATURATED_VCE_START = 0.05  # V; collector-emitter voltage of a hard-saturated transistor
 
 R_E = Value("r_e", "Ω", "emitter resistor of the output transistor Q2", 4.7e3, 1e-2, 1e9, "resistor")
@@ -94,11 +93,7 @@ def widlar_current(i_c1, r_e, n, v_t, beta_2=None):
 
 def _build(c, reference):
     """Rails, the reference, Q1 (diode), Q2 (area N) with R_E; closed forms and R_out forms."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     c.node("b")
     c.node("e")
     rail = "0" if npn else "cc"
@@ -175,7 +170,7 @@ def _start(c, q1, q2, current, diode_current, r_e, height):
     import sympy as sp
 
     diode_current = sp.Max(diode_current, current / 1000)
-    h_b = sp.Min(BJT.start(q1.sense, diode_current, q1.symbols), height + SATURATED_VBC_START)
+    h_b = sp.Min(BJT.start(q1.sense, diode_current, q1.symbols), height + common.SATURATED_VBC_START)
     h_e = sp.Min(current * (1 + 1 / q2["beta"]) * r_e, height + SATURATED_VCE_START)
     if c.sense == "n":
         c.start("b", h_b)
@@ -213,11 +208,7 @@ def _draw(sheet, d, resistor=None):
     drawing.emitter_return(sheet, q2.emitter, npn, resistor="r_e", designator="R_E")
     drawing.output_terminal(q2.collector, npn)
     # Diode connection: Q1's collector strapped to the base line.
-    node = getattr(elm.Line().at(q1.collector), drawing.toward_top(npn))(drawing.LEAD * 0.6).end
-    elm.Dot()
-    elm.Line().at(node).tox(q1.base[0] + 0.8)
-    elm.Line().toy(q1.base[1])
-    elm.Dot()
+    node = drawing.diode_strap(q1.collector, q1.base, npn)
     drawing.reference_feed(sheet, node, npn, resistor=resistor)
 
 

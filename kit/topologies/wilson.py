@@ -52,7 +52,6 @@ from kit.topologies import common, drawing
 from kit.topologies.base import Topology
 from kit.words import ISOTHERMAL
 
-SATURATED_VBC_START = 0.55  # V; forward bias of a saturated output collector junction
 STACK_START = 0.3  # V; least distance kept between node x and node y in a start
 LABEL_ROOM = 1.8  # drawing units left of the reference source for its two-line label
 
@@ -87,11 +86,7 @@ def wilson_ratio(beta_1, beta_2, beta_3, a=1):
 
 def _build(c, four):
     """The exact circuit; ``four`` adds the diode Q4 in Q1's collector."""
-    npn = c.sense == "n"
-    c.rail("0", 0)
-    c.rail("cc", c.parameter("v_supply"))
-    c.rail("out", c.parameter("v_load"))
-    c.output("out", 1 if npn else -1)
+    npn = c.supply_and_load()
     for node in ("x", "y") + (("w",) if four else ()):
         c.node(node)
     rail = "0" if npn else "cc"
@@ -147,7 +142,7 @@ def _start(c, rail, height, four):
     a = q1["I_S"] / q2["I_S"]
     i_c2 = current * (q3["beta"] + 1) / q3["beta"] / (1 + 1 / q2["beta"] + a / q1["beta"])
     h_y = BJT.start(q2.sense, i_c2, q2.symbols)
-    h_x = sp.Min(h_y + BJT.start(q3.sense, current, q3.symbols), height + SATURATED_VBC_START)
+    h_x = sp.Min(h_y + BJT.start(q3.sense, current, q3.symbols), height + common.SATURATED_VBC_START)
     heights = {"x": h_x, "y": sp.Min(h_y, h_x - STACK_START, height)}
     if four:
         q4 = c.parts["Q4"]
@@ -178,11 +173,7 @@ def _draw(sheet, d, four):
 
     npn = sheet.sink
     s = 1.0 if npn else -1.0
-    q1 = drawing.transistor(npn, facing_left=True, label="Q1").at((0.0, 0.0)).anchor("base")
-    drawing.emitter_return(sheet, q1.emitter, npn)
-    elm.Line().at(q1.base).right(drawing.GAP)
-    q2 = drawing.transistor(npn, label="Q2").anchor("base")
-    drawing.emitter_return(sheet, q2.emitter, npn)
+    q1, q2 = drawing.mirror_pair(sheet)
     # Q2 diode: collector strapped to the base line; this is node y.
     y_node = (q2.collector[0], q2.collector[1] + s * 0.5)
     elm.Line().at(q2.collector).to(y_node)

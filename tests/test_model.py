@@ -1,4 +1,4 @@
-"""kit.derive: symbolic checks and the generated numeric code against outside references.
+"""kit.model: symbolic checks and the generated numeric code against outside references.
 
 The generated functions are compared with the hand-written equations of
 tests/conftest.py (residuals, Jacobian by finite differences, temperature
@@ -18,7 +18,9 @@ import sympy as sp
 
 import kit
 from kit import topologies
-from kit.derive import cache_directory, check_bound, wright_omega_function
+from kit.circuit.blocks import wright_omega as wright_omega_function
+from kit.model.cache import cache_directory
+from kit.model.codegen import check_bound
 from kit.errors import ExpressionError
 
 K_OVER_Q = scipy.constants.k / scipy.constants.e  # CODATA 2018 via scipy.constants
@@ -89,7 +91,7 @@ def test_generated_wright_omega_matches_mpmath(models):
 
 def _random_points(rng, model, n):
     """Random parameter vectors and node voltages (not solutions) for one polarity."""
-    from kit.designs import make_design
+    from kit.model.design import make_design
 
     base = make_design("divider_source", model.polarity).parameters()
     values = {k: np.full(n, v) for k, v in base.items()}
@@ -98,8 +100,8 @@ def _random_points(rng, model, n):
         "r_e": 10 ** rng.uniform(1.5, 4.5, n), "v_supply": rng.uniform(3, 40, n),
         "v_load": rng.uniform(0, 40, n), "Q1.beta_f": rng.uniform(30, 500, n),
         "Q1.v_a": rng.uniform(20, 200, n), "Q1.i_s": 10 ** rng.uniform(-16, -13, n),
-        "Q1.xti": rng.uniform(2, 4, n), "Q1.e_g": rng.uniform(1.05, 1.2, n),
-        "Q1.xtb": rng.uniform(0, 2, n), "Q1.beta_tc": rng.uniform(-1e-3, 3e-3, n),
+        "Q1.i_s_temp_exponent": rng.uniform(2, 4, n), "Q1.e_g": rng.uniform(1.05, 1.2, n),
+        "Q1.beta_temp_exponent": rng.uniform(0, 2, n), "Q1.beta_tc": rng.uniform(-1e-3, 3e-3, n),
         "Q1.t_rise": rng.uniform(0, 20, n),
         "temp": rng.uniform(230, 400, n), "tcr_r1": rng.uniform(-1e-3, 1e-3, n),
         "tcr_r2": rng.uniform(-1e-3, 1e-3, n), "tcr_r_e": rng.uniform(-1e-3, 1e-3, n),
@@ -162,8 +164,8 @@ def test_generated_jacobian_equals_a_finite_difference_of_the_hand_written_kcl(m
 
 def test_temperature_derivatives_of_the_operating_values(models):
     # d/dT of the Getreu laws, by hand (from memory):
-    # dI_S/dT_J = I_S (XTI/T_J + E_g/(V_T T_J))  [E_g in eV, V_T = k T_J/q]
-    # dbeta/dT_J = beta (XTB/T_J + TC_beta/(1 + TC_beta (T_J - T0)))
+    # dI_S/dT_J = I_S (m_IS/T_J + E_g/(V_T T_J))  [E_g in eV, V_T = k T_J/q]
+    # dbeta/dT_J = beta (m_beta/T_J + TC_beta/(1 + TC_beta (T_J - T0)))
     # dR/dT = R_ref TCR, dV_T/dT = k/q (CODATA 2018 via scipy.constants)
     model = models["npn"]
     rng = np.random.default_rng(13)
@@ -174,8 +176,8 @@ def test_temperature_derivatives_of_the_operating_values(models):
     v_t = K_OVER_Q * t_j
     i_s, beta = q[at["I_S_Q1"]], q[at["beta_Q1"]]
     expected = {
-        "I_S_Q1": i_s * (values["Q1.xti"] / t_j + values["Q1.e_g"] / (v_t * t_j)),
-        "beta_Q1": beta * (values["Q1.xtb"] / t_j + values["Q1.beta_tc"]
+        "I_S_Q1": i_s * (values["Q1.i_s_temp_exponent"] / t_j + values["Q1.e_g"] / (v_t * t_j)),
+        "beta_Q1": beta * (values["Q1.beta_temp_exponent"] / t_j + values["Q1.beta_tc"]
                            / (1 + values["Q1.beta_tc"] * (t_j - values["t_ref"]))),
         "R1": values["r1"] * values["tcr_r1"], "R_E": values["r_e"] * values["tcr_r_e"],
         "V_T_Q1": np.full(50, K_OVER_Q),
@@ -200,7 +202,9 @@ def test_generated_closed_forms_equal_sympy_evalf(models):
         rng = np.random.default_rng(14)
         _, p, q, _ = _random_points(rng, model, 5)
         got = model.closed_forms(q)
-        for key, expression in eq.closed_forms.items():
+        assert [form.key for form in eq.closed_forms] == list(got)
+        for form in eq.closed_forms:
+            key, expression = form.key, form.expression
             plain = expression.replace(omega, lambda arg: sp.LambertW(sp.exp(arg)))
             for k in range(q.shape[1]):
                 subs = {s: sp.Float(q[model.operating_index[s.name], k], 20)
