@@ -160,6 +160,9 @@ def judge(ev):
         for param, (law, margin) in kind.domain(j, model.operating_of(part, q)).items():
             if not margin[0] > 0:
                 problems.append(f"{part.name} outside its law: {law} ({margin[0]:.3g})")
+    if len(ev.design.topology.polarities) == 2 and not ev.i_out > 0:
+        # a sink or a source reports its current positive in its own sense
+        problems.append(f"output current {ev.i_out:.3g} A flows the wrong way")
     where = finite_everywhere(ev.to_dict())
     if where:
         problems.append(f"NaN at {where}")
