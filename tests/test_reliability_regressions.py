@@ -93,15 +93,26 @@ def test_negative_early_factor_is_outside_the_transistor_law():
     assert margin[0] > 0 and margin[1] < 0
 
 
-def test_a_negative_early_factor_counts_as_outside_every_limit():
+def test_every_law_domain_enters_the_margins_that_compliance_reads(monkeypatch):
     from kit.analysis.evaluation import model_of
     from kit.model.solve import solve_points
 
-    d = kit.design("divider_source", devices={"Q1": {"v_a": 5.0}})
-    points = solve_points(model_of(d), d.parameters() | {"v_load": np.array([-20.0, 8.0])})
+    d = kit.design("divider_source")
+    points = solve_points(model_of(d), d.parameters() | {"v_load": np.array([4.0, 8.0])})
     margins = points.margins()
-    assert margins["Q1", "v_a"][0] == -math.inf  # V_CE about -21 V < -V_A
-    assert margins["Q1", "v_a"][1] == math.inf
+    assert np.all(margins["Q1", "v_a"] == math.inf) and np.all(margins["Q1", "beta_tc"] == math.inf)
+    # A law that leaves its domain at one point makes that point outside every limit.
+    original = type(BJT).domain
+
+    def leaving(self, j, op):
+        law = original(self, j, op)
+        label, margin = law["v_a"]
+        return law | {"v_a": (label, np.where(j["v_ce"] < 5.0, -1.0, margin))}
+
+    monkeypatch.setattr(type(BJT), "domain", leaving)
+    worst, keys = points.worst_margin()
+    assert worst[0] == -math.inf and keys[0] == ("Q1", "v_a")
+    assert points.cause_text("Q1", "v_a").startswith("has a negative Early factor")
 
 
 # -- item 3: no NaN in accepted results ---------------------------------------
@@ -127,7 +138,8 @@ def test_evaluate_json_of_an_ideal_part_exits_zero(tmp_path):
     record = tmp_path / "ideal.toml"
     record.write_text(
         'biasbook_record = 2\ntitle = "ideal output transistors"\n[circuit]\ntopology = "basic_mirror"\n'
-        'polarity = "npn"\n[devices.Q1]\nv_a = "inf"\n[devices.Q2]\nv_a = "inf"\n', encoding="utf-8")
+        'polarity = "npn"\n[values]\ni_ref = "1 mA"\ni_ref_tc = 0\nn_area = 1\n'
+        'v_supply = "12 V"\nv_load = "6 V"\n[devices.Q1]\nv_a = "inf"\n[devices.Q2]\nv_a = "inf"\n', encoding="utf-8")
     run = subprocess.run([sys.executable, "-m", "kit.cli", "evaluate", "--json", str(record)],
                          capture_output=True, text=True, cwd=ROOT)
     assert run.returncode == 0, run.stderr
@@ -340,7 +352,7 @@ def test_monte_carlo_at_full_yield_reports_a_meaningful_interval():
     wc = worst_case(kit.design("divider_source"), Spec(1e-3, 0.5, v_load=(4.0, 10.0), samples=500),
                     methods=("Monte Carlo",))
     mc = wc.to_dict()["methods"]["Monte Carlo"]
-    low, high = mc["details"]["yield_interval"] if "details" in mc else mc["yield_interval"]
+    low, high = mc["detail"]["yield_interval"]
     assert high == 1.0 and 0.99 < low < 0.999
 
 
