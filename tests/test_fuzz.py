@@ -10,12 +10,14 @@ across the whole valid ranges, a third with one value out of range.  Each is
 an accepted point judged sound from its own node voltages, a refusal naming
 a parameter of the design, or bad (an impossible point accepted, a NaN, a
 warning, a crash, a refusal naming nothing).  Any bad outcome fails its
-topology; the table of outcomes is written to ``artifacts/fuzz-table.txt``.
+topology; the table of outcomes is written to ``artifacts/fuzz-table.txt``
+(or the file ``BIASBOOK_FUZZ_TABLE`` names).
 """
 
 from __future__ import annotations
 
 import collections
+import os
 import zlib
 from pathlib import Path
 
@@ -26,7 +28,9 @@ from fuzzing import MODES, every_topology, outcome, random_design
 
 TOPOLOGIES = every_topology()
 KEYS = list(dict.fromkeys(key for key, _ in TOPOLOGIES))
-TABLE = Path(__file__).resolve().parents[1] / "artifacts" / "fuzz-table.txt"
+# Two runs side by side (one per core) each name their own table.
+TABLE = Path(os.environ.get("BIASBOOK_FUZZ_TABLE",
+                            Path(__file__).resolve().parents[1] / "artifacts" / "fuzz-table.txt"))
 
 pytestmark = pytest.mark.fuzz
 
