@@ -126,9 +126,10 @@ class OperatingPoints:
             for cause, margin in part.kind.margins(j, self.model.params(self.p, part), self.temp,
                                                    edge).items():
                 out[part.name, cause] = margin
-            # A law outside its domain is outside every limit (margin -inf there).
+            # A law outside its domain is outside every limit (margin -inf there);
+            # a point that did not converge (NaN) is judged by the solver's own margin.
             for param, (_, margin) in self.domain(part).items():
-                out[part.name, param] = np.where(margin > 0, np.inf, -np.inf)
+                out[part.name, param] = np.where((margin > 0) | np.isnan(margin), np.inf, -np.inf)
         out[None, "solve"] = np.where(self.converged, np.inf, -np.inf)
         return out
 
