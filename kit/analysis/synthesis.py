@@ -678,6 +678,14 @@ def synthesize(spec, *, start=None, topologies=None, polarities=None, series=Non
                              valid="a function of (index, total, key)")
     chosen_series = {"name": _series(series, spec.resistor_tolerance), "given": series is not None}
     chosen = [registry.get(k) for k in topologies] if topologies else registry.all_topologies()
+    if polarities is not None:
+        if isinstance(polarities, str):
+            polarities = (polarities,)
+        known = sorted({pol for top in chosen for pol in top.polarities})
+        if not any(pol in known for pol in polarities):
+            # Nothing to try: say so rather than return an empty ranking.
+            raise ParameterError("no chosen topology has this polarity", parameter="polarities",
+                                 value=list(polarities), valid=", ".join(known))
     plan = []
     for top in chosen:
         if polarities:

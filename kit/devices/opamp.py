@@ -104,6 +104,12 @@ class OpAmp(DeviceKind):
         low, high = self._swing(j, p)
         return {"output_swing": np.minimum(high - j["v_o"], j["v_o"] - low)}
 
+    def limit_parameter(self, cause, j, p):
+        """``v_oh`` when the output would rise past its highest voltage, else ``v_ol``."""
+        if cause != "output_swing":
+            return None
+        return "v_oh" if np.all(p.v_oh - j["v_o"] <= j["v_o"] - p.v_ol) else "v_ol"
+
     def describe(self, j):
         from kit.quantities import format_quantity
 
