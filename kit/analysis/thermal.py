@@ -35,14 +35,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from kit.errors import ConvergenceError, ParameterError
+from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.solve import solve_points
 
 MAX_ITERATIONS = 30  # fixed-point steps, then Newton steps for the points still moving
 FIXED_POINT_STEPS = 8
 RISE_TOLERANCE = 1e-6  # K
 DERIVATIVE_STEP = 1e-2  # K, the finite step of dP/dT_j
-RUNAWAY_RISE = 1000.0  # K: a junction this far above ambient has no steady state worth the name
+# Above the highest temperature any law is used at (kit.model.vocabulary): a junction
+# heated this far while still climbing is in thermal runaway.
+RUNAWAY_TEMPERATURE = 500.0  # K
 THRESHOLD_BISECTIONS = 40
 
 
@@ -132,7 +134,10 @@ def heated_parts(model):
 
 
 def _powers(points, heated):
-    return np.stack([np.where(points.converged, points.dissipation[n], 0.0) for n in heated])
+    # A part takes power, never gives it: a negative V_CE I_C belongs to a point outside
+    # its laws (judged there), not to a cooled junction.
+    return np.stack([np.where(points.converged, np.maximum(np.nan_to_num(points.dissipation[n], nan=0.0), 0.0),
+                              0.0) for n in heated])
 
 
 def _as_matrix(theta, size):
@@ -216,8 +221,9 @@ def solve_self_heated(model, values, network=None):
             if np.any(live):
                 delta[:, live] = np.linalg.solve(jac[live], (target - rises)[:, live].T[..., None])[..., 0].T
             new = rises + delta
-        runaway |= np.any(new > RUNAWAY_RISE, axis=0)
-        rises = np.where(runaway | settled, rises, np.clip(new, -RUNAWAY_RISE, RUNAWAY_RISE))
+        ambient = np.broadcast_to(np.asarray(values["temp"], dtype=float), (points.size,))
+        runaway |= np.any(ambient + new > RUNAWAY_TEMPERATURE, axis=0)
+        rises = np.where(runaway | settled, rises, np.clip(new, 0.0, RUNAWAY_TEMPERATURE - ambient))
         for i, n in enumerate(heated):
             values[f"{n}.t_rise"] = rises[i]
         points = solve_points(model, values, x0=points.x)
@@ -231,6 +237,40 @@ def solve_self_heated(model, values, network=None):
     points.runaway = runaway
     points.loop_gain = gain
     return points
+
+
+def runaway_error(points, what, model=None, values=None, network=None):
+    """The error for points that did not solve, naming thermal runaway if that is why; None if all solved.
+
+    Thermal runaway gives an :class:`~kit.errors.OperatingPointError` naming the
+    hottest part's ``theta_ja`` (the package to change); with ``model`` and
+    ``values`` of a single point its message says where along the load
+    voltage the stable points end (:func:`runaway_threshold`).
+    """
+    if points.converged.all():
+        return None
+    runaway = np.flatnonzero(getattr(points, "runaway", np.zeros(points.size, dtype=bool)))
+    if not runaway.size:
+        bad = np.flatnonzero(~points.converged)
+        return ConvergenceError(f"the exact solve did not converge at {bad.size} of {points.size} points "
+                                f"(first: point {bad[0]})", parameter=what)
+    k = runaway[0]
+    index = points.model.parameter_index
+    heated = heated_parts(points.model)
+    rises = [float(np.broadcast_to(points.p[index[f"{n}.t_rise"]], (points.size,))[k]) for n in heated]
+    name = heated[int(np.argmax(rises))]
+    theta = float(np.broadcast_to(points.p[index[f"{name}.theta_ja"]], (points.size,))[k])
+    said = f"thermal runaway: {name}'s junction heats itself without a stable operating point ({what})"
+    if model is not None and values is not None:
+        v = float(values["v_load"])
+        try:
+            limit = runaway_threshold(model, values, (0.0, v) if v > 0 else (v, 0.0), network)
+            if limit.v_load is not None:
+                said = f"{limit.text()} ({name}; {what})"
+        except ConvergenceError as err:
+            said = f"{err.message} ({name}; {what})"
+    return OperatingPointError(said, parameter=f"{name}.theta_ja", value=theta,
+                               valid="a package (θ_JA) or operating point with an electrothermal loop gain below 1")
 
 
 def require_stable(points, what="operating point"):

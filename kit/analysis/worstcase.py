@@ -37,7 +37,7 @@ from kit.analysis.spec import SIGMA_PER_TOLERANCE, factors
 from kit.analysis.streaming import RunningHistogram, SeededColumns, wilson_interval
 from kit.analysis.specbox import box_entries
 from kit.analysis.stress import fault_cases, stress_over_box
-from kit.analysis.thermal import runaway_threshold, solve_self_heated
+from kit.analysis.thermal import runaway_error, runaway_threshold, solve_self_heated
 from kit.model.solve import solve_points
 from kit.errors import ConvergenceError, ParameterError
 from kit.quantities import format_quantity
@@ -604,11 +604,9 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
     box_factors = factors(spec, design)
     box = _Box(spec, design, self_heating, edge, box_factors, network)
     nominal_points = box.solve({})
-    if getattr(nominal_points, "runaway", None) is not None and nominal_points.runaway[0]:
-        limit = runaway_threshold(box.model, box.base, (0.0, float(box.base["v_load"])), network)
-        raise ConvergenceError(limit.text(), parameter="v_load", value=box.base["v_load"],
-                               valid=f"≤ {limit.v_load:.4g} V" if limit.v_load is not None else None)
-    nominal_points.require("nominal design point")
+    problem = runaway_error(nominal_points, "nominal design point", box.model, box.base, network)
+    if problem is not None:
+        raise problem
     nominal = float(nominal_points.i_out[0])
     runners = {"extreme-value": lambda: _extreme_value(box, box_factors, nominal_points),
                "RSS": lambda: _rss(box, box_factors),
