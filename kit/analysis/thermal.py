@@ -43,7 +43,8 @@ FIXED_POINT_STEPS = 8
 RISE_TOLERANCE = 1e-6  # K
 DERIVATIVE_STEP = 1e-2  # K, the finite step of dP/dT_j
 # Above the highest temperature any law is used at (kit.model.vocabulary): a junction
-# heated this far while still climbing is in thermal runaway.
+# heated this far while still climbing is held there: in thermal runaway if the loop
+# gain there is 1 or more, else at a steady state beyond the laws (``too_hot``).
 RUNAWAY_TEMPERATURE = 500.0  # K
 THRESHOLD_BISECTIONS = 40
 
@@ -184,8 +185,10 @@ def solve_self_heated(model, values, network=None):
     -------
     kit.model.solve.OperatingPoints
         Solved at the stable steady state (``<name>.t_rise`` holds each
-        rise in K).  Two arrays are added: ``runaway`` (no stable steady
-        state: thermal runaway; such points are not converged) and
+        rise in K).  Three arrays are added: ``runaway`` (no stable steady
+        state: thermal runaway; such points are not converged), ``too_hot``
+        (a steady state, if any, lies above the highest temperature the
+        laws are used at; not converged either) and
         ``loop_gain`` (the electrothermal loop gain at the point found).
     """
     heated = heated_parts(model)
@@ -193,19 +196,21 @@ def solve_self_heated(model, values, network=None):
     points = solve_points(model, values)
     if not heated:
         points.runaway = np.zeros(points.size, dtype=bool)
+        points.too_hot = np.zeros(points.size, dtype=bool)
         points.loop_gain = np.zeros(points.size)
         return points
     network = network or ThermalNetwork()
     theta = _as_matrix(network.matrix(heated, {n: values[f"{n}.theta_ja"] for n in heated}), points.size)
     rises = np.zeros((len(heated), points.size))
     runaway = np.zeros(points.size, dtype=bool)
+    capped = np.zeros(points.size, dtype=bool)
     gain = np.zeros(points.size)
     settled = np.zeros(points.size, dtype=bool)
     for step in range(MAX_ITERATIONS):
         target = np.einsum("nij,jn->in", theta, _powers(points, heated))
         change = np.max(np.abs(target - rises), axis=0)
         settled = (change < RISE_TOLERANCE) & points.converged
-        if np.all(settled | runaway | ~points.converged):
+        if np.all(settled | runaway | capped | ~points.converged):
             break
         if step < FIXED_POINT_STEPS:
             new = target  # from cold, climbing to the coolest steady state
@@ -216,27 +221,38 @@ def solve_self_heated(model, values, network=None):
             climbing = np.any(target > rises + RISE_TOLERANCE, axis=0)
             runaway |= ~settled & climbing & (gain >= 1.0) & points.converged
             jac = np.eye(len(heated)) - theta @ slopes
-            live = ~runaway & ~settled
+            live = ~runaway & ~settled & ~capped
             delta = np.zeros_like(rises)
             if np.any(live):
                 delta[:, live] = np.linalg.solve(jac[live], (target - rises)[:, live].T[..., None])[..., 0].T
             new = rises + delta
         ambient = np.broadcast_to(np.asarray(values["temp"], dtype=float), (points.size,))
-        runaway |= np.any(ambient + new > RUNAWAY_TEMPERATURE, axis=0)
+        capped |= np.any(ambient + new > RUNAWAY_TEMPERATURE, axis=0) & ~runaway & ~settled
         rises = np.where(runaway | settled, rises, np.clip(new, 0.0, RUNAWAY_TEMPERATURE - ambient))
         for i, n in enumerate(heated):
             values[f"{n}.t_rise"] = rises[i]
         points = solve_points(model, values, x0=points.x)
     target = np.einsum("nij,jn->in", theta, _powers(points, heated))
-    settled = (np.max(np.abs(target - rises), axis=0) < RISE_TOLERANCE) & points.converged & ~runaway
+    settled = (np.max(np.abs(target - rises), axis=0) < RISE_TOLERANCE) & points.converged & ~runaway & ~capped
     slopes = _power_slopes(model, values, heated, rises, points)
     gain = np.where(runaway, np.maximum(gain, 1.0), loop_gain(theta, slopes))
-    # A steady state with a loop gain of 1 or more is the unstable one: no stable point here.
-    runaway |= settled & (gain >= 1.0)
+    # A steady state with a loop gain of 1 or more is the unstable one: no stable point here;
+    # held at the laws' highest temperature, a loop gain of 1 or more is runaway too.
+    runaway |= (settled | capped) & (gain >= 1.0)
     points.converged &= settled & ~runaway
     points.runaway = runaway
+    points.too_hot = capped & ~runaway
     points.loop_gain = gain
     return points
+
+
+def _hottest_part(points, k):
+    """``(name, theta_JA)`` of the heated part with the largest rise at point ``k``."""
+    index = points.model.parameter_index
+    heated = heated_parts(points.model)
+    rises = [float(np.broadcast_to(points.p[index[f"{n}.t_rise"]], (points.size,))[k]) for n in heated]
+    name = heated[int(np.argmax(rises))]
+    return name, float(np.broadcast_to(points.p[index[f"{name}.theta_ja"]], (points.size,))[k])
 
 
 def runaway_error(points, what, model=None, values=None, network=None):
@@ -250,16 +266,18 @@ def runaway_error(points, what, model=None, values=None, network=None):
     if points.converged.all():
         return None
     runaway = np.flatnonzero(getattr(points, "runaway", np.zeros(points.size, dtype=bool)))
+    hot = np.flatnonzero(getattr(points, "too_hot", np.zeros(points.size, dtype=bool)))
+    if not runaway.size and hot.size:
+        name, theta = _hottest_part(points, hot[0])
+        return OperatingPointError(f"{name}'s junction would sit above {RUNAWAY_TEMPERATURE:g} K, beyond every "
+                                   f"temperature the device laws are used at ({what})",
+                                   parameter=f"{name}.theta_ja", value=theta,
+                                   valid="a package (θ_JA) or operating point that keeps the junction below T_J(max)")
     if not runaway.size:
         bad = np.flatnonzero(~points.converged)
         return ConvergenceError(f"the exact solve did not converge at {bad.size} of {points.size} points "
                                 f"(first: point {bad[0]})", parameter=what)
-    k = runaway[0]
-    index = points.model.parameter_index
-    heated = heated_parts(points.model)
-    rises = [float(np.broadcast_to(points.p[index[f"{n}.t_rise"]], (points.size,))[k]) for n in heated]
-    name = heated[int(np.argmax(rises))]
-    theta = float(np.broadcast_to(points.p[index[f"{name}.theta_ja"]], (points.size,))[k])
+    name, theta = _hottest_part(points, runaway[0])
     said = f"thermal runaway: {name}'s junction heats itself without a stable operating point ({what})"
     if model is not None and values is not None:
         v = float(values["v_load"])

@@ -174,9 +174,7 @@ class _Box:
         reasons = np.array([None] * points.size, dtype=object)
         for k in np.flatnonzero(~ok):
             part, cause = keys[k]
-            reasons[k] = ("thermal runaway (no stable electrothermal point)" if part is None and
-                          getattr(points, "runaway", None) is not None and points.runaway[k] else
-                          "no converged solution") if part is None else \
+            reasons[k] = _unsolved_reason(points, k) if part is None else \
                 f"{part} {points.cause_text(part, cause)}"
         if self.spec.p_max is not None:
             for name, power in points.dissipation.items():
@@ -184,6 +182,15 @@ class _Box:
                 reasons[over] = f"{name} dissipates more than the spec's limit"
                 ok &= ~over
         return ok, reasons
+
+
+def _unsolved_reason(points, k):
+    """Why point ``k`` has no solution: thermal runaway, a junction beyond the laws, or the solve."""
+    if getattr(points, "runaway", None) is not None and points.runaway[k]:
+        return "thermal runaway (no stable electrothermal point)"
+    if getattr(points, "too_hot", None) is not None and points.too_hot[k]:
+        return "a junction above 500 K (beyond the device laws)"
+    return "no converged solution"
 
 
 def _valid_range(current, ok):
