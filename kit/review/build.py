@@ -31,6 +31,7 @@ from pathlib import Path
 from kit.errors import DesignError
 from kit.review.forprint import for_print, with_print_setup
 from kit.review.page import REVIEW_PAGE
+from kit.review.pageone import page_one_html
 from kit.review.policy import with_content_policy
 from kit.review.summary import MIME
 from kit.safety import css_string
@@ -120,7 +121,7 @@ def to_html(notebook, *, with_code=False):
     """HTML of an executed notebook through the kit's review template."""
     from nbconvert import HTMLExporter
 
-    summary, summary_html = find_summary(notebook)
+    summary, _ = find_summary(notebook)
     notebook = for_print(notebook, with_code=with_code)
     _drop_live_widgets(notebook)
     # The page's <title> (escaped by the template) becomes the PDF's title.
@@ -129,7 +130,7 @@ def to_html(notebook, *, with_code=False):
                             exclude_input=not with_code, exclude_input_prompt=True,
                             exclude_output_prompt=True)
     footer = f"{summary['title']} — rev. {summary['revision']} — biasbook {summary['versions']['biasbook']}"
-    resources = {"biasbook": {"summary": summary, "summary_html": summary_html,
+    resources = {"biasbook": {"summary": summary, "summary_html": page_one_html(summary),
                               "mathjax_url": mathjax_url(), "footer_css": css_string(footer),
                               "page_css": REVIEW_PAGE.css(), "page_width": f"{REVIEW_PAGE.content_width:g}mm"}}
     body, _ = exporter.from_notebook_node(notebook, resources=resources)
