@@ -74,6 +74,9 @@ def page_one_html(data):
     right = spec_box_html(data)
     top = (f'<div class="bb-columns"><div class="bb-col-schematic">{left}</div>'
            f'<div class="bb-col-spec">{right}</div></div>' if left else right)
-    body = (top + verdict_html(data) + stress
-            + tables.section("Results at the design point (exact solve)", head) + devices_html(data))
+    results = tables.section("Results at the design point (exact solve)", head)
+    verdict = verdict_html(data)
+    middle = (f'<div class="bb-columns"><div class="bb-col-half">{verdict}</div>'
+              f'<div class="bb-col-half">{results}</div></div>' if verdict else results)
+    body = top + middle + stress + devices_html(data)
     return tables.wrap(body)
