@@ -120,6 +120,22 @@ def test_template_notebook_shows_record_text_only_as_escaped_text(tmp_path):
     assert "document.title" not in code.replace(repr(record.title), "")
 
 
+def test_page_one_shows_record_text_escaped_and_the_schematic_only_as_an_image(tmp_path):
+    import kit
+    from kit.review.pageone import page_one_html
+    from kit.review.summary import review_summary
+
+    record = load_record(hostile_record(tmp_path))
+    html = page_one_html(review_summary(kit.evaluate(record.design), None, record).data)
+    for raw in ("<script", "<img src=y", "<iframe", "<svg"):
+        assert raw not in html
+    # the device label is shown as text in the device table ...
+    assert html_text(HOSTILE_LABEL) in html
+    # ... and the one image is the kit's schematic from a data: address (an image never runs script)
+    images = re.findall(r"<img [^>]*>", html)
+    assert len(images) == 1 and 'src="data:image/svg+xml;base64,' in images[0]
+
+
 def test_policy_lists_only_scripts_outside_markdown_cells():
     page = ('<html><head></head><body><script>var ok = 1;</script>'
             '<div class="jp-Cell jp-MarkdownCell"><div><script>var bad = 1;</script></div></div>'
