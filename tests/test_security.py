@@ -202,3 +202,7 @@ def test_review_of_a_hostile_record_shows_its_text_and_runs_none_of_it(tmp_path)
     for raw in ("<img src=x", "<img src=y", "<svg onload", "<iframe", "</style><i>"):
         assert raw not in html
     assert 'http-equiv="Content-Security-Policy"' in html
+    # the PDF's title metadata is the record's title as text (PDF 32000-1:2008, 14.3.3 /Title)
+    from kit.review.printcheck import pdf_info
+
+    assert pdf_info(pdf)["Title"] == HOSTILE_TITLE
