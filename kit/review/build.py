@@ -157,7 +157,7 @@ def print_pdf(html_path, pdf_path):
                           parameter="chromium")
 
 
-def build_review(source, output, *, with_code=False, progress=None, keep_html=None):
+def build_review(source, output, *, with_code=False, progress=None, keep_html=None, twin=None):
     """Build the design-review PDF of a notebook or a design record.
 
     Parameters
@@ -170,9 +170,13 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
     with_code : bool
         Show code cells (hidden by default: a review wants results).
     progress : callable, optional
-        Called with ``"executing"``, ``"converting"``, ``"printing"``, ``"done"``.
+        Called with ``"executing"``, ``"converting"``, ``"printing"``, (``"twin"``), ``"done"``.
     keep_html : path, optional
-        Also keep the HTML page (for tests and for sharing).
+        Also keep the HTML page the PDF is printed from (it loads the local
+        typesetting library: for tests and this machine).
+    twin : path, optional
+        Also write the offline HTML twin of the PDF (:mod:`kit.review.twin`):
+        one file, equations set, plots interactive, no network, for sharing.
 
     Returns
     -------
@@ -208,5 +212,10 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
         report("printing")
         output.parent.mkdir(parents=True, exist_ok=True)
         print_pdf(page, output.resolve())
+        if twin:
+            from kit.review.twin import write_twin
+
+            report("twin")
+            write_twin(page, twin)
     report("done")
     return output
