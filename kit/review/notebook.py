@@ -48,6 +48,12 @@ plot = figure(width=640, frame_height=240, x_axis_label="load voltage V_load (V)
               title="I_out across compliance: exact and hand formulas", toolbar_location=None,
               x_range=Range1d(v_load[0], v_load[-1]), y_range=Range1d(0, 1.08 * top))
 plot.add_layout(BoxAnnotation(left=low, right=high, fill_alpha=0.08, fill_color="#2a9d8f"))
+if spec is not None and spec.v_load is not None:
+    # The load range the spec asks for, inside the working region if the design is sound.
+    plot.add_layout(BoxAnnotation(left=spec.v_load[0], right=spec.v_load[1], fill_alpha=0.12,
+                                  fill_color="#e9c46a"))
+    plot.add_layout(Label(x=spec.v_load[0], y=1.0 * top, x_offset=3, y_offset=-14, text="spec load range",
+                          text_font_size="10px"))
 for voltage, edge, align in ((low, evaluation.compliance.low, "left"), (high, evaluation.compliance.high, "right")):
     plot.add_layout(Span(location=voltage, dimension="height", line_dash="dotted", line_color="#555"))
     plot.add_layout(Label(x=voltage, y=0.04 * top, x_offset=4 if align == "left" else -4, text_align=align,

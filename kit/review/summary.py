@@ -52,7 +52,7 @@ def spec_box(result):
     >>> d = kit.design("divider_source")
     >>> rows = dict(spec_box(worst_case(d, Spec(1e-3, 0.05), methods=("RSS",))))
     >>> rows["load voltage"]
-    'the design's own 5 V only'
+    "the design's own 8 V only"
     """
     spec, design = result.spec, result.design
     values = design.parameters()
