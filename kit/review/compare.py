@@ -129,6 +129,47 @@ class Comparison:
     def _repr_html_(self):
         return self.html()
 
+    def summary(self, title, revision="", author=""):
+        """The review summary of the comparison: page one holds the table and every schematic."""
+        return ComparisonSummary(self, title, revision, author)
+
+
+class ComparisonSummary:
+    """Page-one facts of a comparison review (the counterpart of :class:`kit.review.summary.ReviewSummary`)."""
+
+    def __init__(self, comparison, title, revision="", author=""):
+        import datetime
+        import hashlib
+        import json
+
+        from kit.report.cautions import GENERAL, cautions
+        from kit.review.summary import _schematic_svg, _versions, stress_text
+
+        evaluations = comparison.evaluations
+        designs = [e.design.to_dict() for e in evaluations]
+        text = json.dumps(designs, sort_keys=True, separators=(",", ":"), default=str)
+        caution_lines = list(GENERAL)
+        for e in evaluations:
+            caution_lines += [c for c in cautions(e) if c not in caution_lines]
+        self.comparison = comparison
+        self.data = {
+            "title": title, "revision": revision or "—", "author": author or "—",
+            "date": datetime.date.today().isoformat(),
+            "content_hash": hashlib.sha256(text.encode()).hexdigest(), "hash_of": "designs' values",
+            "topology": f"comparison of {len(evaluations)} designs",
+            "polarity": ", ".join(sorted({e.design.polarity.upper() for e in evaluations})),
+            "versions": _versions(), "headline": {}, "cautions": caution_lines,
+            "comparison": {"names": list(comparison.names), "rows": comparison.rows(),
+                           "stress": [stress_text(e) for e in evaluations],
+                           "schematics": [_schematic_svg(e.design) for e in evaluations]},
+        }
+
+    def _repr_mimebundle_(self, include=None, exclude=None):
+        from kit.review.summary import MIME
+
+        return {"text/html": self.comparison.html(), MIME: self.data,
+                "text/plain": f"comparison summary: {self.data['title']}"}
+
 
 def compare(designs, spec=None, names=None):
     """Evaluate ``designs`` (and their worst case against ``spec``, if given) for a side-by-side view.

@@ -159,3 +159,42 @@ def notebook_for_record(record, path):
     """The template notebook of a loaded record stored at ``path``."""
     return new_notebook(record.design, record_path=Path(path).resolve(), title=record.title,
                         has_spec=getattr(record, "spec", None) is not None, notes=record.notes)
+
+
+def comparison_notebook(record_paths, title):
+    """A review notebook comparing the designs of two or more records (see :mod:`kit.review.compare`).
+
+    Page one of its review holds every schematic and the side-by-side table;
+    the body holds the overlaid plot and each design's own evaluation.
+    Record titles are shown as text (escaped), and reach code only as string
+    literals.
+    """
+    import nbformat
+
+    from kit.record import load_record
+
+    paths = [Path(p).resolve() for p in record_paths]
+    records = [load_record(p) for p in paths]
+    names = [r.title or r.design.topology.title for r in records]
+    cells = [
+        _markdown(f"# {markdown_inline(title)}\n\n" + "\n".join(
+            f"- {markdown_inline(name)} ({r.design.topology.title}, {r.design.polarity.upper()})"
+            for name, r in zip(names, records))),
+        _code("# NBVAL_IGNORE_OUTPUT\nimport kit\nfrom bokeh.io import output_notebook\n"
+              "from bokeh.plotting import show\nfrom bokeh.resources import INLINE\n"
+              "from kit.record import load_record\nfrom kit.review.compare import compare\n"
+              "output_notebook(resources=INLINE, hide_banner=True)\n"
+              f"records = [load_record(p) for p in {json.dumps([str(p) for p in paths])}]\n"
+              f"pair = compare([r.design for r in records], names={json.dumps(names)})", hide=True),
+        _markdown("## Across compliance, design by design"),
+        _code("# NBVAL_IGNORE_OUTPUT\nshow(pair.plot())"),
+    ]
+    for k, name in enumerate(names):
+        cells += [_markdown(f"## {markdown_inline(name)}"),
+                  _code(f"# NBVAL_IGNORE_OUTPUT\npair.evaluations[{k}]")]
+    cells += [_markdown("## Summary for the review"),
+              _code(f"# NBVAL_IGNORE_OUTPUT\npair.summary({json.dumps(title)})")]
+    notebook = nbformat.v4.new_notebook()
+    notebook.cells = cells
+    notebook.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3", "language": "python"}
+    return notebook

@@ -65,8 +65,20 @@ def devices_html(data):
                           tables.table(["part", "kind", "values used", "source of the values"], rows))
 
 
+def comparison_html(data):
+    """Page one of a comparison: every design's schematic, then the side-by-side table."""
+    found = data["comparison"]
+    figures = "".join(f'<figure class="bb-compared">{schematic_img(svg)}<figcaption>{tables.escape(name)}'
+                      f"</figcaption></figure>" for name, svg in zip(found["names"], found["schematics"]))
+    table = tables.table(["", *found["names"]], found["rows"])
+    return tables.wrap(f'<div class="bb-columns">{figures}</div>'
+                       + tables.section("Designs side by side", table))
+
+
 def page_one_html(data):
     """The body of page one (below the title block and above the cautions)."""
+    if data.get("comparison"):
+        return comparison_html(data)
     head = tables.table(["quantity", "value"], list(data["headline"].items()), numeric=(1,))
     stress = (f"<p class=\"bb-stress\"><strong>Worst stress:</strong> {tables.escape(data['stress'])}</p>"
               if data.get("stress") else "")
