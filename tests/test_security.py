@@ -120,6 +120,21 @@ def test_template_notebook_shows_record_text_only_as_escaped_text(tmp_path):
     assert "document.title" not in code.replace(repr(record.title), "")
 
 
+def test_comparison_notebook_shows_record_text_only_as_escaped_text(tmp_path):
+    import json
+
+    from kit.review.notebook import comparison_notebook
+
+    hostile = hostile_record(tmp_path)
+    notebook = comparison_notebook([hostile, hostile], HOSTILE_TITLE)
+    markdown = "\n".join(c.source for c in notebook.cells if c.cell_type == "markdown")
+    for raw in ("<script", "<img", "<iframe", "<svg", "<b>"):
+        assert raw not in markdown
+    # code holds the titles only inside JSON string literals
+    code = "\n".join(c.source for c in notebook.cells if c.cell_type == "code")
+    assert "document.title" not in code.replace(json.dumps(HOSTILE_TITLE), "")
+
+
 def test_page_one_shows_record_text_escaped_and_the_schematic_only_as_an_image(tmp_path):
     import kit
     from kit.review.pageone import page_one_html
