@@ -686,17 +686,21 @@ def synthesize(spec, *, start=None, topologies=None, polarities=None, series=Non
             # Nothing to try: say so rather than return an empty ranking.
             raise ParameterError("no chosen topology has this polarity", parameter="polarities",
                                  value=list(polarities), valid=", ".join(known))
-    plan = []
+    plan, missing = [], {}
     for top in chosen:
         if polarities:
             wanted = [p for p in polarities if p in top.polarities]
+            for p in polarities:
+                if p not in top.polarities:
+                    missing[f"{top.key}/{p}"] = [
+                        f"{top.title} has no {p} form (it has {' and '.join(top.polarities)})"]
         elif start is not None:
             wanted = [p for p in (_polarity_for(top, start.sense),) if p is not None]
         else:
             wanted = list(top.polarities)
         plan += [(top, p) for p in wanted]
     heating = True if self_heating is None else bool(self_heating)
-    ranked, referenced, rejected, infeasible, skipped = [], [], [], {}, {}
+    ranked, referenced, rejected, infeasible, skipped = [], [], [], dict(missing), {}
     for index, (top, polarity) in enumerate(plan, 1):
         key = f"{top.key}/{polarity}"
         if progress is not None:
