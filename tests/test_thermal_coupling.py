@@ -137,3 +137,15 @@ def test_temperature_sweep_names_runaway():
     temperature_sweep(d, (293.15, 298.15), points=2)
     with pytest.raises(ConvergenceError, match="thermal runaway: no stable operating point"):
         temperature_sweep(d, (233.15, 298.15), points=5)
+
+
+def test_evaluate_names_runaway_at_the_design_point():
+    from kit.report.cautions import cautions
+
+    rec = load_record("examples/basic_mirror-discrete-runaway.toml")
+    assert kit.evaluate(rec.design).thermal_runaway is None  # 2 V: a stable point exists
+    hot = kit.evaluate(rec.design.with_values(v_load=5.5))  # above the edge found above (about 4.8 V)
+    assert hot.thermal_runaway is not None and hot.thermal_runaway.side == "above"
+    assert 4.0 < hot.thermal_runaway.v_load < 5.5
+    assert any("thermal runaway: no stable operating point above V_load" in c for c in cautions(hot))
+    assert hot.to_dict()["thermal_runaway"]["v_load"] == hot.thermal_runaway.v_load

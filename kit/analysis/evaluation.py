@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.analysis.thermal import runaway_threshold, solve_self_heated
+from kit.analysis.thermal import RunawayThreshold, runaway_threshold, solve_self_heated
 from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
 from kit.model.compliance import find_compliance
@@ -136,6 +136,9 @@ class Evaluation:
     hottest: tuple | None  # (device, watts, load voltage, junction temperature in K) of the hottest junction
     node_voltages: dict
     points: object  # the exact operating point (kit.model.solve.OperatingPoints, one point)
+    # Self-heating leaves the design point without a stable state: where the stable points end
+    # (kit.analysis.thermal.RunawayThreshold), else None.
+    thermal_runaway: object = None
 
     def derivative(self, name):
         """Exact dI_out/dp of flat parameter ``name``."""
@@ -164,6 +167,7 @@ class Evaluation:
             "max_dissipation": {"part": part, "watts": watts, "v_load": at},
             "ledger": [e.to_dict() for e in self.ledger],
             "node_voltages": dict(self.node_voltages),
+            "thermal_runaway": self.thermal_runaway.to_dict() if self.thermal_runaway is not None else None,
         }
 
 
@@ -236,9 +240,9 @@ def evaluate(design, *, edge="vce_sat"):
     ------
     kit.errors.OperatingPointError
         If the load voltage is outside compliance (``parameter="v_load"``) or the
-        supply cannot turn the circuit on (``parameter="v_supply"``), or if the
-        design point has no stable electrothermal state (the
-        message says "thermal runaway" and where the stable points end).
+        supply cannot turn the circuit on (``parameter="v_supply"``).  A design
+        point without a stable electrothermal state is not refused: the result's
+        ``thermal_runaway`` says where the stable points end.
     kit.errors.ConvergenceError
         If the exact solve did not converge.
     """
@@ -252,7 +256,7 @@ def evaluate(design, *, edge="vce_sat"):
         compliance = find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
-    _require_thermally_stable(model, values, compliance)
+    thermal = _thermal_runaway(model, values, compliance)
     v_load = values["v_load"]
     if not points.converged[0] and compliance.contains(v_load):
         points = _continue_in_load(model, values, compliance)
@@ -309,17 +313,23 @@ def evaluate(design, *, edge="vce_sat"):
         ledger=_ledger(points, model, i_out, [s.parameter for s in sensitivities]),
         dissipation_sweep=(v_sweep, power), max_dissipation=(biggest, float(power[biggest][k]), float(v_sweep[k])),
         hottest=hottest,
-        node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points)
+        node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points,
+        thermal_runaway=thermal)
 
 
-def _require_thermally_stable(model, values, compliance):
-    """Name thermal runaway at the design point (each part heating itself in its own package)."""
+def _thermal_runaway(model, values, compliance):
+    """Where the stable electrothermal points end across compliance (each part in its own
+    package), or None when the design point itself has a stable one.
+
+    The evaluation itself holds the junctions at the design temperature; this says
+    whether self-heating would leave the design point without a steady state.
+    """
     if not solve_self_heated(model, values).runaway[0]:
-        return
-    limit = runaway_threshold(model, values, (compliance.low.voltage, compliance.high.voltage))
-    raise OperatingPointError(limit.text(), parameter="v_load", value=values["v_load"],
-                           valid=(f"{'≤' if limit.side == 'above' else '≥'} {limit.v_load:.4g} V"
-                                  if limit.v_load is not None else None))
+        return None
+    try:
+        return runaway_threshold(model, values, (compliance.low.voltage, compliance.high.voltage))
+    except ConvergenceError:  # every load voltage across compliance runs away
+        return RunawayThreshold(None, 1.0, (compliance.low.voltage, compliance.high.voltage), "everywhere")
 
 
 def _nearest_edge(compliance, v_load):

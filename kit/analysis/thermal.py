@@ -338,6 +338,9 @@ class RunawayThreshold:
     side: str = "above"
 
     def text(self):
+        if self.side == "everywhere":
+            return (f"thermal runaway: no stable operating point for V_load {self.searched[0]:.4g} … "
+                    f"{self.searched[1]:.4g} V (electrothermal loop gain >= 1)")
         if self.v_load is None:
             return (f"no thermal runaway for V_load {self.searched[0]:.4g} … {self.searched[1]:.4g} V "
                     f"(electrothermal loop gain at most {self.loop_gain:.3g})")

@@ -42,6 +42,12 @@ def cautions(evaluation):
                    f"exceed {HAZARDOUS_DC_VOLTS:g} V DC and can be hazardous to touch: insulate, "
                    "guard and label them, and follow local electrical codes; mains-derived "
                    "supplies need a licensed professional's design and sign-off.")
+    runaway = getattr(evaluation, "thermal_runaway", None)
+    if runaway is not None:
+        out.append(f"With self-heating (each part in its own package) this design point has no stable "
+                   f"temperature — {runaway.text()}. A part heats until it fails: it can "
+                   "burn and start a fire. Couple the parts thermally, add emitter resistance or lower the "
+                   "dissipation, and test with a current-limited supply.")
     hottest = evaluation.hottest
     if hottest is not None:
         part, watts, at, junction = hottest
