@@ -96,7 +96,7 @@ class WorstCaseView:
         self.table = widgets.HTML()
         self.bokeh = {"histogram": BokehModel(hist), "budget": BokehModel(budget)}
         self._drawn = None  # the result the BokehModels were last sent with
-        self.plots = widgets.HBox(list(self.bokeh.values()))
+        self.plots = widgets.Box(list(self.bokeh.values()), layout=widgets.Layout(display="flex", flex_flow="row wrap"))
         self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.table, self.plots])
         panel.on_change(self._design_changed)
 
@@ -218,7 +218,7 @@ class SynthesisView:
         for key, reasons in result.infeasible.items():
             rows.append(widgets.HTML(_status(f"{key} cannot meet the spec: {'; '.join(reasons)}", error=True)))
         self.rows.children = rows
-        self.status.value = _status(f"{len(result.candidates)} candidate(s) in {result.series} values, "
+        self.status.value = _status(f"{_count(len(result.candidates), 'candidate')} in {result.series} values, "
                                     "ranked by extreme-value margin.")
         return result
 
@@ -231,3 +231,8 @@ class SynthesisView:
                 f'({d.polarity.upper()})</b> {_verdict(c.passed)} margin {c.margin:+.2%}; nominal '
                 f'{format_quantity(c.nominal, "A", 4)}, worst case {format_quantity(c.low, "A", 4)} … '
                 f'{format_quantity(c.high, "A", 4)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+
+
+def _count(n, noun):
+    """``"no candidate"``, ``"1 candidate"``, ``"3 candidates"``."""
+    return f"no {noun}" if n == 0 else f"{n} {noun}" + ("" if n == 1 else "s")
