@@ -439,15 +439,15 @@ class DesignPanel:
         ], layout=widgets.Layout(width="100%"))
         self.plots = widgets.VBox([self.bokeh[name] for name in plots.FIGURES])
         self.tabs = widgets.Tab(layout=widgets.Layout(width="100%"))
-        self.widget = widgets.VBox([self.top, _heading("How the numbers come about"), self.tabs,
-                                    self.settings_box],
+        self.widget = widgets.VBox([widgets.HTML(_STYLE), self.top, _heading("How the numbers come about"),
+                                    self.tabs, self.settings_box],
                                    layout=widgets.Layout(width="100%", max_width="1000px"))
         self.widget.add_class("biasbook-panel")
 
     def _build_tabs(self):
         gains = curves.gain_transistors(self.design)
-        views_ = [("load", "I_out against load"), ("beta", "against β_F"), ("temp", "against temperature"),
-                  ("sensitivity", "sensitivities"), ("tempco", "tempco budget")]
+        views_ = [("load", "load"), ("beta", "β_F"), ("temp", "temperature"),
+                  ("sensitivity", "sensitivities"), ("tempco", "tempco")]
         children, titles = [], []
         for name, title in views_:
             if name == "beta" and not gains:
@@ -455,7 +455,7 @@ class DesignPanel:
             children.append(self.bokeh[name])
             titles.append(title)
         children += [self.ledger, self.schematic]
-        titles += ["equations and ledger", "circuit"]
+        titles += ["ledger", "circuit"]
         if self.worst is not None:
             children += [self.worst.widget, self.search.widget]
             titles += ["worst case", "standard values"]
@@ -528,6 +528,12 @@ class DesignPanel:
         self.series_choice.show(self.series)
         self.common_choice.show(self.settings.common_beta)
         self.heating_choice.show(self.settings.self_heating)
+
+
+# Tabs as wide as their words, wrapping to a second row on a narrow column (none cut short).
+_STYLE = ("<style>.biasbook-panel .lm-TabBar-content{flex-wrap:wrap}"
+          ".biasbook-panel .lm-TabBar{min-height:var(--jp-widgets-horizontal-tab-height);height:auto;overflow:visible}"
+          ".biasbook-panel .lm-TabBar-tab{flex:0 0 auto;min-width:0;max-width:none}</style>")
 
 
 def _band_layout(**more):
