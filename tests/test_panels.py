@@ -367,3 +367,52 @@ def test_showing_the_panel_resends_drawings_changed_before_any_view(panel):
     assert roots[1] == roots[2] != roots[0]  # the present drawing, not the first one
     InteractiveShell.instance().display_formatter.format(panel)
     assert panel.bokeh["load"].render_bundle is resent  # nothing changed: nothing resent
+
+
+def test_a_load_step_reuses_the_edges_and_matches_a_fresh_evaluation(panel, base):
+    assert panel.update(v_load=5.0)
+    fresh = kit.evaluate(base.with_values(v_load=5.0))
+    shown = panel.evaluation
+    assert shown.compliance == fresh.compliance and shown.hottest == fresh.hottest
+    assert shown.i_out == fresh.i_out and shown.r_out == fresh.r_out and shown.tempco == fresh.tempco
+    assert [s.derivative for s in shown.sensitivities] == [s.derivative for s in fresh.sensitivities]
+    # A change of anything but the load voltage searches the edges again.
+    other = base.with_values(r_e="2k7")
+    assert kit.evaluate(other, reuse=fresh).compliance == kit.evaluate(other).compliance
+
+
+def test_typed_tolerance_reaches_the_field_and_the_worst_case_spec(spec_panel, base):
+    assert spec_panel.load(base)
+    assert spec_panel.update(r_e="4k7 2%")
+    assert spec_panel.design.values["r_e"] == 4700.0
+    assert spec_panel.fields["r_e"].text.value == "4.7 kΩ 2 %"
+    assert spec_panel.worst.spec.tolerances["r_e"] == pytest.approx(0.02)
+    assert not spec_panel.update(r_e="4k7 60%") and "tolerance of r_e" in spec_panel.message
+
+
+def test_switching_topology_carries_the_shared_values(panel, base):
+    assert panel.switch(topology="widlar_source")
+    assert panel.design.topology.key == "widlar_source"
+    assert panel.design.values["v_supply"] == base.values["v_supply"]
+    assert "r_e" in panel.fields and panel.design.values["r_e"] == base.values["r_e"]
+    assert panel.switch(topology="mos_mirror")
+    assert panel.design.polarity == "nmos"  # npn has no MOSFET counterpart by that name: the sink's word
+    assert not any("beta" in key for key in panel.sliders)
+    assert "β_F" not in panel.tabs.titles
+    assert all("β" not in w.description for w in panel.settings_box.children)
+
+
+def test_every_plot_exports_its_numbers_as_csv(panel, base):
+    import csv
+    import io
+
+    for name in ("load", "beta", "temp", "sensitivity", "tempco"):
+        rows = list(csv.reader(io.StringIO(panel.csv(name))))
+        assert len(rows) > 2, name
+    rows = list(csv.reader(io.StringIO(panel.csv("load"))))
+    v = np.array([float(r[0]) for r in rows[1:]])
+    i = np.array([float(r[1]) if r[1] else np.nan for r in rows[1:]])
+    np.testing.assert_allclose(i, exact(sweep(base, "v_load", v)), rtol=1e-12)
+    header = list(csv.reader(io.StringIO(panel.csv("sensitivity"))))[0]
+    assert header == ["parameter", "S (normalised)", "dI_out/dp"]
+    assert any(r[2].endswith("A/Ω") for r in list(csv.reader(io.StringIO(panel.csv("sensitivity"))))[1:])

@@ -124,7 +124,7 @@ CSV_COLUMNS = {
 FORMS_CSV = {"load": "load_forms"}  # the hand formulas' currents, one column each (A)
 
 # Runs in the browser on the plot's own data: no round trip through the kernel.
-_CSV_JS = """
+_CSV_JS = r"""
 const quote = (v) => {
   const t = (v === null || v === undefined || (typeof v === 'number' && isNaN(v))) ? '' : String(v);
   return /[",\n]/.test(t) ? '"' + t.replace(/"/g, '""') + '"' : t;
