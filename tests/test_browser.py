@@ -329,7 +329,9 @@ def test_panel_fits_a_laptop_and_speaks_every_device(lab):
             assert text.count("r_e = 'abc'") == 1 and expected in text
 
             # Switch to a MOSFET circuit: no bipolar control, no gain tab, MOSFET region words.
-            panel.locator("select").first.select_option("mos_mirror")
+            from kit.topologies import get
+
+            panel.locator("select").first.select_option(label=get("mos_mirror").title)
             page.wait_for_function("() => document.querySelector('.biasbook-panel').innerText"
                                    ".includes('saturation')", timeout=60_000)
             time.sleep(2)

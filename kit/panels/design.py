@@ -460,11 +460,12 @@ class DesignPanel:
         if self.worst is not None:
             children += [self.worst.widget, self.search.widget]
             titles += ["worst case", "standard values"]
-        selected = self.tabs.selected_index
+        before = self.tabs.titles[self.tabs.selected_index] if self.tabs.selected_index is not None \
+            and self.tabs.selected_index < len(self.tabs.titles) else None
         self.tabs.children = children
         self.tabs.titles = titles
-        if selected is not None and selected < len(children):
-            self.tabs.selected_index = selected
+        # The same view stays open across a switch; the gain view, gone with the bipolar parts, gives way to the first.
+        self.tabs.selected_index = titles.index(before) if before in titles else 0
 
     def _build_inputs(self):
         design = self.design
@@ -489,7 +490,7 @@ class DesignPanel:
                     f"β_F of {name}", design.devices[name].beta_f, *BETA_SLIDER,
                     lambda v, key=f"{name}.beta_f": self.update(**{key: v}), log=True)
         self.sliders["temp"] = inputs.slider(
-            "temperature (°C)", kelvin_to_celsius(design.temp), *TEMP_SLIDER,
+            "ambient (°C)", kelvin_to_celsius(design.temp), *TEMP_SLIDER,
             lambda v: self.update(temp=celsius_to_kelvin(v)), step=0.5)
         for spec in design.topology.values:
             if spec.kind in ("supply", "load"):

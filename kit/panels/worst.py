@@ -96,7 +96,8 @@ class WorstCaseView:
         self.table = widgets.HTML()
         self.bokeh = {"histogram": BokehModel(hist), "budget": BokehModel(budget)}
         self._drawn = None  # the result the BokehModels were last sent with
-        self.plots = widgets.Box(list(self.bokeh.values()), layout=widgets.Layout(display="flex", flex_flow="row wrap"))
+        # Hidden until a run fills them: no empty plot boxes.
+        self.plots = widgets.Box(list(self.bokeh.values()), layout=widgets.Layout(display="none", flex_flow="row wrap"))
         self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.table, self.plots])
         panel.on_change(self._design_changed)
 
@@ -127,6 +128,7 @@ class WorstCaseView:
         hist.title.text = (f"Monte Carlo: {mc.detail['samples']} samples × {mc.detail['condition_points']} "
                            f"condition points; yield {mc.detail['yield']:.2%}")
         self.table.value = self._table_html(result)
+        self.plots.layout.display = "flex"
         self.status.value = _status(f"Result for the design as it is now ({self._values_text(design)}).")
         return result
 
