@@ -220,7 +220,7 @@ def fill(figures, sources, data):
             figures[name].y_range.factors = list(factors)
     unit = data.scale[1]
     for fig in (figures["load"], figures["beta"], figures["temp"]):
-        hover = fig.select_one({"name": "hover"})
+        hover = next(t for t in fig.toolbar.tools if t.name == "hover")  # select_one walks every model: slow
         tips = [(k, v.rsplit(" ", 1)[0] + f" {unit}" if k == "I_out" else v) for k, v in hover.tooltips]
         if tips != list(hover.tooltips):  # the current's prefix follows the design (µA, mA)
             hover.tooltips = tips
