@@ -416,3 +416,18 @@ def test_every_plot_exports_its_numbers_as_csv(panel, base):
     header = list(csv.reader(io.StringIO(panel.csv("sensitivity"))))[0]
     assert header == ["parameter", "S (normalised)", "dI_out/dp"]
     assert any(r[2].endswith("A/Ω") for r in list(csv.reader(io.StringIO(panel.csv("sensitivity"))))[1:])
+
+
+def test_every_new_notebook_opens_a_panel_with_the_records_spec():
+    from kit.review.forprint import SCREEN_ONLY_TAG
+    from kit.review.notebook import new_notebook
+
+    for top in kit.list_topologies():
+        design = kit.design(top.key)
+        notebook = new_notebook(design, record_path="design.toml")
+        cells = [c for c in notebook.cells if "DesignPanel(design, spec)" in c.source]
+        assert len(cells) == 1, top.key
+        assert SCREEN_ONLY_TAG in cells[0].metadata["tags"]  # on screen, not in the printed review
+        # ``spec`` is the record's (or None): defined before the panel cell.
+        before = "\n".join(c.source for c in notebook.cells[:notebook.cells.index(cells[0])])
+        assert "spec = getattr(record, 'spec', None)" in before
