@@ -1,4 +1,4 @@
-"""The ``biasbook`` command: list the topologies, evaluate a design record.
+"""The ``biasbook`` command: list the topologies and part classes, evaluate a design record.
 
 Exit status: 0 done; 2 bad record or bad command line; 3 the design cannot
 be evaluated (load voltage outside compliance, supply too low, no converged
@@ -23,6 +23,7 @@ import os
 import sys
 
 import kit
+from kit.analysis.eseries import SERIES
 from kit.errors import DesignError
 from kit.record import EDGES
 from kit.safety import terminal_text
@@ -58,6 +59,12 @@ def build_parser():
         "topologies", help="list the circuits the kit can evaluate",
         description="List every topology with its values and what the kit derives.")
     listing.add_argument("--json", action="store_true", help="print a JSON list instead of text")
+    parts = commands.add_parser(
+        "parts", help="list the generic part classes a record can name",
+        description="List the part classes (generic, from memory, not a part's data): their "
+                    "datasheet-style entries and the model and spreads they give. A record names "
+                    "one in [devices.<part>] with class = \"...\" and overrides any field.")
+    parts.add_argument("--json", action="store_true", help="print a JSON list instead of text")
     evaluate = commands.add_parser(
         "evaluate", help="evaluate a design record (TOML)",
         description="Solve a design record exactly and report current, compliance, output "
@@ -78,12 +85,17 @@ def build_parser():
                        help="junctions at ambient (default: ambient + theta_JA x dissipation)")
     synth = commands.add_parser(
         "synthesize", help="standard values meeting a record's [spec], ranked by margin",
-        description="Size each topology for the record's [spec], snap to the E-series of the spec's "
-                    "resistor tolerance and rank the candidates by worst-case margin.")
+        description="Size each topology for the record's [spec], starting from the record (every value, "
+                    "part and condition it does not search is kept), snap the resistors to an E-series and "
+                    "rank the candidates by worst-case margin; designs needing an external reference are "
+                    "ranked apart. Progress goes to stderr.")
     synth.add_argument("record", metavar="RECORD.toml", help="a design record with a [spec] section")
     synth.add_argument("--json", action="store_true", help="print one JSON object instead of text")
     synth.add_argument("--all", action="store_true",
-                       help="try every topology (default: the record's own), same polarity")
+                       help="try every topology (default: the record's own) that sinks or sources like the record")
+    synth.add_argument("--series", type=str.upper, choices=SERIES, default=None,
+                       help="E-series of the resistors, whatever their tolerance (default: the series "
+                            "customary for the spec's resistor tolerance)")
     spread_cmd = commands.add_parser(
         "spread", help="the four questions of a current source: compliance, gain spread, tempco, supply",
         description="For the record's design: the current and its compliance range; how much the "
@@ -147,10 +159,12 @@ def main(argv=None):
     try:
         if args.command == "topologies":
             return _list_topologies(args.json)
+        if args.command == "parts":
+            return _list_parts(args.json)
         if args.command == "check":
             return _check(args.record, args.json, not args.no_self_heating)
         if args.command == "synthesize":
-            return _synthesize(args.record, args.json, args.all)
+            return _synthesize(args.record, args.json, args.all, args.series)
         if args.command == "spread":
             return _spread(args)
         if args.command == "review":
@@ -218,6 +232,17 @@ def _list_topologies(as_json):
         _emit_json([report.describe(t) for t in all_topologies()])
     else:
         _say("\n\n".join(report.text(t) for t in all_topologies()))
+    return EXIT_OK
+
+
+def _list_parts(as_json):
+    from kit.devices.part_classes import CLASSES
+    from kit.report import parts as report
+
+    if as_json:
+        _emit_json([report.describe(c) for c in CLASSES.values()])
+    else:
+        _say("\n\n".join(report.text(c) for c in CLASSES.values()))
     return EXIT_OK
 
 
@@ -327,7 +352,7 @@ def _check(path, as_json, self_heating):
     return EXIT_OK if result.met else EXIT_SPEC_NOT_MET
 
 
-def _synthesize(path, as_json, every):
+def _synthesize(path, as_json, every, series):
     from kit.analysis.synthesis import synthesize
     from kit.report import text
     from kit.report.worstcase import spec_line
@@ -336,8 +361,16 @@ def _synthesize(path, as_json, every):
     if record is None:
         return code
     design = record.design
-    topologies = None if every else [design.topology.key]
-    result = synthesize(record.spec, topologies=topologies, polarities=[design.polarity])
+
+    def progress(index, total, key):
+        print(f"synthesize [{index}/{total}] {key}", file=sys.stderr, flush=True)
+
+    own = {"topologies": None} if every else {"topologies": [design.topology.key],
+                                              "polarities": [design.polarity]}
+    try:
+        result = synthesize(record.spec, start=design, series=series, edge=record.edge, progress=progress, **own)
+    except DesignError as err:
+        return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
         _emit_json({"record": record.to_dict(), "content_hash": record.content_hash(),
                     "migrated": list(record.migrated), "synthesis": result.to_dict()})

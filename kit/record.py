@@ -61,8 +61,8 @@ SCHEMA_VERSION = 2
 READABLE_VERSIONS = (1, 2)  # format 1 is migrated on reading (see _migrate_1)
 MAX_RECORD_BYTES = 1024 * 1024  # a record is a page of text; anything larger is a mistake
 # Bounds on the shape of the text, checked before the TOML parser runs (see
-# kit.record_scan).  The examples need at most 4 levels, 39 key names and 202
-# tokens.  Within the bounds the parser's time grows with the byte count only
+# kit.record_scan).  The examples need at most 5 levels (a spec's matched groups are
+# lists in a list), 39 key names and 202 tokens.  Within the bounds the parser's time grows with the byte count only
 # (well under a second for 1 MiB of string escapes, its slowest input).
 MAX_RECORD_DEPTH = 16
 MAX_RECORD_KEYS = 1000
@@ -259,7 +259,9 @@ def _read_values(raw, context):
         raise _fail(f"missing{f' (and{also[1:]})' if also else ''}; a record gives every value "
                     f"of {top.key} (`biasbook topologies` lists them)", f"values.{first.name}",
                     valid=first.valid)
-    return {"values": {v.name: _entry_number(table[v.name], words[v.name]) for v in top.values}}
+    values = {v.name: _entry_number(table[v.name], words[v.name]) for v in top.values}
+    context["values"] = values
+    return {"values": values}
 
 
 def _read_conditions(raw, context):
@@ -275,6 +277,7 @@ def _read_conditions(raw, context):
     if edge not in EDGES:
         raise _fail("unknown saturation criterion", "conditions.edge", edge, " or ".join(EDGES))
     context["edge"] = edge
+    context["t_ref"] = out["t_ref"]
     return out
 
 
@@ -328,10 +331,14 @@ def _read_devices(raw, context):
         if "polarity" in overrides:
             raise _fail("set by circuit.polarity, not per part", f"{where}.polarity",
                         overrides["polarity"], "leave it out")
-        _only_keys(overrides, (*(p.name for p in part.kind.params), *DEVICE_TEXT_KEYS, T_RISE_KEY), where)
+        _only_keys(overrides, (*(p.name for p in part.kind.params), *DEVICE_TEXT_KEYS, T_RISE_KEY,
+                               *PART_DATA_KEYS), where)
         changes = {}
+        base = _part_data(overrides, part, context, where)
         for key, value in overrides.items():
             field = f"{where}.{key}"
+            if key in PART_DATA_KEYS:
+                continue
             if key in DEVICE_TEXT_KEYS:
                 changes[key] = _text(value, field, 200)
             elif key == T_RISE_KEY:
@@ -343,10 +350,100 @@ def _read_devices(raw, context):
             else:
                 changes[key] = _entry_number(value, words[f"{name}.{key}"])
         try:
-            models[name] = typical_device(part).with_values(**changes)
+            models[name] = (base or typical_device(part)).with_values(**changes)
         except ParameterError as err:
             raise _from_kit(err, f"{where}.{err.parameter}") from None
     return {"devices": models, "t_rise": rises}
+
+
+# --- part classes and datasheet entries (kit.devices.part_classes, kit.devices.datasheet)
+PART_DATA_KEYS = ("class", "datasheet")
+
+
+def _part_data(overrides, part, context, where):
+    """The model a part's ``class`` and ``datasheet`` make (None without either); keeps its spreads.
+
+    The class's entry comes first, the record's datasheet entries over it key
+    by key, and the part's direct parameters over the result (the caller).
+    """
+    from kit.devices import part_classes
+
+    if not any(k in overrides for k in PART_DATA_KEYS):
+        return None
+    chosen = None
+    if "class" in overrides:
+        field = f"{where}.class"
+        if not isinstance(overrides["class"], str):
+            raise _fail(f"must be text, not {_kind(overrides['class'])}", field, overrides["class"],
+                        "a class name (`biasbook parts` lists them)")
+        _text(overrides["class"], field, 100)
+        try:
+            chosen = part_classes.get(overrides["class"])
+        except ParameterError as err:
+            raise _from_kit(err, field) from None
+        if chosen.kind != part.kind.key or part.kind.sense_of(chosen.polarity) != part.sense:
+            fitting = part_classes.classes_for(part.kind.key, part.polarity)
+            raise _fail(f"a {chosen.polarity} class cannot be {part.name}, a {part.polarity} "
+                        f"{part.kind.title}", field, overrides["class"],
+                        ", ".join(c.key for c in fitting) or "no class of this kind yet")
+    sheet = _read_datasheet(overrides.get("datasheet"), part, f"{where}.datasheet")
+    rails = _rails(context, part)
+    convert = _converter(chosen, sheet, part, context, rails)
+    try:
+        converted = convert(None)
+    except ParameterError as err:
+        raise _from_kit(err, f"{where}.datasheet.{err.parameter}") from None
+    context.setdefault("part_data", {})[part.name] = (convert, f"{where}.datasheet",
+                                                      dict(chosen.matching) if chosen else {})
+    return converted.model
+
+
+def _converter(chosen, sheet, part, context, rails):
+    from kit.devices import datasheet
+    from kit.model.design import typical_device
+
+    def convert(supply_range):
+        if chosen is not None:
+            return chosen.convert(sheet, t_ref=context["t_ref"], rails=rails, supply_range=supply_range,
+                                  base=typical_device(part))
+        return datasheet.from_datasheet(part.kind, part.sense, sheet, base=typical_device(part),
+                                        t_ref=context["t_ref"], rails=rails, supply_range=supply_range,
+                                        label=typical_device(part).label + "; datasheet entry of the record")
+    return convert
+
+
+def _rails(context, part):
+    """An op-amp's supply rails: 0 V and v_supply, or ±v_supply where the topology's op-amp swings below 0 V."""
+    from kit.model.design import typical_device
+
+    supply = context.get("values", {}).get("v_supply")
+    if part.kind.key != "opamp" or supply is None:
+        return None
+    return (-supply, supply) if typical_device(part).v_ol < 0 else (0.0, supply)
+
+
+def _read_datasheet(raw, part, where):
+    """A part's ``datasheet`` table: entries of kit.devices.datasheet.ENTRIES, units read like any number."""
+    from kit.devices.datasheet import ENTRIES
+
+    if raw is None:
+        return {}
+    known = ENTRIES.get(part.kind.key)
+    if known is None:
+        raise _fail(f"no datasheet entry for a {part.kind.title}", where,
+                    valid="a datasheet table for " + ", ".join(ENTRIES) + " parts")
+    table = _table(raw, where)
+    _only_keys(table, tuple(known), where)
+    sheet = {}
+    for name, value in table.items():
+        entry, field = known[name], f"{where}.{name}"
+        if entry.scalar and not isinstance(value, dict):
+            value = {"value": value}
+        value = _table(value, field)
+        _only_keys(value, tuple(entry.keys), field)
+        sheet[name] = {key: _number(number, f"{field}.{key}", entry.keys[key][0], entry.keys[key][1:])
+                       for key, number in value.items()}
+    return sheet
 
 
 SPEC_PAIRS = {"v_load": "V", "v_supply": "V", "temp": "K"}
@@ -438,19 +535,80 @@ def _read_spec(raw, context):
     return {}
 
 
-def _make_spec(args, design):
-    """Build and check the Spec against the design (names must exist); errors name spec fields."""
+def _make_spec(args, design, part_data=None):
+    """Build and check the Spec against the design (names must exist); errors name spec fields.
+
+    The stated spreads of parts given by class or datasheet (h_FE min/max,
+    V_GS(th) min/max, a zener's tolerance, an op-amp's offset) fill the
+    ranges the spec does not give itself; ``Record.spec_from_parts`` says which.
+    """
     from kit.analysis.spec import Spec, factors
 
     if args is None:
-        return None
+        return None, ()
     try:
+        added = ()
+        if part_data:
+            args, added = _with_part_ranges(args, design, part_data)
         spec = Spec(**args)
         factors(spec, design)
     except ParameterError as err:
         name = {"i_target": "current"}.get(err.parameter, err.parameter)
         raise _from_kit(err, f"spec.{name}") from None
-    return spec
+    return spec, added
+
+
+def _with_part_ranges(args, design, part_data):
+    """``args`` with the parts' stated spreads where the spec gives none, and what was added.
+
+    A gain range given for the part or its polarity, or a bound on the
+    parameter (on any member of its matched group), is the user's and wins.
+    """
+    from kit.analysis import mismatch
+    from kit.analysis.spec import Spec
+
+    groups = mismatch.groups(Spec(**args), design)
+    members = {m: g.members for g in groups for m in g.members}
+    beta, bounds = dict(args.get("beta", {})), dict(args.get("bounds", {}))
+    added = []
+    for part, (convert, where, _) in part_data.items():
+        try:
+            converted = convert(args.get("v_supply"))
+        except ParameterError as err:
+            raise _from_kit(err, f"{where}.{err.parameter}") from None
+        for param, (low, high) in converted.ranges.items():
+            if param == "beta_f":
+                if part in beta or design.devices[part].polarity in beta:
+                    continue
+                beta[part], what = (low, high), f"spec.beta.{part}"
+            else:
+                if any(f"{m}.{param}" in bounds for m in members.get(part, (part,))):
+                    continue
+                bounds[f"{part}.{param}"], what = (low, high), f"spec.bounds.{part}.{param}"
+            added.append(f"{what} = [{low:.6g}, {high:.6g}] from {where.rsplit('.', 1)[0]}")
+    matching = _class_matching(args, groups, part_data)
+    added += [f"spec.{k} = {v:.6g} from the class of {', '.join(g)}" for k, (v, g) in matching.items()]
+    return args | {"beta": beta, "bounds": bounds} | {k: v for k, (v, _) in matching.items()}, tuple(added)
+
+
+def _class_matching(args, groups, part_data):
+    """Mismatch bounds of matched-pair classes for the spec fields it leaves at zero.
+
+    Only where every member of every matched group of that kind names a class
+    stating them (a spec's mismatch applies to all groups of a kind); the
+    largest stated bound is taken.
+    """
+    out = {}
+    for kind in ("bjt", "mos"):
+        of_kind = [g for g in groups if g.kind == kind]
+        if not of_kind:
+            continue
+        stated = [part_data.get(m, (None, None, {}))[2] for g in of_kind for m in g.members]
+        for key in sorted({k for entry in stated for k in entry}):
+            if args.get(key) or not all(key in entry for entry in stated):
+                continue
+            out[key] = (max(entry[key] for entry in stated), tuple(m for g in of_kind for m in g.members))
+    return out
 
 
 SECTIONS = {
@@ -516,6 +674,9 @@ class Record:
         Saturation criterion for evaluation (``conditions.edge``).
     title, revision, author, notes : str
         Header text (``""`` when absent).
+    spec_from_parts : tuple of str
+        The spec ranges filled from parts given by class or datasheet
+        (``"spec.beta.Q1 = [114.286, 342.857] from devices.Q1"``).
 
     Examples
     --------
@@ -567,7 +728,7 @@ class Record:
         except ParameterError as err:  # ranges and cross-checks the readers leave to the kit
             raise _from_kit(err, field_path(err.parameter, context["topology"], context["polarity"])) from None
         self.design = design
-        self.spec = _make_spec(context.get("spec"), design)
+        self.spec, self.spec_from_parts = _make_spec(context.get("spec"), design, context.get("part_data"))
         self.edge = context["edge"]
         self.title, self.revision = header["title"], header["revision"]
         self.author, self.notes = header["author"], header["notes"]
@@ -839,7 +1000,7 @@ def _too_large(size):
 # What each bound of the shape says when passed: (message, valid).
 _SHAPE_WORDS = {
     "depth": ("nested more than {limit} levels deep in {source}",
-              "at most {limit} levels of tables, dotted keys and arrays; a record needs about 4"),
+              "at most {limit} levels of tables, dotted keys and arrays; a record needs about 5"),
     "keys": ("more than {limit} key names in {source}",
              "at most {limit} key names, each part of a dotted key counted; a record has about 40"),
     "tokens": ("more than {limit} words, strings and brackets in {source}",

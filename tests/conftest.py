@@ -48,6 +48,17 @@ if "BIASBOOK_CACHE" not in os.environ:
     os.environ.setdefault("BIASBOOK_CACHE", _OWN_CACHE)
 
 
+def pytest_addoption(parser):
+    # The on-demand fuzz run (tests/test_fuzz.py, marker "fuzz").
+    parser.addoption("--fuzz-count", type=int, default=1000,
+                     help="random designs per topology for the fuzz run (default 1000)")
+
+
+@pytest.fixture(scope="session")
+def fuzz_count(request):
+    return request.config.getoption("--fuzz-count")
+
+
 def pytest_sessionfinish(session, exitstatus):
     if _OWN_CACHE is not None:
         shutil.rmtree(_OWN_CACHE, ignore_errors=True)

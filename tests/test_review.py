@@ -110,15 +110,16 @@ def reviewed(tmp_path_factory):
     folder = tmp_path_factory.mktemp("review")
     stages = []
     pdf = build_review(PASSING, folder / "review.pdf", progress=stages.append,
-                       keep_html=folder / "review.html")
+                       keep_html=folder / "review.html", twin=folder / "twin.html")
     return {"pdf": pdf, "html": (folder / "review.html").read_text(encoding="utf-8"),
+            "twin": (folder / "twin.html").read_text(encoding="utf-8"),
             "stages": stages, "evaluation": kit.evaluate(load_record(PASSING).design),
             "record": load_record(PASSING), "folder": folder}
 
 
 @needs_printing
 def test_review_reports_its_progress(reviewed):
-    assert reviewed["stages"] == ["executing", "converting", "printing", "done"]
+    assert reviewed["stages"] == ["executing", "converting", "printing", "twin", "done"]
 
 
 @needs_printing
@@ -175,6 +176,67 @@ def test_review_page_asks_nothing_of_the_network(reviewed):
     assert remote == []
     # only local files, in-page anchors and inline data
     assert all(a.startswith(("file:", "#", "data:")) for a in parser.found), parser.found
+
+
+@needs_printing
+def test_page_one_is_a_review_cover(reviewed):
+    """Title block, spec box, verdict, stress, devices and schematic before the first page break."""
+    text = subprocess.run(["pdftotext", "-f", "1", "-l", "1", "-layout", str(reviewed["pdf"]), "-"],
+                          capture_output=True, text=True, check=True).stdout
+    flat = re.sub(r"\s+", " ", text)
+    record = reviewed["record"]
+    for words in ("checked by", "approved by", "Specification and what it is judged over", "load voltage",
+                  "11 V … 18 V", "ambient temperature", "0 °C … 60 °C", "Verdict: spec met", "Worst stress:",
+                  "Devices", "source of the values", "Cautions"):
+        assert words in flat, words
+    assert record.title in flat
+    # the schematic is drawn on page one, ahead of the notebook's first cell
+    html = reviewed["html"]
+    assert 0 < html.find('class="bb-schematic"') < html.find('class="jp-Cell')
+
+
+@needs_printing
+def test_html_twin_needs_no_network_and_no_other_file(reviewed):
+    twin = reviewed["twin"]
+    parser = _Addresses()
+    parser.feed(twin)
+    assert all(a.startswith(("data:", "#")) for a in parser.found), parser.found
+    assert not re.search(r"<script\b[^>]*\bsrc=", twin)
+    assert "file:" not in re.search(r'Content-Security-Policy" content="([^"]*)"', twin).group(1)
+    # the equation fonts travel inside the file; no font or style is read from a file: address
+    assert "data:font/woff;base64," in twin and not re.search(r"url\(['\"]?file:", twin)
+    # the same content as the PDF: its title, its numbers, typeset equations, the embedded plot
+    assert reviewed["record"].title in twin and headline(reviewed["evaluation"])["I_out"] in twin
+    assert "MathJax" in twin and "$$" not in re.sub(r"<script.*?</script>", "", twin, flags=re.S)
+    assert "data-root-id" in twin
+
+
+@needs_printing
+def test_html_twin_draws_its_plots_from_a_folder_holding_nothing_else(reviewed, tmp_path):
+    pytest.importorskip("playwright.sync_api", reason="needs the playwright Python package (biasbook[dev])")
+    from playwright.sync_api import sync_playwright
+
+    from kit.review.build import chromium_path
+
+    alone = tmp_path / "alone"
+    alone.mkdir()
+    page_file = alone / "twin.html"
+    page_file.write_text(reviewed["twin"], encoding="utf-8")
+    asked = []
+    with sync_playwright() as driver:
+        browser = driver.chromium.launch(executable_path=chromium_path(), args=["--no-sandbox"])
+        try:
+            page = browser.new_page()
+            page.on("request", lambda r: asked.append(r.url))
+            page.goto(page_file.as_uri(), wait_until="load")
+            page.wait_for_function("() => [...document.querySelectorAll('[data-root-id]')]"
+                                   ".every((el) => el.firstElementChild && el.firstElementChild.shadowRoot)",
+                                   timeout=30000)
+            typeset = page.evaluate("() => document.querySelectorAll('.MathJax').length")
+        finally:
+            browser.close()
+    assert typeset > 0
+    assert [u for u in asked if not u.startswith(("data:", "about:", page_file.as_uri()))] == []
 
 
 @needs_printing

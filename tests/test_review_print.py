@@ -122,7 +122,21 @@ REVIEWS = {
     # the notebook reviews the design of this record
     "led-notebook": (ROOT / "notebooks" / "led-string-driver.ipynb",
                      load_record(EXAMPLES / "spec-led-driver-passes.toml").title),
+    # a comparison of three mirrors, written as a notebook by the kit (see _comparison)
+    "comparison": ("comparison", "Three mirrors <side by side>"),
 }
+COMPARED = ("wilson_mirror-strain-bridge-excitation.toml", "degenerated_mirror-diff-pair-tail.toml",
+            "widlar_source-gas-sensor-micropower-bias.toml")
+
+
+def _comparison(folder, title):
+    import nbformat
+
+    from kit.review.notebook import comparison_notebook
+
+    path = folder / "comparison.ipynb"
+    nbformat.write(comparison_notebook([EXAMPLES / name for name in COMPARED], title), path)
+    return path
 
 
 @pytest.fixture(scope="module", params=sorted(REVIEWS))
@@ -133,6 +147,8 @@ def printed(request, tmp_path_factory):
 
     source, title = REVIEWS[request.param]
     folder = tmp_path_factory.mktemp(request.param)
+    if source == "comparison":
+        source = _comparison(folder, title)
     pdf = build_review(source, folder / "review.pdf", keep_html=folder / "review.html")
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     for old in ARTIFACTS.glob(f"{request.param}-*.png"):

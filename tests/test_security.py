@@ -120,6 +120,37 @@ def test_template_notebook_shows_record_text_only_as_escaped_text(tmp_path):
     assert "document.title" not in code.replace(repr(record.title), "")
 
 
+def test_comparison_notebook_shows_record_text_only_as_escaped_text(tmp_path):
+    import json
+
+    from kit.review.notebook import comparison_notebook
+
+    hostile = hostile_record(tmp_path)
+    notebook = comparison_notebook([hostile, hostile], HOSTILE_TITLE)
+    markdown = "\n".join(c.source for c in notebook.cells if c.cell_type == "markdown")
+    for raw in ("<script", "<img", "<iframe", "<svg", "<b>"):
+        assert raw not in markdown
+    # code holds the titles only inside JSON string literals
+    code = "\n".join(c.source for c in notebook.cells if c.cell_type == "code")
+    assert "document.title" not in code.replace(json.dumps(HOSTILE_TITLE), "")
+
+
+def test_page_one_shows_record_text_escaped_and_the_schematic_only_as_an_image(tmp_path):
+    import kit
+    from kit.review.pageone import page_one_html
+    from kit.review.summary import review_summary
+
+    record = load_record(hostile_record(tmp_path))
+    html = page_one_html(review_summary(kit.evaluate(record.design), None, record).data)
+    for raw in ("<script", "<img src=y", "<iframe", "<svg"):
+        assert raw not in html
+    # the device label is shown as text in the device table ...
+    assert html_text(HOSTILE_LABEL) in html
+    # ... and the one image is the kit's schematic from a data: address (an image never runs script)
+    images = re.findall(r"<img [^>]*>", html)
+    assert len(images) == 1 and 'src="data:image/svg+xml;base64,' in images[0]
+
+
 def test_policy_lists_only_scripts_outside_markdown_cells():
     page = ('<html><head></head><body><script>var ok = 1;</script>'
             '<div class="jp-Cell jp-MarkdownCell"><div><script>var bad = 1;</script></div></div>'
@@ -186,3 +217,7 @@ def test_review_of_a_hostile_record_shows_its_text_and_runs_none_of_it(tmp_path)
     for raw in ("<img src=x", "<img src=y", "<svg onload", "<iframe", "</style><i>"):
         assert raw not in html
     assert 'http-equiv="Content-Security-Policy"' in html
+    # the PDF's title metadata is the record's title as text (PDF 32000-1:2008, 14.3.3 /Title)
+    from kit.review.printcheck import pdf_info
+
+    assert pdf_info(pdf)["Title"] == HOSTILE_TITLE

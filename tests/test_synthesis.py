@@ -108,7 +108,7 @@ def test_impossible_tolerance_names_the_resistors(impossible):
     spec, result = impossible
     assert result.best is None and result.candidates == []
     assert set(result.infeasible) == {"divider_source/npn", "divider_source/pnp"}
-    pattern = re.compile(r"^(r\w*) ±0\.05 alone moves the current by ([\d.]+)% of the target")
+    pattern = re.compile(r"^(r\w*) ±5 % alone moves the current by ([\d.]+)% of the target")  # ±0.05 as a percentage
     for key, reasons in result.infeasible.items():
         named = [pattern.match(r) for r in reasons]
         named = [m for m in named if m]

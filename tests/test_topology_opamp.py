@@ -477,3 +477,20 @@ def test_cautions_are_in_the_notes():
         notes = " ".join(kit.topology(key).notes).lower()
         assert "stability" in notes and "stopper" in notes and "dissipates" in notes
         assert "local codes" in notes
+
+
+def test_the_op_amp_output_cannot_pass_its_own_supply():
+    # An op-amp's output stays between its supply pins whatever its stated swing
+    # (common practice, no source).  V_SET = 4.5 V needs V_o = V_SET + V_BE + I_B R_B
+    # ≈ 5.2 V: a 5 V supply cannot give it although V_OH = 11 V, and the refusal
+    # names the supply with the least that would do (a little above V_o).
+    import kit
+
+    d = kit.design("opamp_bjt_source", "npn", v_set=4.5, v_supply=5, v_load=4.9, r_s="4k7")
+    with pytest.raises(kit.DesignError) as err:
+        kit.evaluate(d)
+    assert err.value.parameter == "v_supply"
+    assert "≥ 5." in err.value.valid
+    ok = kit.evaluate(d.with_values(v_supply=12, v_load=8))
+    assert ok.parts["U1"].region == "linear"
+    assert 5.1 < ok.parts["U1"].quantities["v_o"] < 5.4

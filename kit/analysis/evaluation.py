@@ -16,10 +16,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.errors import OperatingPointError, ParameterError
+from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
 from kit.model.compliance import find_compliance
-from kit.model.solve import check_edge, solve_points
+from kit.model.solve import check_drift, check_edge, check_laws, solve_points
 
 DISSIPATION_POINTS = 101
 PPM = 1e6
@@ -247,18 +247,30 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
     check_edge(edge)
     model = model_of(design)
     values = design.parameters()
-    points = solve_points(model, values).require("design point")
+    check_laws(model, values)  # device laws and resistors inside their domains
+    check_drift(model, values)  # rails and reference currents keep their sign
+    points = solve_points(model, values)
     same = _same_but_load(reuse, design, values, edge)
     try:
         compliance = same.compliance if same else find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
     v_load = values["v_load"]
+    if not points.converged[0] and compliance.contains(v_load):
+        points = _continue_in_load(model, values, compliance)
     worst, keys = points.worst_margin(edge)
+    if (worst[0] < 0 or not compliance.contains(v_load)) and points.converged[0] and keys[0][1] == "cutoff":
+        # Starved rather than misloaded: say so if a higher supply serves this load.
+        starved = _supply_error(model, values, design, edge)
+        if starved.parameter == "v_supply" and starved.valid.startswith("≥"):
+            raise starved
     if worst[0] < 0 or not compliance.contains(v_load):
-        part, cause = keys[0]
+        # A load voltage far outside compliance may have no operating point
+        # at all: the refusal is the same as just outside, with the range.
+        part, cause = keys[0] if points.converged[0] else _nearest_edge(compliance, v_load)
+        here = "here" if points.converged[0] else "beyond this end"
         raise OperatingPointError(
-            f"load voltage outside compliance: {part} {points.cause_text(part, cause)} here",
+            f"load voltage outside compliance: {part} {points.cause_text(part, cause)} {here}",
             parameter="v_load", value=v_load,
             valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     i_out = float(points.i_out[0])
@@ -268,6 +280,13 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
         raise OperatingPointError(
             "the output current is exactly zero here: nothing to weigh sensitivities and errors against",
             parameter="i_out", value=i_out, valid="a design point with a nonzero output current")
+    if i_out < 0 and len(design.topology.polarities) == 2:
+        # A sink or a source (two polarity words) reports its current positive in
+        # its own sense; a negative one means the circuit does not work as drawn.
+        raise OperatingPointError(
+            "the output current flows the wrong way at this point (the circuit does not source "
+            "or sink as drawn)", parameter="v_load", value=v_load,
+            valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
     gradient = dict(zip(model.parameter_names, (float(v) for v in points.di_dp[:, 0])))
     sensitivities = _sensitivities(design, gradient, i_out)
     regions = points.regions(edge)
@@ -311,6 +330,34 @@ def _same_but_load(earlier, design, values, edge):
     return earlier
 
 
+def _nearest_edge(compliance, v_load):
+    """``(part, cause)`` of the compliance end nearer ``v_load``."""
+    end = compliance.low if v_load < compliance.low.voltage else compliance.high
+    return end.part, end.cause
+
+
+def _continue_in_load(model, values, compliance, steps=24):
+    """The design point reached from inside compliance, one load step at a time.
+
+    Used when the solve from the declared start or by source stepping
+    misses a point that lies inside compliance: the middle of the range
+    solved, each step starting from the last.
+    """
+    v_load = values["v_load"]
+    middle = 0.5 * (compliance.low.voltage + compliance.high.voltage)
+    x = None
+    for v in np.linspace(middle, v_load, steps):
+        points = solve_points(model, values | {"v_load": v}, x0=x)
+        if not points.converged[0]:
+            break
+        x = points.x
+    if x is None or not points.converged[0]:
+        raise ConvergenceError("the exact solve did not converge at the design point, although the "
+                               "load voltages around it solve", parameter="v_load", value=v_load,
+                               valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V")
+    return points
+
+
 def _hottest(model, values, v_load, power):
     """``(part, watts, load voltage, junction temperature)`` of the hottest junction across compliance.
 
@@ -345,6 +392,16 @@ def _supply_error(model, values, design, edge):
     nominal = solve_points(model, values)
     _, keys = nominal.worst_margin(edge)
     part, cause = keys[0]
+    if part is not None and nominal.converged[0]:
+        # A limit of the part itself (an op-amp's output swing) that no supply
+        # or load voltage can cure: name that parameter.
+        info = model.structure.part(part)
+        limit = info.kind.limit_parameter(cause, nominal.junctions[part], model.params(nominal.p, info))
+        if limit is not None:
+            name = f"{part}.{limit}"
+            return OperatingPointError(
+                f"{part} {nominal.cause_text(part, cause)} at every load voltage, whatever the supply",
+                parameter=name, value=values[name], valid="a limit the circuit's operating point stays inside")
     where = f"{part} {nominal.cause_text(part, cause)}" if part else "the solve fails"
     return OperatingPointError(
         f"no load voltage and no higher supply bias the circuit ({where} at "

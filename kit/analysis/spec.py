@@ -29,6 +29,10 @@ from kit.errors import ParameterError
 SIGMA_PER_TOLERANCE = 3.0  # RSS maps a ± tolerance to 3 sigma (an assumption, stated in reports)
 MAX_SAMPLES = 1_000_000  # Monte Carlo runs in constant memory; this bounds the time (minutes)
 DISTRIBUTIONS = ("uniform", "log-uniform")
+# Applied where a spec does not say (common practice, no source: 1 % metal film
+# of 100 ppm/K); Spec.assumed names the ones a spec left to these.
+DEFAULT_RESISTOR_TOLERANCE = 0.01
+DEFAULT_RESISTOR_TCR = 100e-6
 
 
 def _pair(name, value, low, high, unit):
@@ -79,10 +83,14 @@ class Spec:
     beta : dict, optional
         Polarity (``"npn"``/``"pnp"``, or a transistor name) -> (min, max) of
         the forward gain beta_F; default: nominal gain only.
-    resistor_tolerance : float
-        Default resistor tolerance (fraction).
-    resistor_tcr : float
-        Default TCR bound in 1/K (sign unknown: varied over ±).
+    resistor_tolerance : float, optional
+        Resistor tolerance (fraction) of every resistor without its own;
+        not given: :data:`DEFAULT_RESISTOR_TOLERANCE`, and :attr:`assumed`
+        says so.
+    resistor_tcr : float, optional
+        TCR bound in 1/K (sign unknown: varied over ± about each resistor's
+        own TCR) of every resistor without its own; not given:
+        :data:`DEFAULT_RESISTOR_TCR`, and :attr:`assumed` says so.
     tolerances, tcrs : dict
         Per-resistor overrides of the two above.
     bounds : dict
@@ -116,6 +124,13 @@ class Spec:
         Monte Carlo samples.
     seed : int
         Monte Carlo seed (runs are reproducible).
+
+    Attributes
+    ----------
+    assumed : tuple of str
+        The names of the fields the caller left out and the spec filled
+        with a default that changes the result (``"resistor_tolerance"``,
+        ``"resistor_tcr"``), so a report can say which numbers nobody wrote.
     """
 
     i_target: float
@@ -124,8 +139,8 @@ class Spec:
     v_supply: tuple | None = None
     temp: tuple | None = None
     beta: dict = field(default_factory=dict)
-    resistor_tolerance: float = 0.01
-    resistor_tcr: float = 100e-6
+    resistor_tolerance: float | None = None
+    resistor_tcr: float | None = None
     tolerances: dict = field(default_factory=dict)
     tcrs: dict = field(default_factory=dict)
     bounds: dict = field(default_factory=dict)
@@ -141,8 +156,18 @@ class Spec:
     beta_distribution: str = "log-uniform"
     samples: int = 2000
     seed: int = 1
+    # Kept through dataclasses.replace; not part of equality or to_dict (it says
+    # where two numbers came from, not what is required).
+    assumed: tuple | None = field(default=None, compare=False, repr=False)
 
     def __post_init__(self):
+        filled = []
+        for name, default in (("resistor_tolerance", DEFAULT_RESISTOR_TOLERANCE),
+                              ("resistor_tcr", DEFAULT_RESISTOR_TCR)):
+            if getattr(self, name) is None:
+                object.__setattr__(self, name, default)
+                filled.append(name)
+        object.__setattr__(self, "assumed", tuple(filled) if self.assumed is None else tuple(self.assumed))
         if not is_real_number(self.i_target) or not (1e-12 <= self.i_target <= 100.0):
             raise ParameterError("target current out of range", parameter="i_target",
                                  value=self.i_target, valid="1 pA … 100 A")
@@ -231,6 +256,8 @@ class Spec:
     def to_dict(self):
         out = {}
         for name in self.__dataclass_fields__:
+            if name == "assumed":
+                continue
             value = getattr(self, name)
             out[name] = dict(value) if isinstance(value, MappingProxyType) else value
         return out

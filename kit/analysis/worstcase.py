@@ -35,7 +35,7 @@ from kit.analysis import mismatch
 from kit.analysis.evaluation import model_of
 from kit.analysis.spec import SIGMA_PER_TOLERANCE, factors
 from kit.analysis.streaming import RunningHistogram, SeededColumns, wilson_interval
-from kit.analysis.thermal import solve_self_heated
+from kit.analysis.thermal import runaway_error, solve_self_heated
 from kit.model.solve import solve_points
 from kit.errors import ParameterError
 from kit.quantities import format_quantity
@@ -585,7 +585,9 @@ def worst_case(design, spec, *, self_heating=True, edge="vce_sat", methods=METHO
     box_factors = factors(spec, design)
     box = _Box(spec, design, self_heating, edge, box_factors)
     nominal_points = box.solve({})
-    nominal_points.require("nominal design point")
+    problem = runaway_error(nominal_points, "nominal design point")
+    if problem is not None:
+        raise problem
     nominal = float(nominal_points.i_out[0])
     runners = {"extreme-value": lambda: _extreme_value(box, box_factors, nominal_points),
                "RSS": lambda: _rss(box, box_factors),

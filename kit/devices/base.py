@@ -313,6 +313,19 @@ class DeviceKind:
         """Cause -> margin (>= 0 inside) of solved points."""
         return {}
 
+    def domain(self, j, op):
+        """Where the part's laws hold: ``parameter -> (law in words, margin)``, margin > 0 inside.
+
+        ``op`` holds the part's operating values by role (``"beta"``,
+        ``"V_A"``, ...) at its junction temperature, ``j`` its exported
+        quantities; both are arrays over points.  ``parameter`` is the one
+        of the part's own parameters a designer would change to come back
+        inside.  A law outside its domain (a negative current gain, a
+        negative Early factor) has no physical meaning, so such a point is
+        never accepted, whatever its regions say.
+        """
+        return {}
+
     def dissipation(self, j):
         return np.zeros(np.shape(next(iter(j.values()))))
 
@@ -322,6 +335,14 @@ class DeviceKind:
 
     def current(self, j):
         """The current that names the part's operating point (I_C, I_D, I_Z)."""
+        return None
+
+    def limit_parameter(self, cause, j, p):
+        """The part's own parameter that sets the limit ``cause`` at these points, if one does.
+
+        For a refusal that no supply or load can cure (an op-amp whose
+        output must pass its swing): the error names that parameter.
+        """
         return None
 
     def cause_text(self, cause):

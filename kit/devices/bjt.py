@@ -118,7 +118,8 @@ class BJT(DeviceKind):
     breakdown = "bv_ceo"  # the rating that bounds the load voltage
     good_region = "active"
     causes = {"saturation": "saturates", "cutoff": "cuts off", "breakdown": "reaches BV_CEO",
-              "power": "reaches its dissipation limit"}
+              "power": "reaches its dissipation limit", "beta_tc": "has β_F(T) ≤ 0",
+              "v_a": "has a negative Early factor (V_CE < −V_A)"}
     sensitivity = {"beta_f": "", "v_a": "V"}
     symbol_roles = {
         "I_S": ("I_S_", "I_{S}", "saturation current I_S"),
@@ -192,9 +193,30 @@ class BJT(DeviceKind):
         off = CUTOFF_THERMAL_VOLTAGES * v_t
         saturated = _saturation_margin(j, p, v_t, edge) < 0.0
         region = np.where(saturated, "saturated", "active").astype(object)
-        region[(j["v_be"] < off) & (j["v_bc"] >= off)] = "reverse"
+        reverse = (j["v_be"] < off) & (j["v_bc"] >= off)
+        region[reverse] = "reverse"
         region[(j["v_bc"] < off) & (j["i_c"] < CUTOFF_CURRENT)] = "cutoff"
+        # Not saturated, yet no forward-biased emitter junction or no collector
+        # current worth the name: what flows is leakage (a hot part with a
+        # large I_S passes I_S/beta_R at V_BE <= 0), so the part is off.
+        region[~saturated & ~reverse & ((j["i_c"] < CUTOFF_CURRENT) | (j["v_be"] <= 0.0))] = "cutoff"
         return region
+
+    def domain(self, j, op):
+        """``β_F(T) > 0`` (its temperature law), ``1 + V_CE/V_A > 0`` (the Early factor).
+
+        Examples
+        --------
+        >>> import numpy as np
+        >>> law = KIND.domain({"v_ce": np.array([5.0, -120.0])},
+        ...                   {"beta": np.array([180.0, 180.0]), "V_A": np.array([100.0, 100.0])})
+        >>> law["v_a"][1] > 0
+        array([ True, False])
+        """
+        with np.errstate(divide="ignore", invalid="ignore"):
+            early = 1.0 + j["v_ce"] / op["V_A"] if "v_ce" in j else np.ones_like(op["beta"])
+        return {"beta_tc": ("β_F(T) > 0", op["beta"]),
+                "v_a": ("Early factor 1 + V_CE/V_A > 0", np.where(np.isinf(op["V_A"]), 1.0, early))}
 
     def margins(self, j, p, temp, edge):
         """Saturation and cut-off (V), breakdown (V) and dissipation (W, at the point's temperature).
@@ -220,10 +242,16 @@ class BJT(DeviceKind):
         # The cut-off criterion as a voltage, V_T ln(I_C / I_cutoff): continuous for I_C > 0.
         # A forward-biased collector junction means saturation, not cut-off (the
         # collector current of a hard-saturated part is small too).
-        by_current = v_t * np.log(np.maximum(j["i_c"], 1e-300) / CUTOFF_CURRENT)
-        cutoff = np.where(j["v_bc"] >= CUTOFF_THERMAL_VOLTAGES * v_t, np.inf, by_current)
+        # The emitter junction must be forward biased too (V_BE > 0): leakage
+        # alone can exceed the cut-off current in a hot part with a large I_S.
+        by_current = np.minimum(v_t * np.log(np.maximum(j["i_c"], 1e-300) / CUTOFF_CURRENT), j["v_be"])
+        saturation = _saturation_margin(j, p, v_t, edge)
+        # Only a part already judged saturated is spared the current criterion
+        # (its cause is saturation); one with V_CE above V_CE(sat) and no
+        # current is off, whatever its collector junction does.
+        cutoff = np.where((j["v_bc"] >= CUTOFF_THERMAL_VOLTAGES * v_t) & (saturation < 0), np.inf, by_current)
         return {
-            "saturation": _saturation_margin(j, p, v_t, edge),
+            "saturation": saturation,
             "cutoff": cutoff,
             "breakdown": p.bv_ceo - j["v_ce"],
             "power": (p.t_j_max - temp) / p.theta_ja - self.dissipation(j),

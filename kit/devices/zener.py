@@ -49,7 +49,7 @@ class Zener(DeviceKind):
     quantities = ("v_z", "i_z")
     good_region = "regulating"
     causes = {"zener_current": "falls below its least zener current",
-              "power": "reaches its dissipation limit"}
+              "power": "reaches its dissipation limit", "tc_z": "has V_Z(T) ≤ 0"}
     sensitivity = {"v_z0": "V", "r_z": "Ω"}
     symbol_roles = {
         "V_Z0": ("V_Z0_", "V_{Z0}", "zener voltage TC_Z"),
@@ -80,6 +80,10 @@ class Zener(DeviceKind):
 
     def small_signal_stamp(self, quantities, symbols):
         return [("g", "k", "a", 1 / symbols["r_z"])]
+
+    def domain(self, j, op):
+        """``V_Z0(T) > 0``: the linear temperature law of the zener voltage stays above zero."""
+        return {"tc_z": ("V_Z(T) > 0", op["V_Z0"])}
 
     def regions(self, j, p, temp, edge):
         return np.where(j["i_z"] >= p.i_z_min, "regulating", "below knee").astype(object)

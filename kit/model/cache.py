@@ -48,6 +48,14 @@ def module_path(module, package=PACKAGE):
 
 def _imports(path, module):
     """The ``kit`` modules one source file imports (at any depth in the file)."""
+    # Every topology's key reads the same shared files: parse each once per
+    # process and version of the file.
+    stat = path.stat()
+    return _imports_of(path, module, stat.st_mtime_ns, stat.st_size)
+
+
+@lru_cache(maxsize=None)
+def _imports_of(path, module, mtime_ns, size):
     tree = ast.parse(path.read_text(encoding="utf-8"))
     found = set()
     package = module if path.name == "__init__.py" else module.rpartition(".")[0]
@@ -63,7 +71,7 @@ def _imports(path, module):
                 continue
             found.add(base)
             found |= {f"{base}.{a.name}" for a in node.names}  # names that are submodules
-    return found
+    return frozenset(found)
 
 
 def source_files(module, package=PACKAGE):

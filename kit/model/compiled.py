@@ -32,6 +32,33 @@ def _compile(topology_key, polarity):
     return CompiledModel(topology, polarity, manifest, module)
 
 
+# An infinite operating value (an ideal part's Early voltage) is taken to its
+# limit by this finite stand-in where a form evaluated at infinity gives
+# inf/inf or inf - inf: large enough that 1/V_A vanishes beside every other
+# term, small enough that its fourth power is still a float.
+IDEAL_STAND_IN = 1e60
+# A form larger than this at the stand-in grows without bound as V_A -> inf.
+UNBOUNDED = 1e40
+
+
+def _limit_at_ideal(evaluate, q, *rest):
+    """``evaluate(*rest, q)`` with NaN from an infinite operating value replaced by its limit.
+
+    Returns a float array; a value growing with the stand-in is reported
+    as +/-inf, one that settles is reported as its settled value.
+    """
+    with np.errstate(all="ignore"):
+        out = np.array(evaluate(*rest, q), dtype=float)
+    infinite = np.isinf(q)
+    if not infinite.any() or not np.isnan(out).any():
+        return out
+    finite_q = np.where(infinite, np.sign(q) * IDEAL_STAND_IN, q)
+    with np.errstate(all="ignore"):
+        limit = np.array(evaluate(*rest, finite_q), dtype=float)
+    limit = np.where(np.abs(limit) > UNBOUNDED, np.sign(limit) * np.inf, limit)
+    return np.where(np.isnan(out), limit, out)
+
+
 def _stack(values, shape):
     """Broadcast a list of scalars/arrays from generated code to one float array."""
     out = np.empty((len(values),) + shape)
@@ -73,6 +100,15 @@ class CompiledModel:
         """The parameters of ``part`` (a :class:`kit.model.structure.PartInfo`) in ``p``, by key."""
         return Params({f"{part.name}.{k}": self.parameter_index[v] for k, v in part.params.items()},
                       p, part.name)
+
+    def operating_of(self, part, q):
+        """Role -> row of ``q`` of one part's operating values (``"beta"``, ``"V_A"``, ...)."""
+        out = {}
+        for role, (prefix, _, _) in part.kind.symbol_roles.items():
+            index = self.operating_index.get(f"{prefix}{part.name}")
+            if index is not None:
+                out[role] = q[index]
+        return out
 
     def operating(self, p):
         """Operating values ``q`` (M, N) from parameters ``p`` (P, N)."""
@@ -126,23 +162,36 @@ class CompiledModel:
         return _stack(self.module.limited(x, q), x.shape[1:])
 
     def extras(self, x, q):
-        values = _stack(self.module.extras(x, q), x.shape[1:])
+        """Key -> small-signal form (an ideal part's infinite Early voltage taken as a limit)."""
+        values = _limit_at_ideal(lambda x_, q_: _stack(self.module.extras(x_, q_), x_.shape[1:]), q, x)
         return dict(zip(self.extra_names, values))
 
     def closed_forms(self, q):
-        values = _stack(self.module.closed_forms(q), q.shape[1:])
+        """Key -> closed-form output current (an infinite Early voltage taken as a limit)."""
+        values = _limit_at_ideal(lambda q_: _stack(self.module.closed_forms(q_), q_.shape[1:]), q)
         return dict(zip(self.closed_form_names, values))
 
     def closed_form_gradients(self, q):
-        """Key -> dI_cf/dq (M, N)."""
-        grads = {name: np.zeros(q.shape) for name in self.closed_form_names}
-        for (c, j), value in zip(self.manifest["closed_forms_q"], self.module.closed_forms_q(q)):
-            grads[self.closed_form_names[c]][j] = value
-        return grads
+        """Key -> dI_cf/dq (M, N) (an infinite Early voltage taken as a limit)."""
+        def gradients(q_):
+            grads = np.zeros((len(self.closed_form_names),) + q_.shape)
+            for (c, j), value in zip(self.manifest["closed_forms_q"], self.module.closed_forms_q(q_)):
+                grads[c, j] = value
+            return grads
+
+        values = _limit_at_ideal(gradients, q)
+        return dict(zip(self.closed_form_names, values))
 
     def starts(self, q):
-        """Declared starting voltages ``(len(started), N)`` for the unknowns in ``self.started``."""
-        return _stack(self.module.starts(q), q.shape[1:])
+        """Declared starting voltages ``(len(started), N)`` for the unknowns in ``self.started``.
+
+        A start may be NaN or infinite for a design far from the one its
+        closed form assumes (a log of a negative current); such a point
+        fails its first Newton step and is retried by source stepping, so
+        the floating-point warnings of that guess are not the user's.
+        """
+        with np.errstate(all="ignore"):
+            return _stack(self.module.starts(q), q.shape[1:])
 
     def valid(self, x, q):
         """Boolean array: the point lies on the branch the circuit declares valid (all True if none)."""

@@ -241,6 +241,25 @@ def _read(topology, polarity, name, value):
     return parse_quantity(value, e.unit or None, name=name, allow_inf=e.allow_inf)
 
 
+def _rises_from_devices(devices, t_rise):
+    """Move a part's ``t_rise`` given among its parameters (as a record keeps it) to ``t_rise``.
+
+    A record keeps a junction's rise beside its model (``[devices.Q1]
+    t_rise = 5``); a design may be given it the same way.
+    """
+    devices, t_rise = dict(devices or {}), dict(t_rise or {})
+    for name, model in list(devices.items()):
+        if isinstance(model, dict) and "t_rise" in model:
+            model = dict(model)
+            rise = model.pop("t_rise")
+            if name in t_rise and t_rise[name] != rise:
+                raise ParameterError("given twice, in devices and in t_rise", parameter=f"{name}.t_rise",
+                                     value=rise, valid="one value")
+            t_rise[name] = rise
+            devices[name] = model
+    return devices, t_rise
+
+
 def make_design(topology, polarity=None, *, devices=None, temp=DEFAULT_TEMPERATURE, t_ref=DEFAULT_TEMPERATURE,
                 tcr=None, ratings=None, hand=None, t_rise=None, title="", **values):
     """Build a :class:`Design`, reading text values (``"4k7"``, ``"12 V"``, ``"25 degC"``).
@@ -262,7 +281,8 @@ def make_design(topology, polarity=None, *, devices=None, temp=DEFAULT_TEMPERATU
     hand : dict, optional
         Hand-analysis values ``v_be_on``, ``v_be_tc`` for the closed forms.
     t_rise : dict, optional
-        Part name -> junction temperature above ``temp`` (K).
+        Part name -> junction temperature above ``temp`` (K); it may also be
+        given among a part's parameters (``devices={"Q1": {"t_rise": 5}}``).
     **values
         Topology values by name (SI, or text with units).
 
@@ -290,6 +310,7 @@ def make_design(topology, polarity=None, *, devices=None, temp=DEFAULT_TEMPERATU
     ratings = {n: _read(top, polarity, f"p_rated_{n}", v) if f"p_rated_{n}" in vocabulary(top, polarity) else v
                for n, v in (ratings or {}).items()}
     hand = {n: _read(top, polarity, n, v) if n in vocabulary(top, polarity) else v for n, v in (hand or {}).items()}
+    devices, t_rise = _rises_from_devices(devices, t_rise)
     rises = {n: _read(top, polarity, f"{n}.t_rise", v) if f"{n}.t_rise" in vocabulary(top, polarity) else v
              for n, v in (t_rise or {}).items()}
     return Design(top, polarity, parsed, dict(devices or {}), temps["temp"], temps["t_ref"], tcr, ratings,

@@ -21,6 +21,7 @@ node voltages.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -126,8 +127,16 @@ class OperatingPoints:
             for cause, margin in part.kind.margins(j, self.model.params(self.p, part), self.temp,
                                                    edge).items():
                 out[part.name, cause] = margin
+            # A law outside its domain is outside every limit (margin -inf there);
+            # a point that did not converge (NaN) is judged by the solver's own margin.
+            for param, (_, margin) in self.domain(part).items():
+                out[part.name, param] = np.where((margin > 0) | np.isnan(margin), np.inf, -np.inf)
         out[None, "solve"] = np.where(self.converged, np.inf, -np.inf)
         return out
+
+    def domain(self, part):
+        """``parameter -> (law in words, margin)`` of one part's laws at these points (> 0 inside)."""
+        return part.kind.domain(self.junctions[part.name], self.model.operating_of(part, self.q))
 
     def worst_margin(self, edge="vce_sat"):
         """Smallest margin at each point and its ``(part, cause)`` key."""
@@ -186,6 +195,55 @@ class OperatingPoints:
         return self
 
 
+def check_laws(model, values):
+    """Refuse parameters under which a part's temperature law leaves its domain.
+
+    A current gain ``β_F(T)`` or a zener voltage ``V_Z(T)`` that reaches zero
+    at the temperature of the point (the junction's, self-heating included)
+    makes a law without physical meaning; the error names the part's
+    parameter, the junction temperature and the value there.
+
+    Raises
+    ------
+    kit.errors.ParameterError
+    """
+    p = parameter_array(model, values)
+    q = model.operating(p)
+    temp = p[model.parameter_index["temp"]]
+    t_ref = p[model.parameter_index["t_ref"]]
+    for part in model.structure.parts:
+        # R (1 + TCR (T - T_ref)) must stay positive: a TCR far from zero over a
+        # wide span reaches zero (and the solve would meet a negative resistor).
+        tcr = model.parameter_index.get(f"tcr_{part.value}") if part.value else None
+        if tcr is None:
+            continue
+        factor = 1.0 + p[tcr] * (temp - t_ref)
+        bad = np.flatnonzero(~(factor > 0))
+        if bad.size:
+            k = bad[0]
+            raise ParameterError(
+                f"{part.value} (1 + TCR (T − T_ref)) ≤ 0 at T = {temp[k]:.4g} K: a negative resistance",
+                parameter=f"tcr_{part.value}", value=float(p[tcr][k]),
+                valid=f"|TCR| < {1.0 / abs(temp[k] - t_ref[k]):.3g} 1/K for this temperature span")
+    for part in model.structure.devices:
+        ops = model.operating_of(part, q)
+        if not ops:
+            continue
+        rise = model.parameter_index.get(f"{part.name}.t_rise")
+        junction = temp + (p[rise] if rise is not None else 0.0)
+        for param, (law, margin) in part.kind.domain({}, ops).items():
+            bad = np.flatnonzero(~(margin > 0))
+            if bad.size:
+                k = bad[0]
+                name = f"{part.name}.{param}"
+                raise ParameterError(
+                    f"{law} fails at T = {junction[k]:.4g} K ({junction[k] - 273.15:.4g} °C): "
+                    f"the law gives {margin[k]:.4g} there",
+                    parameter=name, value=float(p[model.parameter_index[name]][k])
+                    if name in model.parameter_index else None,
+                    valid=f"a value that keeps {law} at every temperature of the design")
+
+
 def _batched_solve(a, b):
     """Solve ``a @ x = b`` for stacks of matrices; fall back to least squares if singular.
 
@@ -205,9 +263,13 @@ def _batched_solve(a, b):
     try:
         return np.linalg.solve(a, b)
     except np.linalg.LinAlgError:
-        out = np.empty(a.shape[:1] + a.shape[2:3] + b.shape[2:])
+        out = np.full(a.shape[:1] + a.shape[2:3] + b.shape[2:], np.nan)
         for k in range(a.shape[0]):
-            out[k] = np.linalg.lstsq(a[k], b[k], rcond=None)[0]
+            # A matrix with a NaN or inf (a diverged point) has no least-squares
+            # answer either (LAPACK's SVD fails on it): leave NaN, the caller
+            # marks that point unconverged.
+            if np.all(np.isfinite(a[k])) and np.all(np.isfinite(b[k])):
+                out[k] = np.linalg.lstsq(a[k], b[k], rcond=None)[0]
         return out
 
 
@@ -230,6 +292,49 @@ def parameter_array(model, values, size=None):
         if not np.all(np.isfinite(row) | (np.isposinf(row) & _may_be_infinite(name))):
             raise ParameterError("must be finite", parameter=name, value=float(row[~np.isfinite(row)][0]))
     return p
+
+
+def check_drift(model, values):
+    """Refuse a point at which a rail, a reference current or a resistance has drifted through zero.
+
+    A linear temperature law ``X (1 + tc (T - T_ref))`` holds near ``T_ref``;
+    a large coefficient far from it would carry the value through zero (a
+    reference current that reverses, a resistor below 0 Ω), which no real part
+    does.  The error names the coefficient and the range that keeps the sign.
+
+    Parameters
+    ----------
+    model : kit.model.compiled.CompiledModel
+    values : dict
+        Every parameter name -> float (one design point).
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.model.compiled import compile_model
+    >>> d = kit.design("basic_mirror", i_ref_tc=-0.01, temp=450)
+    >>> check_drift(compile_model(d.topology, d.polarity), d.parameters())  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    kit.errors.ParameterError: i_ref_tc = -0.01: I_REF drifts through zero ... (valid: > -0.006585 1/K at temp = 450 K)
+    """
+    q = model.operating(parameter_array(model, values))[:, 0]
+    reference = model.operating(parameter_array(model, values | {"temp": values["t_ref"]}))[:, 0]
+    watched = list(model.manifest["sources"])
+    watched += [model.operating_index[part.name] for part in model.structure.parts
+                if part.kind.key == "resistor" and part.name in model.operating_index]
+    feeds = {}
+    for j, k in model.manifest["dq_dp"]:
+        feeds.setdefault(j, []).append(model.parameter_names[k])
+    rise = values["temp"] - values["t_ref"]
+    for j in watched:
+        if reference[j] != 0 and not q[j] * reference[j] > 0:
+            coefficient = next((n for n in feeds.get(j, ()) if n.endswith("_tc") or n.startswith("tcr_")), "temp")
+            limit = -1.0 / rise if rise else math.inf
+            valid = (f"> {limit:.4g} 1/K at temp = {values['temp']:.5g} K" if rise > 0
+                     else f"< {limit:.4g} 1/K at temp = {values['temp']:.5g} K")
+            raise ParameterError(f"{model.operating_names[j]} drifts through zero at the point's temperature",
+                                 parameter=coefficient, value=values.get(coefficient), valid=valid)
 
 
 def _may_be_infinite(name):

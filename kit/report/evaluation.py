@@ -43,6 +43,28 @@ def headline(evaluation):
     }
 
 
+def tempco_by_mechanism(budget):
+    """The tempco budget summed per mechanism: ``(mechanism, parts, contribution in 1/K)``.
+
+    Matched parts' terms of one mechanism (a mirror's two saturation
+    currents, ±140 000 ppm/K each) cancel; the reader sees what is left.
+
+    Examples
+    --------
+    >>> tempco_by_mechanism([("saturation current I_S of Q2", 0.14), ("saturation current I_S of Q1", -0.14),
+    ...                      ("TCR of r_e", -4e-5), ("set voltage V_SET", 2e-5)])
+    [('saturation current I_S', 'Q2, Q1', 0.0), ('TCR', 'r_e', -4e-05), ('set voltage V_SET', '', 2e-05)]
+    """
+    groups = {}
+    for label, value in budget:
+        mechanism, of, part = label.rpartition(" of ")
+        if not of:
+            mechanism, part = label, ""
+        parts, total = groups.get(mechanism, ([], 0.0))
+        groups[mechanism] = (parts + ([part] if part else []), total + value)
+    return [(mechanism, ", ".join(parts), total) for mechanism, (parts, total) in groups.items()]
+
+
 def _value(evaluation, s):
     if s.parameter == "temp":
         return format_temperature(s.value)
@@ -116,9 +138,10 @@ def html(evaluation):
         ["parameter", "value", "dI/dp", "S = (p/I)·dI/dp"],
         [[s.parameter, _value(evaluation, s), _derivative(s), _normalised(s)]
          for s in sorted(evaluation.sensitivities, key=lambda s: -abs(s.normalised))], numeric=(1, 2, 3))
-    budget = tables.table(["mechanism", "tempco"],
-                          [[label, format_quantity(v, "ppm/K")] for label, v in evaluation.tempco_budget]
-                          + [["total", format_quantity(evaluation.tempco, "ppm/K")]], numeric=(1,))
+    budget = tables.table(["mechanism", "parts", "tempco"],
+                          [[m, parts, format_quantity(v, "ppm/K")]
+                           for m, parts, v in tempco_by_mechanism(evaluation.tempco_budget)]
+                          + [["total", "", format_quantity(evaluation.tempco, "ppm/K")]], numeric=(2,))
     ledger = tables.table(
         ["simplification", "closed form", "value", "error vs exact", "tempco", "assumes"],
         [[e.label, tables.Raw(f"$${e.latex}$$"), format_quantity(e.value, "A", 4), f"{e.error:+.3%}",
@@ -127,7 +150,7 @@ def html(evaluation):
     body = (tables.section(title(design), head) + tables.section("Compliance", edges)
             + tables.section("Output resistance", forms) + tables.section("Parts", parts)
             + tables.section("Sensitivities (exact, implicit function theorem)", sens)
-            + tables.section("Tempco budget", budget)
+            + tables.section("Tempco budget by mechanism", budget)
             + tables.section("Ledger: simplifications against the exact solution", ledger))
     if design.topology.notes:
         body += tables.section("Design notes", "".join(f"<p>{tables.escape(n)}</p>" for n in design.topology.notes))

@@ -31,6 +31,7 @@ from pathlib import Path
 from kit.errors import DesignError
 from kit.review.forprint import for_print, with_print_setup
 from kit.review.page import REVIEW_PAGE
+from kit.review.pageone import page_one_html
 from kit.review.policy import with_content_policy
 from kit.review.summary import MIME
 from kit.safety import css_string
@@ -120,7 +121,7 @@ def to_html(notebook, *, with_code=False):
     """HTML of an executed notebook through the kit's review template."""
     from nbconvert import HTMLExporter
 
-    summary, summary_html = find_summary(notebook)
+    summary, _ = find_summary(notebook)
     notebook = for_print(notebook, with_code=with_code)
     _drop_live_widgets(notebook)
     # The page's <title> (escaped by the template) becomes the PDF's title.
@@ -129,7 +130,7 @@ def to_html(notebook, *, with_code=False):
                             exclude_input=not with_code, exclude_input_prompt=True,
                             exclude_output_prompt=True)
     footer = f"{summary['title']} — rev. {summary['revision']} — biasbook {summary['versions']['biasbook']}"
-    resources = {"biasbook": {"summary": summary, "summary_html": summary_html,
+    resources = {"biasbook": {"summary": summary, "summary_html": page_one_html(summary),
                               "mathjax_url": mathjax_url(), "footer_css": css_string(footer),
                               "page_css": REVIEW_PAGE.css(), "page_width": f"{REVIEW_PAGE.content_width:g}mm"}}
     body, _ = exporter.from_notebook_node(notebook, resources=resources)
@@ -156,7 +157,7 @@ def print_pdf(html_path, pdf_path):
                           parameter="chromium")
 
 
-def build_review(source, output, *, with_code=False, progress=None, keep_html=None):
+def build_review(source, output, *, with_code=False, progress=None, keep_html=None, twin=None):
     """Build the design-review PDF of a notebook or a design record.
 
     Parameters
@@ -169,9 +170,13 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
     with_code : bool
         Show code cells (hidden by default: a review wants results).
     progress : callable, optional
-        Called with ``"executing"``, ``"converting"``, ``"printing"``, ``"done"``.
+        Called with ``"executing"``, ``"converting"``, ``"printing"``, (``"twin"``), ``"done"``.
     keep_html : path, optional
-        Also keep the HTML page (for tests and for sharing).
+        Also keep the HTML page the PDF is printed from (it loads the local
+        typesetting library: for tests and this machine).
+    twin : path, optional
+        Also write the offline HTML twin of the PDF (:mod:`kit.review.twin`):
+        one file, equations set, plots interactive, no network, for sharing.
 
     Returns
     -------
@@ -207,5 +212,10 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
         report("printing")
         output.parent.mkdir(parents=True, exist_ok=True)
         print_pdf(page, output.resolve())
+        if twin:
+            from kit.review.twin import write_twin
+
+            report("twin")
+            write_twin(page, twin)
     report("done")
     return output

@@ -8,6 +8,8 @@ the second one's part:
   (instructions for the panels, notes about the test suite);
 * ``# NBVAL_...`` marker lines are taken out of code shown with ``--with-code``;
 * the template's requirement prompt, left unedited, is not printed;
+* the review summary a notebook displays last is not printed where the
+  notebook shows it: page one is made from it (:mod:`kit.review.pageone`);
 * a section heading with nothing printed under it (its cells are all
   screen-only, or code without output while code is hidden) is not printed.
 
@@ -33,6 +35,7 @@ import copy
 import re
 
 from kit.review.notebook import REQUIREMENT_PROMPT
+from kit.review.summary import MIME as SUMMARY_MIME
 
 SCREEN_ONLY_TAG = "biasbook-screen-only"
 PRINT_SETUP_TAG = "biasbook-print-setup"
@@ -109,6 +112,8 @@ def for_print(notebook, *, with_code=False):
             continue
         if cell.cell_type == "code":
             cell.source = _MARKER_LINE.sub("", cell.source)
+            # Page one is the summary; printing it again where the notebook ends wastes pages.
+            cell.outputs = [o for o in cell.get("outputs", []) if SUMMARY_MIME not in o.get("data", {})]
         elif cell.cell_type == "markdown":
             cell.source = cell.source.replace(REQUIREMENT_PROMPT, "").rstrip()
             if not cell.source:

@@ -87,20 +87,25 @@ def _hash(script):
     return "'sha256-" + base64.b64encode(digest).decode("ascii") + "'"
 
 
-def content_policy(page):
-    """The policy for ``page`` (HTML text), as the value of a CSP meta element."""
+def content_policy(page, *, local_files=True):
+    """The policy for ``page`` (HTML text), as the value of a CSP meta element.
+
+    With ``local_files=False`` (the offline twin, :mod:`kit.review.twin`)
+    nothing is loaded from a ``file:`` address at all.
+    """
     finder = _ScriptFinder(page)
     finder.feed(page)
     finder.close()
     scripts = sorted({_hash(s) for s in finder.inline})
-    if any(src.startswith("file:") for src in finder.sources):
+    files = " file:" if local_files else ""
+    if local_files and any(src.startswith("file:") for src in finder.sources):
         scripts.append("file:")
     return "; ".join([
         "default-src 'none'",
         "script-src " + (" ".join(scripts) or "'none'"),
-        "style-src 'unsafe-inline' file:",
-        "img-src data: blob: file:",
-        "font-src data: file:",
+        f"style-src 'unsafe-inline'{files}",
+        f"img-src data: blob:{files}",
+        f"font-src data:{files}",
         "connect-src 'none'",
         "media-src 'none'",
         "object-src 'none'",
@@ -111,9 +116,9 @@ def content_policy(page):
     ])
 
 
-def with_content_policy(page):
+def with_content_policy(page, *, local_files=True):
     """``page`` with its content-security policy as the first element of ``<head>``."""
-    policy = content_policy(page)
+    policy = content_policy(page, local_files=local_files)
     meta = f'<meta http-equiv="Content-Security-Policy" content="{policy}">'
     head = page.find("<head")
     if head < 0:

@@ -15,7 +15,7 @@ import json
 from kit.report import tables as display
 from kit.report.cautions import GENERAL, cautions
 from kit.report.evaluation import headline
-from kit.quantities import format_quantity
+from kit.quantities import format_quantity, format_temperature
 
 MIME = "application/vnd.biasbook.review+json"
 
@@ -31,6 +31,121 @@ def _versions():
 def _design_hash(design):
     text = json.dumps(design.to_dict(), sort_keys=True, separators=(",", ":"), default=str)
     return hashlib.sha256(text.encode()).hexdigest()
+
+
+def _range(low, high, unit, digits=4):
+    return f"{format_quantity(low, unit, digits)} … {format_quantity(high, unit, digits)}"
+
+
+def _temperatures(low, high):
+    return f"{format_temperature(low)} … {format_temperature(high)}"
+
+
+def spec_box(result):
+    """``[condition, what the spec takes]`` rows: every range, tolerance and default applied.
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.analysis.spec import Spec
+    >>> from kit.analysis.worstcase import worst_case
+    >>> d = kit.design("divider_source")
+    >>> rows = dict(spec_box(worst_case(d, Spec(1e-3, 0.05), methods=("RSS",))))
+    >>> rows["load voltage"]
+    "the design's own 8 V only"
+    """
+    spec, design = result.spec, result.design
+    values = design.parameters()
+    lo, hi = spec.limits
+    rows = [["output current", f"{format_quantity(spec.i_target, 'A', 4)} ± {spec.tolerance:.2%} "
+                               f"({_range(lo, hi, 'A')})"]]
+    for name, label, unit in (("v_load", "load voltage", "V"), ("v_supply", "supply", "V")):
+        bounds = getattr(spec, name)
+        rows.append([label, _range(*bounds, unit) if bounds is not None
+                     else f"the design's own {format_quantity(values[name], unit, 4)} only"])
+    rows.append(["ambient temperature", _temperatures(*spec.temp) if spec.temp is not None
+                 else f"the design's own {format_temperature(design.temp)} only"])
+    gains = [f for f in result.factors if f.name.endswith(".beta_f") or f.label.startswith("β")]
+    if gains:
+        rows.append(["current gain β_F", "; ".join(f"{f.label} {f.low:g} … {f.high:g}" for f in gains)
+                     + f" ({spec.beta_distribution} in Monte Carlo)"])
+    elif any("beta_f" in m.values for m in design.devices.values()):
+        rows.append(["current gain β_F", "nominal only (the spec gives no range)"])
+    resistors = design.topology.resistors
+    if resistors:
+        tolerance = [f"{r} ±{spec.tolerances.get(r, spec.resistor_tolerance):.2%}" for r in resistors]
+        tcr = [f"{r} ±{format_quantity(spec.tcrs.get(r, spec.resistor_tcr), 'ppm/K')}" for r in resistors]
+        rows.append(["resistor tolerance", ", ".join(tolerance)
+                     + ("" if spec.tolerances else " (the spec's default for every resistor)")])
+        rows.append(["resistor TCR", ", ".join(tcr) + (" about each resistor's own TCR" if spec.temp is not None
+                                                        else " (not varied: no temperature range)")])
+    for name, (low, high) in spec.bounds.items():
+        entry = design.vocabulary.get(name)
+        unit = entry.unit if entry is not None else ""
+        rows.append([entry.symbol if entry is not None and entry.symbol else name,
+                     _range(low, high, unit) if unit and unit != "K" else f"{low:g} … {high:g}"])
+    if spec.matched:
+        rows.append(["matched groups", "; ".join(", ".join(g) for g in spec.matched)])
+    for name, label, unit in (("mismatch_vbe", "ΔV_BE bound", "V"), ("mismatch_vth", "ΔV_th bound", "V")):
+        if getattr(spec, name):
+            rows.append([label, format_quantity(getattr(spec, name), unit)])
+    for name, label in (("mismatch_beta", "Δβ/β bound"), ("mismatch_k", "Δk/k bound")):
+        if getattr(spec, name):
+            rows.append([label, f"{getattr(spec, name):.2%}"])
+    if spec.p_max is not None:
+        rows.append(["dissipation limit", f"{format_quantity(spec.p_max, 'W')} per transistor"])
+    rows.append(["methods", ", ".join(result.methods) + f"; Monte Carlo {spec.samples} samples, seed {spec.seed}"
+                 if "Monte Carlo" in result.methods else ", ".join(result.methods)])
+    rows.append(["self-heating", "included" if result.self_heating else "not included"])
+    return rows
+
+
+def stress_text(evaluation):
+    """The hottest junction (or the largest dissipation) across compliance, in words."""
+    if evaluation.hottest is not None:
+        part, watts, at, junction = evaluation.hottest
+        model = evaluation.design.devices.get(part)
+        limit = getattr(model, "values", {}).get("t_j_max") if model is not None else None
+        text = (f"{part} dissipates {format_quantity(watts, 'W')} at a load voltage of {format_quantity(at, 'V')}, "
+                f"junction {format_temperature(junction)}")
+        if limit is not None:
+            below = limit - junction
+            text += (f" (its limit {format_temperature(limit)}: " +
+                     (f"{below:.1f} K to spare)" if below >= 0.05 else
+                      "at the limit)" if below > -0.05 else f"{-below:.1f} K OVER it)"))
+        return text + " — the worst point across the whole compliance range"
+    part, watts, at = evaluation.max_dissipation
+    return (f"{part} dissipates {format_quantity(watts, 'W')} at a load voltage of {format_quantity(at, 'V')} "
+            "— the most across the whole compliance range")
+
+
+def device_rows(design):
+    """``[part, kind, values used, source]`` per device of ``design``."""
+    words = design.vocabulary
+    rows = []
+    for name, model in design.devices.items():
+        texts = []
+        for key, value in model.values.items():
+            entry = words.get(f"{name}.{key}")
+            unit = entry.unit if entry is not None else ""
+            if unit == "K" and key.startswith("t_"):
+                texts.append(f"{key} {format_temperature(value)}")
+            elif unit:
+                texts.append(f"{key} {format_quantity(value, unit, 4)}")
+            else:
+                texts.append(f"{key} {value:g}")
+        kind = f"{model.kind.title} ({model.polarity})" if model.kind.title else model.polarity
+        rows.append([name, kind, ", ".join(texts), model.label or "the design's values"])
+    return rows
+
+
+def _schematic_svg(design):
+    """The schematic as SVG text, or ``""`` for a topology that has no drawing."""
+    if design.topology.draw is None:
+        return ""
+    from kit.report.schematic import render
+
+    return render(design).svg
 
 
 class ReviewSummary:
@@ -61,6 +176,12 @@ class ReviewSummary:
             "cautions": list(GENERAL) + cautions(evaluation),
             "spec": self._spec_rows(),
             "met": None if worst_case is None else bool(worst_case.met),
+            "verdict": "" if worst_case is None else worst_case.verdict(),
+            "reasons": [] if worst_case is None else list(worst_case.reasons()),
+            "spec_box": [] if worst_case is None else spec_box(worst_case),
+            "stress": stress_text(evaluation),
+            "devices": device_rows(design),
+            "schematic_svg": _schematic_svg(design),
         }
 
     def _spec_rows(self):

@@ -82,13 +82,14 @@ VALUES = (
     Value("r3", "Ω", "resistor from the − input to 0 V", 10e3, 1.0, 1e9, "resistor"),
     Value("r4", "Ω", "feedback resistor from the op-amp output to the − input", 10e3, 1.0, 1e9, "resistor"),
     Value("v_in", "V", "input voltage (either sign: the output current follows it)", 1.0, -100.0, 100.0),
-    Value("v_supply", "V", "op-amp supply magnitude, ±V_S (bounds the load voltages searched; the "
-          "output swing is U1's own)", 15.0, 0.5, 1000.0, "supply"),
+    Value("v_supply", "V", "op-amp supply magnitude, ±V_S (U1's output swing stays within it)",
+          15.0, 0.5, 1000.0, "supply"),
     common.load(2.0, "load-node voltage against 0 V (the grounded load's voltage)"),
 )
 
 # U1's defaults here: a general-purpose op-amp on ±15 V (generic values of our own).
-OPAMP_SPLIT = dict(a_ol=1e5, v_os=0.5e-3, v_os_tc=0.0, i_bias=20e-9, v_oh=13.5, v_ol=-13.5)
+# A general-purpose part's offset drifts a few µV/K (common practice, no source).
+OPAMP_SPLIT = dict(a_ol=1e5, v_os=0.5e-3, v_os_tc=5e-6, i_bias=20e-9, v_oh=13.5, v_ol=-13.5)
 
 DERIVED = "derived here (SymPy, nodal equations with the op-amp gain law)"
 PEASE = ("Pease, A Comprehensive Study of the Howland Current Pump, National Semiconductor AN-1515 "
@@ -99,15 +100,17 @@ def build(c):
     """Rails, the bridge, U1; closed forms solved from the circuit's own nodal equations."""
     import sympy as sp
 
-    c.parameter("v_supply")  # no equation uses it: it bounds the compliance search
     c.rail("0", 0)
+    # U1 runs from ±V_S: its output swing stays within them.
+    c.rail("vs_pos", c.parameter("v_supply"))
+    c.rail("vs_neg", -c.parameter("v_supply"))
     c.rail("in", c.parameter("v_in"))
     c.rail("out", c.parameter("v_load"))
     c.output("out", -1)  # out of the pump into the grounded load
     for node in ("p", "n", "o"):
         c.node(node)
     # The op-amp first: a driven node takes its driver before any other part.
-    u1 = c.add(OPAMP, "U1", p="p", n="n", o="o", typical=OPAMP_SPLIT)
+    u1 = c.add(OPAMP, "U1", p="p", n="n", o="o", vp="vs_pos", vn="vs_neg", typical=OPAMP_SPLIT)
     r1 = c.resistor("R1", "in", "p", "r1")
     r2a = c.resistor("R2a", "p", "out", "r2a")
     r2b = c.resistor("R2b", "o", "out", "r2b")
@@ -146,6 +149,7 @@ def draw(sheet, d):
     import schemdraw.elements as elm
 
     op = elm.Opamp(leads=True).label("U1", loc="center", ofst=(-0.35, 0))
+    op.label(f"supply ±{sheet.text('v_supply')}", loc="bottom", fontsize=10)
     minus, plus, out = op.in1, op.in2, op.out
     # − input: R3 to 0 V on the left, R4 over the top to the output.
     elm.Line().at(minus).left(0.5)

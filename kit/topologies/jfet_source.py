@@ -137,7 +137,8 @@ def draw(sheet, d):
     elm.Line().tox(rail_end)
     elm.Dot().at(rail_end)
     drawing.make_room(node.center, "right", sheet.label("r_s", "R_S"))
-    drawing.output_terminal(j1.drain, sink)
+    # a sink's load returns to the supply; a source's load to 0 V
+    drawing.output_terminal(j1.drain, sink, f"load to {sheet.supply('V_DD')}" if sink else None)
 
 
 # ---------------------------------------------------------------------------

@@ -157,7 +157,8 @@ def _loop(c, supply, opamp_typical):
     v_set = c.drifting("V_SET", "v_set", latex="V_{SET}", budget="set voltage V_SET")
     v_rail = c.voltages[supply]
     held_node(c, "set", v_set if sink else v_rail - v_set, ramped=(v_set,))
-    u1 = c.add(OPAMP, "U1", p="set", n="s", o="o", typical=opamp_typical)
+    # U1 runs from the circuit's own supply and 0 V: its output cannot pass them.
+    u1 = c.add(OPAMP, "U1", p="set", n="s", o="o", vp=supply, vn="0", typical=opamp_typical)
     a, v_os, i_b = u1["A"], u1["V_OS"], u1["I_B"]
     # The op-amp output is measured from 0 V, the set voltage of a source from the supply.
     if sink:
@@ -297,6 +298,8 @@ def _draw(sheet, d, mos):
     rail = f"{'V_DD' if mos else 'V_CC'} {sheet.text('v_supply')}"
     op = elm.Opamp(leads=True)
     op = (op.flip() if sink else op).label("U1", loc="center", ofst=(-0.35, 0))
+    # its supply: the circuit's rail and 0 V
+    op.label(f"supply {rail}", loc="top" if sink else "bottom", fontsize=10)  # clear of the feedback wire
     plus, minus = op.in2, op.in1
     elm.Line().at(plus).left(1.8)
     set_text = sheet.text("v_set")
