@@ -641,6 +641,20 @@ def panel_update(sizes):
     return measure_update(changes=sizes["panel_changes"], points=sizes["panel_points"])
 
 
+@benchmark(
+    "panel_load_step",
+    goals={"panel_load_step_ms": "<= 20"},
+    note="kernel side: the load-voltage slider stepped across compliance ({panel_changes} steps) on a "
+         "DesignPanel (divider source), compliance edges reused; median ms, {panel_points} points per curve",
+)
+def panel_load_step(sizes):
+    from kit.panels.timing import measure_update
+
+    steps = measure_update(changes=sizes["panel_changes"], points=sizes["panel_points"], value="v_load")
+    return {"panel_load_step_ms": steps["panel_update_ms"],
+            "panel_load_step_evaluate_ms": 1e3 * steps["panel_update_evaluate_s"]}
+
+
 def _timed_subprocess(command, env=None):
     start = time.perf_counter()
     result = subprocess.run(command, capture_output=True, text=True, env=env, cwd=ROOT)

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import shutil
 import signal
 import socket
@@ -178,6 +179,167 @@ def test_tour_panel_moves_with_typed_values(lab):
             # The slider's readout moved (a widget round trip through the kernel), and the
             # panel redrew: its text is not what it was.
             assert panel.inner_text() != before
+            assert not [e for e in errors if "Failed to load resource" not in e], errors
+        finally:
+            browser.close()
+
+
+# -- the panel on a laptop screen -----------------------------------------------------------------
+
+LAPTOP = {"width": 1280, "height": 800}
+SHOTS = ROOT / "artifacts" / "panel"
+
+_OUTSIDE = """(viewport) => {
+    const panel = document.querySelector('.biasbook-panel');
+    const out = [];
+    for (const e of [panel, ...panel.querySelectorAll('*')]) {
+        const r = e.getBoundingClientRect();
+        if (r.width === 0 || r.height === 0 || getComputedStyle(e).visibility === 'hidden') continue;
+        // Across: nothing cut at either side.  Down: the panel scrolls with the notebook, but
+        // no plot or input is taller than the screen.
+        const tall = (e.tagName === 'CANVAS' || e.tagName === 'INPUT' || e.tagName === 'SELECT')
+                     && r.height > viewport.height;
+        if (r.left < -0.5 || r.right > viewport.width + 0.5 || tall) {
+            out.push(`${e.tagName}.${e.className} ${Math.round(r.left)}..${Math.round(r.right)} ` +
+                     `h ${Math.round(r.height)}: ${(e.innerText || '').slice(0, 40)}`);
+        }
+    }
+    return out;}"""
+
+
+def _open_notebook(page, lab, name):
+    page.goto(f"{lab}/lab/tree/{name}?reset&token={TOKEN}")
+    _wait_idle(page)
+    # The file browser open beside the notebook, as a designer works.
+    if not page.locator(".jp-FileBrowser").first.is_visible():
+        page.locator("[data-id='filebrowser']").first.click()
+    page.click("text=Run")
+    page.click("text=Run All Cells")
+    time.sleep(3)
+    _wait_idle(page)
+    panel = page.locator(".biasbook-panel").first
+    panel.wait_for(timeout=120_000)
+    return panel
+
+
+def _to_top(page):
+    for _ in range(4):  # outputs above may still grow (typesetting): scroll until the panel stays on top
+        page.evaluate("() => document.querySelector('.biasbook-panel').scrollIntoView({block: 'start'})")
+        time.sleep(1)
+        if abs(page.evaluate("() => document.querySelector('.biasbook-panel').getBoundingClientRect().top")) < 150:
+            return
+
+
+def _tab(page, panel, title):
+    tab = panel.locator(".lm-TabBar-tab", has_text=title).first
+    tab.click()
+    time.sleep(1)
+    page.evaluate("() => document.querySelector('.biasbook-panel .lm-TabBar')"
+                  ".scrollIntoView({block: 'start'})")
+    time.sleep(0.5)
+
+
+# The text of the Bokeh tooltips on show (they live in shadow roots).
+_TOOLTIPS = """() => { const out = [];
+    const walk = (root) => { for (const e of root.querySelectorAll('*')) {
+        if (e.classList && e.classList.contains('bk-Tooltip') && e.getBoundingClientRect().width > 0) {
+            const c = (e.shadowRoot && e.shadowRoot.querySelector('.bk-tooltip-content'))
+                      || e.querySelector('.bk-tooltip-content');
+            if (c) out.push(c.innerText); }
+        if (e.shadowRoot) walk(e.shadowRoot); } };
+    walk(document); return out.join('\\n');}"""
+
+
+def _hover_text(page, panel):
+    """Move across the shown plot until a tooltip appears; its text."""
+    box = page.evaluate("""() => {
+        const shown = document.querySelector('.biasbook-panel .widget-tab-contents > :not(.lm-mod-hidden)');
+        const r = shown.getBoundingClientRect();
+        return {x: r.left, y: r.top, width: Math.min(r.width, 560), height: Math.min(r.height, 300)};}""")
+    for fx in (0.5, 0.4, 0.6, 0.3, 0.7, 0.2):
+        for fy in (0.5, 0.3, 0.7, 0.2, 0.8):
+            page.mouse.move(box["x"] + fx * box["width"], box["y"] + fy * box["height"])
+            time.sleep(0.3)
+            text = page.evaluate(_TOOLTIPS)
+            if text:
+                return text
+    return ""
+
+
+def test_panel_fits_a_laptop_and_speaks_every_device(lab):
+    from playwright.sync_api import sync_playwright
+
+    SHOTS.mkdir(parents=True, exist_ok=True)
+    errors = []
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
+            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        try:
+            page = browser.new_page(viewport=LAPTOP, accept_downloads=True)
+            page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            panel = _open_notebook(page, lab, "tour.ipynb")
+            assert page.locator(".jp-FileBrowser").first.is_visible()
+            _to_top(page)
+            page.screenshot(path=str(SHOTS / "tour-panel.png"))
+            assert not page.evaluate(_OUTSIDE, LAPTOP)
+
+            # Typed value with its tolerance: the field keeps both, the headline follows.
+            r_e = _field_showing(page, "2.2 kΩ")
+            r_e.fill("2k0 1%")
+            r_e.press("Enter")
+            design = kit.design("divider_source", "npn", r1="33k", r2="10k", r_e="2k0",
+                                v_supply="12 V", v_load="8 V")
+            expected = headline(kit.evaluate(design))["I_out"]
+            page.wait_for_function(f"() => document.querySelector('.biasbook-panel').innerText"
+                                   f".includes({json.dumps(expected)})", timeout=60_000)
+            _field_showing(page, "2 kΩ 1 %")
+
+            # Every tab opens; every plot hovers with a unit and saves its numbers as CSV.
+            current = r"I_out:\s*[-\d.]+ [mµ]?A\b"
+            units = {"load": (r"V_load:\s*[\d.]+ V\b", current), "β_F": (r"β_F:\s*[\d.]+", current),
+                     "temperature": (r"temperature:\s*[-\d.]+ °C", current),
+                     "sensitivities": (r"dI_out/dp:\s*[-\d.]+ [a-zµmkMG]?A(/|·)",),
+                     "tempco": (r"share:\s*[-+\d.]+ ppm/K",)}
+            for title, words in units.items():
+                _tab(page, panel, title)
+                shot = SHOTS / f"tab-{title.replace(' ', '-').replace('/', '')}.png"
+                page.screenshot(path=str(shot))
+                assert not page.evaluate(_OUTSIDE, LAPTOP), title
+                text = _hover_text(page, panel)
+                assert all(re.search(w, text) for w in words), (title, text)
+                with page.expect_download() as download:
+                    panel.locator(".bk-tool-icon-arrow-down-to-bar:visible").first.click()
+                csv_text = Path(download.value.path()).read_text()
+                rows = csv_text.strip().splitlines()
+                assert len(rows) > 2 and ("(" in rows[0] or "parameter" in rows[0]), (title, rows[:2])
+            for title in ("ledger", "circuit", "worst case", "standard values"):
+                _tab(page, panel, title)
+                page.screenshot(path=str(SHOTS / f"tab-{title.replace(' ', '-')}.png"))
+                assert not page.evaluate(_OUTSIDE, LAPTOP), title
+
+            # A bad value: one clear message, the value said once, the last good state kept.
+            r_e = _field_showing(page, "2 kΩ 1 %")
+            r_e.fill("abc")
+            r_e.press("Enter")
+            page.wait_for_function("() => document.querySelector('.biasbook-panel').innerText"
+                                   ".includes('Not applied')", timeout=60_000)
+            text = panel.inner_text()
+            assert text.count("r_e = 'abc'") == 1 and expected in text
+
+            # Switch to a MOSFET circuit: no bipolar control, no gain tab, MOSFET region words.
+            from kit.topologies import get
+
+            panel.locator("select").first.select_option(label=get("mos_mirror").title)
+            page.wait_for_function("() => document.querySelector('.biasbook-panel').innerText"
+                                   ".includes('saturation')", timeout=60_000)
+            time.sleep(2)
+            _to_top(page)
+            page.screenshot(path=str(SHOTS / "mos-panel.png"))
+            text = panel.inner_text()
+            assert "β" not in text, text  # no gain slider, no gain tab, no one-slider choice
+            assert not page.evaluate(_OUTSIDE, LAPTOP)
             assert not [e for e in errors if "Failed to load resource" not in e], errors
         finally:
             browser.close()

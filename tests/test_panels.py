@@ -204,23 +204,33 @@ def test_bad_text_names_the_parameter_and_keeps_the_last_good_state(panel, base,
     panel.fields["r_e"].text.value = text
     assert refused.value.parameter == "r_e"
     assert "r_e" in panel.message and refused.value.valid in panel.message
-    assert repr(text) in panel.message
+    assert str(refused.value) in panel.message  # the kit's own words, the value as it was read ...
+    assert panel.message.count("r_e =") == 1  # ... said once
     assert refused.value.valid in panel.message_line.value.replace("&#x27;", "'")
     assert_same_snapshot(before, snapshot(panel))
     assert panel.fields["r_e"].text.value == "2.2 kΩ"  # the field shows the design again
 
 
-def test_load_voltage_outside_compliance_keeps_the_last_good_state(panel, base):
+def test_load_slider_stays_inside_compliance(panel, base):
     slider = panel.sliders["v_load"].widget
-    outside = slider.max  # the slider reaches beyond the high edge of compliance
+    c = kit.evaluate(base).compliance
+    assert c.low.voltage <= slider.min < slider.max <= c.high.voltage
+    assert slider.max > c.high.voltage - 0.2 and slider.min < c.low.voltage + 0.2  # rounded inward, not cut
+    slider.value = slider.max  # the highest voltage it offers is accepted
+    assert panel.message == "" and panel.design.values["v_load"] == slider.max
+
+
+def test_load_voltage_outside_compliance_keeps_the_last_good_state(panel, base):
+    outside = kit.evaluate(base).compliance.high.voltage + 1.0  # typed: beyond the high edge
     with pytest.raises(OperatingPointError) as refused:
         kit.evaluate(base.with_values(v_load=outside))
     before = snapshot(panel)
-    slider.value = outside
+    assert not panel.update(v_load=outside)
     assert str(refused.value) in panel.message
+    assert panel.message.count("v_load =") == 1  # the value is said once
     assert "v_load" in panel.message and refused.value.valid in panel.message
     assert_same_snapshot(before, snapshot(panel))
-    assert slider.value == 8.0
+    assert panel.sliders["v_load"].widget.value == 8.0
 
 
 def test_unknown_name_lists_the_valid_ones(panel):
@@ -300,7 +310,7 @@ def spec_panel(base, spec):
 
 def test_spec_sets_the_series_and_the_plot_ranges(spec_panel, spec):
     assert spec_panel.series == "E24"  # the series customary for ±5 % parts (common practice, no source)
-    assert spec_panel.tabs.titles == ("Ledger", "Worst case", "Standard values")
+    assert spec_panel.tabs.titles[-2:] == ("worst case", "standard values")
     assert "900 µA" not in spec_panel.headline.value and "1.6 mA" in spec_panel.headline.value  # 2 mA - 20 %
 
 
@@ -357,3 +367,67 @@ def test_showing_the_panel_resends_drawings_changed_before_any_view(panel):
     assert roots[1] == roots[2] != roots[0]  # the present drawing, not the first one
     InteractiveShell.instance().display_formatter.format(panel)
     assert panel.bokeh["load"].render_bundle is resent  # nothing changed: nothing resent
+
+
+def test_a_load_step_reuses_the_edges_and_matches_a_fresh_evaluation(panel, base):
+    assert panel.update(v_load=5.0)
+    fresh = kit.evaluate(base.with_values(v_load=5.0))
+    shown = panel.evaluation
+    assert shown.compliance == fresh.compliance and shown.hottest == fresh.hottest
+    assert shown.i_out == fresh.i_out and shown.r_out == fresh.r_out and shown.tempco == fresh.tempco
+    assert [s.derivative for s in shown.sensitivities] == [s.derivative for s in fresh.sensitivities]
+    # A change of anything but the load voltage searches the edges again.
+    other = base.with_values(r_e="2k7")
+    assert kit.evaluate(other, reuse=fresh).compliance == kit.evaluate(other).compliance
+
+
+def test_typed_tolerance_reaches_the_field_and_the_worst_case_spec(spec_panel, base):
+    assert spec_panel.load(base)
+    assert spec_panel.update(r_e="4k7 2%")
+    assert spec_panel.design.values["r_e"] == 4700.0
+    assert spec_panel.fields["r_e"].text.value == "4.7 kΩ 2 %"
+    assert spec_panel.worst.spec.tolerances["r_e"] == pytest.approx(0.02)
+    assert not spec_panel.update(r_e="4k7 60%") and "tolerance of r_e" in spec_panel.message
+
+
+def test_switching_topology_carries_the_shared_values(panel, base):
+    assert panel.switch(topology="widlar_source")
+    assert panel.design.topology.key == "widlar_source"
+    assert panel.design.values["v_supply"] == base.values["v_supply"]
+    assert "r_e" in panel.fields and panel.design.values["r_e"] == base.values["r_e"]
+    assert panel.switch(topology="mos_mirror")
+    assert panel.design.polarity == "nmos"  # npn has no MOSFET counterpart by that name: the sink's word
+    assert not any("beta" in key for key in panel.sliders)
+    assert "β_F" not in panel.tabs.titles
+    assert all("β" not in w.description for w in panel.settings_box.children)
+
+
+def test_every_plot_exports_its_numbers_as_csv(panel, base):
+    import csv
+    import io
+
+    for name in ("load", "beta", "temp", "sensitivity", "tempco"):
+        rows = list(csv.reader(io.StringIO(panel.csv(name))))
+        assert len(rows) > 2, name
+    rows = list(csv.reader(io.StringIO(panel.csv("load"))))
+    v = np.array([float(r[0]) for r in rows[1:]])
+    i = np.array([float(r[1]) if r[1] else np.nan for r in rows[1:]])
+    np.testing.assert_allclose(i, exact(sweep(base, "v_load", v)), rtol=1e-12)
+    header = list(csv.reader(io.StringIO(panel.csv("sensitivity"))))[0]
+    assert header == ["parameter", "S (normalised)", "dI_out/dp"]
+    assert any(r[2].endswith("A/Ω") for r in list(csv.reader(io.StringIO(panel.csv("sensitivity"))))[1:])
+
+
+def test_every_new_notebook_opens_a_panel_with_the_records_spec():
+    from kit.review.forprint import SCREEN_ONLY_TAG
+    from kit.review.notebook import new_notebook
+
+    for top in kit.list_topologies():
+        design = kit.design(top.key)
+        notebook = new_notebook(design, record_path="design.toml")
+        cells = [c for c in notebook.cells if "DesignPanel(design, spec)" in c.source]
+        assert len(cells) == 1, top.key
+        assert SCREEN_ONLY_TAG in cells[0].metadata["tags"]  # on screen, not in the printed review
+        # ``spec`` is the record's (or None): defined before the panel cell.
+        before = "\n".join(c.source for c in notebook.cells[:notebook.cells.index(cells[0])])
+        assert "spec = getattr(record, 'spec', None)" in before

@@ -223,7 +223,7 @@ def _ledger(points, model, i_out, wanted):
     return tuple(out)
 
 
-def evaluate(design, *, edge="vce_sat"):
+def evaluate(design, *, edge="vce_sat", reuse=None):
     """Solve a design exactly and weigh everything a review asks of it.
 
     Parameters
@@ -231,6 +231,11 @@ def evaluate(design, *, edge="vce_sat"):
     design : kit.model.design.Design
     edge : {"vce_sat", "vcb_zero"}
         Saturation criterion for regions and compliance.
+    reuse : Evaluation, optional
+        An earlier evaluation of the same design at another load voltage: its
+        compliance edges and its dissipation across them are taken as they are
+        (neither depends on the load voltage), which saves the edge search.
+        Ignored unless only ``v_load`` differs.
 
     Returns
     -------
@@ -252,8 +257,9 @@ def evaluate(design, *, edge="vce_sat"):
     check_laws(model, values)  # device laws and resistors inside their domains
     check_drift(model, values)  # rails and reference currents keep their sign
     points = solve_points(model, values)
+    same = _same_but_load(reuse, design, values, edge)
     try:
-        compliance = find_compliance(model, values, edge=edge)
+        compliance = same.compliance if same else find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
     thermal = _thermal_runaway(model, values, compliance)
@@ -297,12 +303,17 @@ def evaluate(design, *, edge="vce_sat"):
         j = {k: float(v[0]) for k, v in points.junctions[part.name].items()}
         parts[part.name] = PartPoint(part.name, part.kind.key, part.polarity, str(regions[part.name][0]), j,
                                      float(points.dissipation[part.name][0]))
-    v_sweep = np.linspace(compliance.low.voltage, compliance.high.voltage, DISSIPATION_POINTS)
-    swept = sweep(design, "v_load", v_sweep)
-    power = dict(swept.dissipation)
-    biggest = max(power, key=lambda n: power[n].max())
-    k = int(np.argmax(power[biggest]))
-    hottest = _hottest(model, values, v_sweep, power)
+    if same:
+        v_sweep, power = same.dissipation_sweep
+        biggest, k = same.max_dissipation[0], int(np.argmax(power[same.max_dissipation[0]]))
+        hottest = same.hottest
+    else:
+        v_sweep = np.linspace(compliance.low.voltage, compliance.high.voltage, DISSIPATION_POINTS)
+        swept = sweep(design, "v_load", v_sweep)
+        power = dict(swept.dissipation)
+        biggest = max(power, key=lambda n: power[n].max())
+        k = int(np.argmax(power[biggest]))
+        hottest = _hottest(model, values, v_sweep, power)
     with np.errstate(divide="ignore"):  # an ideal part (V_A = inf) gives an infinite small-signal form
         extras = model.extras(points.x, points.q)
     return Evaluation(
@@ -330,6 +341,17 @@ def _thermal_runaway(model, values, compliance):
         return runaway_threshold(model, values, (compliance.low.voltage, compliance.high.voltage))
     except ConvergenceError:  # every load voltage across compliance runs away
         return RunawayThreshold(None, 1.0, (compliance.low.voltage, compliance.high.voltage), "everywhere")
+
+
+def _same_but_load(earlier, design, values, edge):
+    """``earlier`` if it evaluated this design at another load voltage with the same edge, else None."""
+    if earlier is None or earlier.edge != edge or earlier.design.topology is not design.topology \
+            or earlier.design.polarity != design.polarity:
+        return None
+    before = earlier.design.parameters()
+    if before.keys() != values.keys() or any(before[k] != v for k, v in values.items() if k != "v_load"):
+        return None
+    return earlier
 
 
 def _nearest_edge(compliance, v_load):

@@ -17,8 +17,10 @@ import numpy as np
 
 from kit.analysis.temperature import temperature_sweep
 from kit.analysis.evaluation import sweep
-from kit.quantities import kelvin_to_celsius
+from kit.quantities import format_quantity, kelvin_to_celsius
+from kit.report.units import format_with_unit, per
 from kit.panels import theme
+from kit.panels.entry import rounded
 
 POINTS = 200
 HEATED_POINTS = 41  # the self-heated sweep iterates per point: fewer points
@@ -81,6 +83,15 @@ def load_range(evaluation):
     pad = min(max(LOAD_PAD * (high - low), LOAD_PAD_LIMITS[0]), LOAD_PAD_LIMITS[1])
     v_load = evaluation.design.values["v_load"]
     return min(low - pad, v_load), max(high + pad, v_load)
+
+
+def load_slider_range(evaluation):
+    """The load voltages a slider offers: compliance, its edges rounded inward.
+
+    A slider never offers a voltage the kit would refuse (beyond an edge).
+    """
+    low, high = evaluation.compliance.low.voltage, evaluation.compliance.high.voltage
+    return rounded(low, low, high), rounded(high, low, high)
 
 
 def beta_range(design, spec, name):
@@ -219,10 +230,13 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
                                "bottom": [y_low] * len(spans), "top": [y_high] * len(spans),
                                "what": [s[2] for s in spans]}
     c = evaluation.compliance
+    # The low edge's words at the foot of its line, the high edge's at the head of its own:
+    # two edges close together never write over each other.
     columns["load_edges"] = {"x": [c.low.voltage, c.high.voltage], "y0": [y_low, y_low],
-                             "y1": [y_high, y_high], "y_text": [y_low, y_low],
-                             "text": [f"low edge: {c.low.describe()}", f"high edge: {c.high.describe()}"],
-                             "align": ["left", "right"], "offset": [4, -4]}
+                             "y1": [y_high, y_high], "y_text": [y_low, y_high],
+                             "text": [f"low edge {format_quantity(c.low.voltage, 'V', 4)}: {c.low.describe()}",
+                                      f"high edge {format_quantity(c.high.voltage, 'V', 4)}: {c.high.describe()}"],
+                             "align": ["left", "right"], "offset": [4, -4], "lift": [4, -14]}
     columns["load_point"] = {"x": [params["v_load"]], "y": [evaluation.i_out / factor],
                              "i_out": [evaluation.i_out]}
     # Titles start over the plot frame, not the axis: short enough for the frame of a printed page.
@@ -244,8 +258,7 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     else:
         columns["beta"] = {"beta": np.zeros(0), "i_out": np.zeros(0), "y": np.zeros(0)}
         columns["beta_point"] = {"x": [], "y": [], "i_out": []}
-        labels["beta"] = {"title": "No bipolar transistor here: β_F does not apply",
-                          "x": "β_F", "y": f"I_out ({unit})"}
+        labels["beta"] = {"title": "", "x": "", "y": ""}  # the panel shows no gain plot here
         band = None
     b_low_y, b_high_y = _extent(columns["beta"]["y"])
     columns["beta_band"] = _band(band, b_low_y, b_high_y)
@@ -275,6 +288,9 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     columns["sensitivity"] = {
         "name": [s.parameter for s in ranked], "value": [s.normalised for s in ranked],
         "text": [f"{s.normalised:+.3f}" for s in ranked],
+        # dI_out/dp in its own unit (A per the parameter's unit, composed and simplified)
+        "derivative": [format_with_unit(s.derivative, per("A", s.unit)) for s in ranked],
+        "at": [format_quantity(s.value, s.unit, 4) if s.unit else f"{s.value:.4g}" for s in ranked],
         "colour": [theme.RAISES if s.normalised >= 0 else theme.LOWERS for s in ranked],
         "anchor": ["left" if s.normalised >= 0 else "right" for s in ranked],
         "offset": [4 if s.normalised >= 0 else -4 for s in ranked]}
@@ -288,6 +304,7 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     ppm = [evaluation.tempco * 1e6] + [value * 1e6 for _, value in budget]
     columns["tempco"] = {
         "name": names, "value": ppm, "text": [f"{v:+.4g}" for v in ppm],
+        "with_unit": [format_quantity(v * 1e-6, "ppm/K", 4) for v in ppm],
         "colour": [theme.TOTAL] + [theme.RAISES if v >= 0 else theme.LOWERS for v in ppm[1:]],
         "anchor": ["left" if v >= 0 else "right" for v in ppm],
         "offset": [4 if v >= 0 else -4 for v in ppm]}

@@ -24,7 +24,7 @@ from kit.analysis import eseries
 from kit.errors import DesignError, ParameterError
 from kit.panels import curves, inputs, plots, theme, views
 from kit.panels.ledger import ledger_html
-from kit.quantities import celsius_to_kelvin, kelvin_to_celsius, parse_quantity
+from kit.quantities import celsius_to_kelvin, format_quantity, kelvin_to_celsius, parse_quantity
 
 TEMP_SLIDER = (-55.0, 150.0)  # °C
 BETA_SLIDER = (10.0, 2000.0)
@@ -94,6 +94,7 @@ class DesignPanel:
         self.series = series.upper()
         self.settings = settings or curves.Settings()
         self.message = ""
+        self.tolerances = {}  # resistor -> tolerance typed with its value ("4k7 5%")
         self.timings = {}
         self.last_error = None
         self._listeners = []
@@ -143,6 +144,42 @@ class DesignPanel:
     def load(self, design):
         """Show another design (any topology); returns True if it evaluates."""
         return self._apply(lambda: design, {"design": f"{design.topology.key} ({design.polarity})"})
+
+    def switch(self, topology=None, polarity=None):
+        """Show another topology or polarity, carrying over every value both circuits share.
+
+        The shared values are the topology values of the same name, the
+        temperature and the title; the rest start from the new topology's
+        defaults.  If a carried value does not suit the new circuit (a load
+        voltage beyond its compliance), that value starts from its default
+        too.  Returns True if the new design evaluates.
+        """
+        from kit.topologies import get
+
+        old = self.design
+        top = get(topology) if topology is not None else old.topology
+        if polarity is None or polarity not in top.polarities:
+            polarity = old.polarity if old.polarity in top.polarities else top.polarities[0]
+        names = {v.name for v in top.values}
+        shared = {k: v for k, v in old.values.items() if k in names}
+
+        def make():
+            carried = dict(shared)
+            while True:
+                design = kit.design(top.key, polarity, title=old.title, temp=old.temp, **carried)
+                try:
+                    kit.evaluate(design)
+                    return design
+                except DesignError as err:
+                    if err.parameter not in carried:
+                        raise
+                    carried.pop(err.parameter)  # this one does not suit the new circuit
+
+        return self._apply(make, {"topology": f"{top.key} ({polarity})"})
+
+    def csv(self, name):
+        """The numbers of plot ``name`` as CSV text (what its download button saves)."""
+        return plots.csv_text(name, self.sources)
 
     def step(self, name, direction):
         """Move resistor ``name`` to the next standard value up (+1) or down (-1)."""
@@ -229,12 +266,15 @@ class DesignPanel:
     # -- one way through: read, validate, compute, then show ----------------------
     def _apply(self, make_design, changes, *, settings=None, force=False):
         settings = settings or self.settings
+        self._pending_tolerances = {}
         try:
             design = make_design()
+            self._take_tolerances(self._pending_tolerances)
             if design == self.design and not force:
                 self._clear_message()
+                self._show_values()
                 return True
-            state = self._compute(design, settings)
+            state = self._compute(design, settings, reuse=self._state.evaluation if hasattr(self, "_state") else None)
         except DesignError as err:
             self._refuse(err, changes)
             return False
@@ -250,9 +290,15 @@ class DesignPanel:
         """The design with ``changes`` applied (validated by the kit); nothing is changed here."""
         design = self.design
         units = {v.name: v.unit for v in design.topology.values}
-        values, flat = {}, {}
+        values, flat, tolerances = {}, {}, {}
         for name, raw in changes.items():
             if name in units:
+                raw, tolerance = inputs.split_tolerance(raw, name)
+                if tolerance is not None:
+                    if design.topology.value(name).kind != "resistor":
+                        raise ParameterError("a tolerance belongs to a resistor", parameter=name, value=raw,
+                                             valid="a value without %")
+                    tolerances[name] = tolerance
                 values[name] = parse_quantity(raw, units[name], name=name)
             elif name == "temp":
                 flat["temp"] = parse_quantity(raw, "K", name="temp")
@@ -273,11 +319,23 @@ class DesignPanel:
             design = design.with_values(**values)
         for name, value in flat.items():
             design = design.with_parameter(name, value)
+        self._pending_tolerances = tolerances
         return design
 
-    def _compute(self, design, settings):
+    def _take_tolerances(self, tolerances):
+        """Keep typed tolerances; with a spec, the worst case uses them from now on."""
+        if not tolerances:
+            return
+        self.tolerances.update(tolerances)
+        if self.spec is not None:
+            self.spec = replace(self.spec, tolerances={**dict(self.spec.tolerances), **tolerances})
+            if self.worst is not None:
+                self.worst.spec = self.spec
+
+    def _compute(self, design, settings, reuse=None):
         start = time.perf_counter()
-        evaluation = kit.evaluate(design)
+        # A load-voltage step keeps the compliance edges: the kit reuses them when nothing else changed.
+        evaluation = kit.evaluate(design, reuse=reuse)
         headline = headline_of(evaluation)
         evaluated = time.perf_counter()
         data = curves.plot_data(design, evaluation, self.spec, settings)
@@ -294,6 +352,8 @@ class DesignPanel:
         key = (state.design.topology, state.design.polarity, self.settings.common_beta)
         if key != self._layout_key:
             self._build_inputs()
+            if self._layout_key is None or key[:2] != self._layout_key[:2]:
+                self._build_tabs()
             self._layout_key = key
         plots.fill(self.figures, self.sources, state.data)
         self.title.value = views.title_html(state.design)
@@ -309,8 +369,10 @@ class DesignPanel:
 
     # -- messages -------------------------------------------------------------------
     def _refuse(self, err, changes):
-        attempt = ", ".join(f"{k} = {v!r}" for k, v in changes.items())
         what = str(err) if isinstance(err, DesignError) else f"{type(err).__name__}: {err}"
+        # The kit's error names the value it refused; the attempt is said only when it does not.
+        said = isinstance(err, DesignError) and err.parameter in changes
+        attempt = "" if said else ", ".join(f"{k} = {self._said(k, v)}" for k, v in changes.items())
         self.message = (f"Not applied{': ' + attempt if attempt else ''}. {what}. "
                         "The panel still shows the last good design.")
         self.message_line.value = (
@@ -318,60 +380,97 @@ class DesignPanel:
             f'color:#5a1a1a;font-size:13px;line-height:1.35;white-space:normal">{display.escape(self.message)}</div>')
         self._show_values()  # undo what the widget shows
 
+    def _said(self, name, value):
+        """A refused value as the designer would write it: text as typed, a number with its unit."""
+        if isinstance(value, str) or isinstance(value, bool) or not isinstance(value, (int, float)):
+            return repr(value) if isinstance(value, str) else str(value)
+        unit = {v.name: v.unit for v in self.design.topology.values}.get(name, "K" if name == "temp" else "")
+        return format_quantity(value, unit, 4) if unit else f"{value:.4g}"
+
     def _clear_message(self):
         self.message = ""
         self.message_line.value = ""
 
     # -- widgets ----------------------------------------------------------------------
+    # The panel reads top to bottom as the kit works: the circuit chosen, the values
+    # put in, the numbers that come out, then every view of how they came out (the
+    # curves, the sensitivities, the equations with their ledger, the drawing).  Each
+    # band wraps, so a narrow notebook column reflows instead of cutting.
     def _build_widgets(self):
         from jupyter_bokeh.widgets import BokehModel
 
-        f = self.figures
-        self.title = widgets.HTML()
-        self.headline = widgets.HTML()
-        self.message_line = widgets.HTML()
-        self.schematic = widgets.HTML(layout=widgets.Layout(width="300px", min_width="240px"))
-        self.ledger = widgets.HTMLMath()
-        self.values_box = widgets.VBox()
-        self.conditions_box = widgets.VBox()
+        from kit.topologies import all_topologies
+
+        self.title = widgets.HTML(layout=widgets.Layout(flex="1 1 320px"))
+        self.headline = widgets.HTML(layout=widgets.Layout(width="100%"))
+        self.message_line = widgets.HTML(layout=widgets.Layout(width="100%"))
+        self.schematic = widgets.HTML(layout=widgets.Layout(max_width="560px"))
+        self.ledger = widgets.HTMLMath(layout=widgets.Layout(width="100%", overflow="auto"))
+        self.values_box = _wrap()
+        self.conditions_box = _wrap()
+        self.topology_choice = inputs.Echo(widgets.Dropdown(
+            options=[(t.title, t.key) for t in all_topologies()], value=self.design.topology.key,
+            description="circuit", style={"description_width": "52px"}, layout=widgets.Layout(width="300px")),
+            lambda key: self.switch(topology=key))
+        self.polarity_choice = inputs.Echo(widgets.ToggleButtons(
+            options=list(self.design.topology.polarities), value=self.design.polarity,
+            style={"button_width": "64px"}, layout=widgets.Layout(width="auto")),
+            lambda polarity: self.switch(polarity=polarity))
         self.series_choice = inputs.Echo(widgets.Dropdown(
             options=list(eseries.SERIES), value=self.series, description="stepper series",
-            style={"description_width": inputs.LABEL_WIDTH}, layout=widgets.Layout(width="290px")),
+            style={"description_width": "100px"}, layout=widgets.Layout(width="200px")),
             lambda value: self.configure(series=value))
         self.common_choice = inputs.Echo(widgets.Checkbox(
-            value=self.settings.common_beta, description="one β_F slider for all transistors", indent=False),
+            value=self.settings.common_beta, description="one β_F slider for all bipolar transistors",
+            indent=False, layout=widgets.Layout(width="auto")),
             lambda value: self.configure(common_beta=value))
         self.heating_choice = inputs.Echo(widgets.Checkbox(
-            value=self.settings.self_heating, description="add the self-heated curve (slower)",
-            indent=False), lambda value: self.configure(self_heating=value))
+            value=self.settings.self_heating, description="self-heated temperature curve (slower)",
+            indent=False, layout=widgets.Layout(width="auto")), lambda value: self.configure(self_heating=value))
         # One BokehModel per figure: each patch is serialised against its own small
         # document, several times faster than against one document of all five.
-        self.bokeh = {name: BokehModel(fig) for name, fig in f.items()}
-        self.plots = widgets.VBox([widgets.HBox([self.bokeh["load"], self.bokeh["sensitivity"]]),
-                                   widgets.HBox([self.bokeh["beta"], self.bokeh["temp"]]),
-                                   widgets.HBox([self.bokeh["tempco"]])])
-        heading = '<div style="font-weight:600;color:{c};margin:6px 0 2px">{t}</div>'
-        left = widgets.VBox([widgets.HTML(heading.format(c=theme.INK, t="Values")), self.values_box,
-                             widgets.HTML(heading.format(c=theme.INK, t="Conditions")), self.conditions_box,
-                             widgets.HTML(heading.format(c=theme.INK, t="Panel settings")),
-                             self.series_choice.widget, self.common_choice.widget, self.heating_choice.widget],
-                            layout=widgets.Layout(width="420px", min_width="420px"))
-        right = widgets.VBox([self.headline, self.message_line],
-                             layout=widgets.Layout(flex="1 1 0%", min_width="300px"))
-        self.top = widgets.HBox([left, self.schematic, right])
-        self.tabs = widgets.Tab()
-        self.widget = widgets.VBox([self.title, self.top, self.plots, self.tabs])
+        self.bokeh = {name: BokehModel(fig) for name, fig in self.figures.items()}
+        self.settings_box = _wrap()
+        head = widgets.Box([self.title, self.topology_choice.widget, self.polarity_choice.widget],
+                           layout=_band_layout(align_items="center"))
+        self.top = widgets.VBox([
+            head,
+            _heading("Values"), self.values_box, self.conditions_box,
+            _heading("Numbers"), self.message_line, self.headline,
+        ], layout=widgets.Layout(width="100%"))
+        self.plots = widgets.VBox([self.bokeh[name] for name in plots.FIGURES])
+        self.tabs = widgets.Tab(layout=widgets.Layout(width="100%"))
+        self.widget = widgets.VBox([widgets.HTML(_STYLE), self.top, _heading("How the numbers come about"),
+                                    self.tabs, self.settings_box],
+                                   layout=widgets.Layout(width="100%", max_width="1000px"))
+        self.widget.add_class("biasbook-panel")
 
     def _build_tabs(self):
-        children, titles = [self.ledger], ["Ledger"]
+        gains = curves.gain_transistors(self.design)
+        views_ = [("load", "load"), ("beta", "β_F"), ("temp", "temperature"),
+                  ("sensitivity", "sensitivities"), ("tempco", "tempco")]
+        children, titles = [], []
+        for name, title in views_:
+            if name == "beta" and not gains:
+                continue  # no bipolar transistor: no gain to sweep, no empty box
+            children.append(self.bokeh[name])
+            titles.append(title)
+        children += [self.ledger, self.schematic]
+        titles += ["ledger", "circuit"]
         if self.worst is not None:
             children += [self.worst.widget, self.search.widget]
-            titles += ["Worst case", "Standard values"]
+            titles += ["worst case", "standard values"]
+        before = self.tabs.titles[self.tabs.selected_index] if self.tabs.selected_index is not None \
+            and self.tabs.selected_index < len(self.tabs.titles) else None
         self.tabs.children = children
         self.tabs.titles = titles
+        # The same view stays open across a switch; the gain view, gone with the bipolar parts, gives way to the first.
+        self.tabs.selected_index = titles.index(before) if before in titles else 0
 
     def _build_inputs(self):
         design = self.design
+        self.topology_choice.show(design.topology.key)
+        self.polarity_choice.show(design.polarity, options=list(design.topology.polarities))
         self.fields = {}
         for spec in design.topology.values:
             stepper = self.step if spec.kind == "resistor" else None
@@ -382,7 +481,8 @@ class DesignPanel:
         gains = curves.gain_transistors(design)
         if gains and self.settings.common_beta:
             shown, _ = curves.swept_gains(design, self.settings)
-            self.sliders["beta"] = inputs.slider("β_F (all)", design.devices[shown].beta_f, *BETA_SLIDER,
+            label = "β_F (all)" if len(gains) > 1 else f"β_F of {gains[0]}"
+            self.sliders["beta"] = inputs.slider(label, design.devices[shown].beta_f, *BETA_SLIDER,
                                                  lambda v: self.update(beta=v), log=True)
         else:
             for name in gains:
@@ -390,7 +490,7 @@ class DesignPanel:
                     f"β_F of {name}", design.devices[name].beta_f, *BETA_SLIDER,
                     lambda v, key=f"{name}.beta_f": self.update(**{key: v}), log=True)
         self.sliders["temp"] = inputs.slider(
-            "temperature (°C)", kelvin_to_celsius(design.temp), *TEMP_SLIDER,
+            "ambient (°C)", kelvin_to_celsius(design.temp), *TEMP_SLIDER,
             lambda v: self.update(temp=celsius_to_kelvin(v)), step=0.5)
         for spec in design.topology.values:
             if spec.kind in ("supply", "load"):
@@ -398,17 +498,23 @@ class DesignPanel:
                 if spec.kind == "supply":
                     low, high = (max(spec.low, SUPPLY_SLIDER[0] * value), min(spec.high, SUPPLY_SLIDER[1] * value))
                 else:
-                    low, high = curves.load_range(self.evaluation)
+                    low, high = curves.load_slider_range(self.evaluation)
                 self.sliders[spec.name] = inputs.slider(
                     f"{spec.name} ({spec.unit})", value, low, high,
                     lambda v, key=spec.name: self.update(**{key: v}))
         self.conditions_box.children = [s.widget for s in self.sliders.values()]
+        settings = [self.heating_choice.widget]
+        if design.topology.resistors:
+            settings.insert(0, self.series_choice.widget)
+        if len(gains) > 1:  # the choice means something only with several bipolar transistors
+            settings.append(self.common_choice.widget)
+        self.settings_box.children = settings
 
     def _show_values(self):
         """Make every input show the present (last good) design."""
         design, evaluation = self.design, self.evaluation
         for name, field in self.fields.items():
-            field.show(design.values[name], self.series)
+            field.show(design.values[name], self.series, self.tolerances.get(name))
         for key, echo in self.sliders.items():
             if key == "beta":
                 shown, _ = curves.swept_gains(design, self.settings)
@@ -418,9 +524,30 @@ class DesignPanel:
             elif key == "temp":
                 inputs.show_slider(echo, kelvin_to_celsius(design.temp))
             elif design.topology.value(key).kind == "load":
-                inputs.show_slider(echo, design.values[key], *curves.load_range(evaluation))
+                inputs.show_slider(echo, design.values[key], *curves.load_slider_range(evaluation))
             else:
                 inputs.show_slider(echo, design.values[key])
         self.series_choice.show(self.series)
         self.common_choice.show(self.settings.common_beta)
         self.heating_choice.show(self.settings.self_heating)
+
+
+# Tabs as wide as their words, wrapping to a second row on a narrow column (none cut short).
+_STYLE = ("<style>.biasbook-panel .lm-TabBar-content{flex-wrap:wrap}"
+          ".biasbook-panel .lm-TabBar{min-height:var(--jp-widgets-horizontal-tab-height);height:auto;overflow:visible}"
+          ".biasbook-panel .lm-TabBar-tab{flex:0 0 auto;min-width:0;max-width:none}</style>")
+
+
+def _band_layout(**more):
+    return widgets.Layout(display="flex", flex_flow="row wrap", width="100%", grid_gap="2px 12px", **more)
+
+
+def _wrap(children=()):
+    """A band whose items wrap to the next line when the column is narrow."""
+    return widgets.Box(list(children), layout=_band_layout(align_items="flex-start"))
+
+
+def _heading(text):
+    return widgets.HTML(f'<div style="font-family:{theme.FONT};font-weight:600;color:{theme.INK};'
+                        f'border-bottom:1px solid #c9d3dc;margin:8px 0 2px">{display.escape(text)}</div>',
+                        layout=widgets.Layout(width="100%"))

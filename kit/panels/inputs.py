@@ -9,14 +9,15 @@ one) the widget remembers it, so that echo is not taken for a new input.
 from __future__ import annotations
 
 import math
+import re
 
 import ipywidgets as widgets
 
+from kit.panels.entry import rounded, split_tolerance  # noqa: F401 -- the panel reads both from here
 from kit.quantities import format_quantity
 
 FIELD_DIGITS = 6  # enough to show every E192 value and most typed ones unchanged
-LABEL_WIDTH = "150px"
-
+LABEL_WIDTH = "110px"
 
 class Echo:
     """A widget whose value the panel may set without triggering its callback.
@@ -76,8 +77,9 @@ class ValueField:
         unit = f" ({spec.unit})" if spec.unit else ""
         self.text = widgets.Text(
             value="", description=f"{spec.name}{unit}", continuous_update=False,
-            tooltip=spec.description, placeholder=spec.unit or "number",
-            style={"description_width": LABEL_WIDTH}, layout=widgets.Layout(width="290px"))
+            tooltip=spec.description + (" (a tolerance may follow: 4k7 5%)" if on_step else ""),
+            placeholder=spec.unit or "number",
+            style={"description_width": LABEL_WIDTH}, layout=widgets.Layout(width="250px"))
         self.echo = Echo(self.text, lambda text: on_text(spec.name, text))
         parts = [self.text]
         self.down = self.up = None
@@ -89,26 +91,31 @@ class ValueField:
             parts += [self.down, self.up]
         self.widget = widgets.HBox(parts)
 
-    def show(self, value, series=None):
-        self.echo.show(value_text(self.spec, value))
+    def show(self, value, series=None, tolerance=None):
+        text = value_text(self.spec, value)
+        if tolerance is not None:
+            text += f" {format_quantity(tolerance, '%', 3)}"
+        self.echo.show(text)
         if self.down is not None and series:
             self.down.tooltip = f"next lower {series} value"
             self.up.tooltip = f"next higher {series} value"
 
 
 def slider(description, value, low, high, callback, *, log=False, step=None, fmt=".3g"):
-    """A slider (logarithmic for a gain) whose callback fires on release."""
+    """A slider (logarithmic for a gain) whose callback fires on release with a rounded value."""
     style = {"description_width": LABEL_WIDTH}
-    layout = widgets.Layout(width="420px")
+    layout = widgets.Layout(width="380px")
     if log:
         widget = widgets.FloatLogSlider(value=value, base=10, min=math.log10(low), max=math.log10(high),
                                         step=0.005, description=description, continuous_update=False,
                                         readout_format=fmt, style=style, layout=layout)
+        return Echo(widget, lambda v: callback(rounded(v, low, high, log=True)))
     else:
         widget = widgets.FloatSlider(value=value, min=low, max=high, step=step or (high - low) / 400,
                                      description=description, continuous_update=False,
                                      readout_format=fmt, style=style, layout=layout)
-    return Echo(widget, callback)
+    # The bounds may move (a load slider follows compliance): round within the present ones.
+    return Echo(widget, lambda v: callback(rounded(v, widget.min, widget.max)))
 
 
 def show_slider(echo, value, low=None, high=None, *, log=False):

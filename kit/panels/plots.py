@@ -10,7 +10,8 @@ static copies a report draws.
 from __future__ import annotations
 
 import numpy as np
-from bokeh.models import ColumnDataSource, DataRange1d, FactorRange, HoverTool, LabelSet, Span
+from bokeh.models import (ColumnDataSource, CustomAction, CustomJS, DataRange1d, FactorRange, HoverTool,
+                          LabelSet, Span)
 from bokeh.plotting import figure
 
 from kit.panels import theme
@@ -52,13 +53,13 @@ def _load_figure(src):
                         line_dash="dashed", line_width=1.5, legend_label="compliance edges")
     fig.y_range.renderers = [edges]
     fig.add_layout(LabelSet(x="x", y="y_text", text="text", source=src["load_edges"], x_offset="offset",
-                            y_offset=4, text_align="align", text_font_size="10px", text_color=theme.EDGE))
+                            y_offset="lift", text_align="align", text_font_size="10px", text_color=theme.EDGE))
     fig.multi_line(xs="xs", ys="ys", source=src["load_forms"], line_color="colour", line_dash="dash",
                    line_width=2, legend_field="label")
     exact = fig.line("v_load", "y", source=src["load"], line_color=theme.INK, line_width=3,
                      legend_label="exact solve")
-    fig.add_tools(HoverTool(renderers=[exact], tooltips=[("V_load", "@v_load{0.000} V"),
-                                                         ("I_out", "@i_out{0.0000e}")]))
+    fig.add_tools(HoverTool(renderers=[exact], name="hover", mode="vline",
+                            tooltips=[("V_load", "@v_load{0.000} V"), ("I_out", "@y{0.000} A")]))
     _point(fig, src["load_point"])
     theme.style_legend(fig)
     legend = fig.legend[0]
@@ -72,7 +73,9 @@ def _load_figure(src):
 def _beta_figure(src):
     fig = _curve_figure()
     _band(fig, src["beta_band"], "spec range")
-    fig.line("beta", "y", source=src["beta"], line_color=theme.INK, line_width=3, legend_label="exact solve")
+    line = fig.line("beta", "y", source=src["beta"], line_color=theme.INK, line_width=3, legend_label="exact solve")
+    fig.add_tools(HoverTool(renderers=[line], name="hover", mode="vline",
+                            tooltips=[("β_F", "@beta{0.0}"), ("I_out", "@y{0.000} A")]))
     _point(fig, src["beta_point"])
     theme.style_legend(fig, "bottom_right")
     return fig
@@ -81,8 +84,10 @@ def _beta_figure(src):
 def _temp_figure(src):
     fig = _curve_figure()
     _band(fig, src["temp_band"], "spec range")
-    fig.line("temp_c", "y", source=src["temp"], line_color=theme.INK, line_width=3,
-             legend_label="exact, junctions at ambient")
+    line = fig.line("temp_c", "y", source=src["temp"], line_color=theme.INK, line_width=3,
+                    legend_label="exact, junctions at ambient")
+    fig.add_tools(HoverTool(renderers=[line], name="hover", mode="vline",
+                            tooltips=[("temperature", "@temp_c{0.0} °C"), ("I_out", "@y{0.000} A")]))
     fig.line("temp_c", "y", source=src["temp_heated"], line_color=theme.HEATED, line_width=2,
              line_dash="dashed", legend_label="exact, with self-heating")
     _point(fig, src["temp_point"])
@@ -90,18 +95,91 @@ def _temp_figure(src):
     return fig
 
 
-def _bar_figure(source, factors):
+def _bar_figure(source, factors, tooltips):
     fig = figure(width=theme.PLOT_WIDTH, height=theme.BAR_HEIGHT, tools="save,reset",
                  y_range=FactorRange(factors=list(factors)), x_axis_label="", y_axis_label="")
     theme.style_figure(fig)
-    fig.hbar(y="name", right="value", left=0, height=0.65, source=source, fill_color="colour",
-             line_color=None)
+    bars = fig.hbar(y="name", right="value", left=0, height=0.65, source=source, fill_color="colour",
+                    line_color=None)
+    fig.add_tools(HoverTool(renderers=[bars], name="hover", tooltips=tooltips))
     fig.add_layout(Span(location=0, dimension="height", line_color="#555555", line_width=1))
     fig.add_layout(LabelSet(x="value", y="name", text="text", source=source, x_offset="offset",
                             y_offset=-5, text_align="anchor", text_font_size="10px", text_color="#333333"))
     fig.ygrid.grid_line_color = None
-    fig.x_range.range_padding = 0.35  # room for the value labels beside the bars
+    fig.x_range.range_padding = 0.6  # room for the value labels beside the bars, either side
+    fig.min_border_right = 24
     return fig
+
+
+# What each figure's CSV holds: (source, column, header), SI units in the headers.
+CSV_COLUMNS = {
+    "load": [("load", "v_load", "V_load (V)"), ("load", "i_out", "I_out exact (A)")],
+    "beta": [("beta", "beta", "beta_F"), ("beta", "i_out", "I_out exact (A)")],
+    "temp": [("temp", "temp_c", "temperature (degC)"), ("temp", "i_out", "I_out exact (A)"),
+             ("temp_heated", "i_out", "I_out self-heated (A)")],
+    "sensitivity": [("sensitivity", "name", "parameter"), ("sensitivity", "value", "S (normalised)"),
+                    ("sensitivity", "derivative", "dI_out/dp")],
+    "tempco": [("tempco", "name", "mechanism"), ("tempco", "value", "contribution (ppm/K)")],
+}
+FORMS_CSV = {"load": "load_forms"}  # the hand formulas' currents, one column each (A)
+
+# Runs in the browser on the plot's own data: no round trip through the kernel.
+_CSV_JS = r"""
+const quote = (v) => {
+  const t = (v === null || v === undefined || (typeof v === 'number' && isNaN(v))) ? '' : String(v);
+  return /[",\n]/.test(t) ? '"' + t.replace(/"/g, '""') + '"' : t;
+};
+const cols = columns.map(([k, key, head]) => [head, Array.from(sources[k].data[key] || [])]);
+if (forms !== null) {
+  const labels = forms.data.label || [];
+  for (let j = 0; j < labels.length; j++) cols.push([labels[j] + ' (A)', Array.from(forms.data.i_out[j])]);
+}
+const rows = Math.max(0, ...cols.map((c) => c[1].length));
+const lines = [cols.map((c) => quote(c[0])).join(',')];
+for (let r = 0; r < rows; r++) lines.push(cols.map((c) => quote(c[1][r])).join(','));
+const blob = new Blob([lines.join('\n') + '\n'], {type: 'text/csv'});
+const link = document.createElement('a');
+link.href = URL.createObjectURL(blob);
+link.download = filename;
+document.body.appendChild(link);
+link.click();
+link.remove();
+"""
+
+
+def _add_csv_action(fig, name, sources):
+    used = {k for k, _, _ in CSV_COLUMNS[name]}
+    callback = CustomJS(args={"sources": {k: sources[k] for k in used},
+                              "columns": [list(c) for c in CSV_COLUMNS[name]],
+                              "forms": sources[FORMS_CSV[name]] if name in FORMS_CSV else None,
+                              "filename": f"biasbook-{name}.csv"}, code=_CSV_JS)
+    fig.add_tools(CustomAction(icon="arrow_down_to_bar", description="Save this plot's numbers as CSV",
+                               callback=callback, name="csv"))
+
+
+def csv_text(name, sources):
+    """The CSV the plot ``name``'s download button writes, from the same ``sources`` (for scripts and tests)."""
+    import csv
+    import io
+
+    cols = [(head, list(sources[k].data.get(key, []))) for k, key, head in CSV_COLUMNS[name]]
+    if name in FORMS_CSV:
+        forms = sources[FORMS_CSV[name]].data
+        cols += [(f"{label} (A)", list(ys)) for label, ys in zip(forms.get("label", []), forms.get("i_out", []))]
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow([head for head, _ in cols])
+    for r in range(max((len(c) for _, c in cols), default=0)):
+        writer.writerow(["" if r >= len(c) or _missing(c[r]) else _cell(c[r]) for _, c in cols])
+    return out.getvalue()
+
+
+def _missing(value):
+    return isinstance(value, float) and not np.isfinite(value)
+
+
+def _cell(value):
+    return repr(float(value)) if isinstance(value, (float, np.floating)) else str(value)
 
 
 def build(data=None):
@@ -116,8 +194,11 @@ def build(data=None):
     """
     sources = _empty_sources()
     figures = {"load": _load_figure(sources), "beta": _beta_figure(sources), "temp": _temp_figure(sources),
-               "sensitivity": _bar_figure(sources["sensitivity"], []),
-               "tempco": _bar_figure(sources["tempco"], [])}
+               "sensitivity": _bar_figure(sources["sensitivity"], [], [
+                   ("p", "@name (at @at)"), ("S", "@value{+0.000}"), ("dI_out/dp", "@derivative")]),
+               "tempco": _bar_figure(sources["tempco"], [], [("mechanism", "@name"), ("share", "@with_unit")])}
+    for name, fig in figures.items():
+        _add_csv_action(fig, name, sources)
     if data is not None:
         fill(figures, sources, data)
     return figures, sources
@@ -135,7 +216,14 @@ def fill(figures, sources, data):
         fig.xaxis.axis_label = texts["x"]
         fig.yaxis.axis_label = texts["y"]
     for name, factors in data.factors.items():
-        figures[name].y_range.factors = list(factors)
+        if list(figures[name].y_range.factors) != list(factors):
+            figures[name].y_range.factors = list(factors)
+    unit = data.scale[1]
+    for fig in (figures["load"], figures["beta"], figures["temp"]):
+        hover = next(t for t in fig.toolbar.tools if t.name == "hover")  # select_one walks every model: slow
+        tips = [(k, v.rsplit(" ", 1)[0] + f" {unit}" if k == "I_out" else v) for k, v in hover.tooltips]
+        if tips != list(hover.tooltips):  # the current's prefix follows the design (µA, mA)
+            hover.tooltips = tips
     for fig in figures.values():
         for legend in fig.legend:
             for item in legend.items:

@@ -24,7 +24,7 @@ PASS_COLOUR = "#2f6b3a"
 FAIL_COLOUR = "#9c2c2c"
 
 FONT = "Helvetica, Arial, sans-serif"
-PLOT_WIDTH = 520
+PLOT_WIDTH = 560
 PLOT_HEIGHT = 300
 LOAD_HEIGHT = 400  # the load plot carries its legend below
 BAR_HEIGHT = 300

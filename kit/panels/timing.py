@@ -11,14 +11,18 @@ import gc
 import statistics
 import time
 
+import numpy as np
+
 PHASES = ("evaluate", "sweeps", "views", "widgets")
 
 
-def measure_update(topology="divider_source", polarity="npn", changes=20, points=200, series="E24"):
+def measure_update(topology="divider_source", polarity="npn", changes=20, points=200, series="E24", value=None):
     """Median seconds of ``changes`` panel updates, in total and by phase.
 
     The value changed is the topology's first resistor, stepped through its
-    standard values around the default (a new design each time).  Phases:
+    standard values around the default (a new design each time); with
+    ``value="v_load"`` the load voltage, stepped across compliance as its
+    slider does (the compliance edges are then reused).  Phases:
     ``evaluate`` (:func:`kit.evaluate` and its headline), ``sweeps`` (the plot
     columns), ``views`` (schematic, ledger HTML), ``widgets`` (sources, axis
     texts and input widgets updated in place).
@@ -42,10 +46,15 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
     from kit.panels.design import DesignPanel
 
     design = kit.design(topology, polarity)
-    name = design.topology.resistors[0]
-    values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
-    values = [v for v in values if v != design.values[name]]
     panel = DesignPanel(design, settings=Settings(points=points))
+    if value == "v_load":
+        name = "v_load"
+        low, high = panel.sliders["v_load"].widget.min, panel.sliders["v_load"].widget.max
+        values = [float(v) for v in np.linspace(low, high, changes + 2)[1:-1]]
+    else:
+        name = design.topology.resistors[0]
+        values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
+        values = [v for v in values if v != design.values[name]]
     totals, phases = [], {phase: [] for phase in PHASES}
     enabled = gc.isenabled()
     for value in values[:changes]:
@@ -62,7 +71,8 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
         totals.append(elapsed)
         for phase in PHASES:
             phases[phase].append(panel.timings[phase])
-    out = {"panel_update_s": statistics.median(totals), "panel_updates": len(totals), "panel_points": points}
+    out = {"panel_update_s": statistics.median(totals), "panel_update_ms": 1e3 * statistics.median(totals),
+           "panel_updates": len(totals), "panel_points": points}
     out.update({f"panel_update_{phase}_s": statistics.median(v) for phase, v in phases.items()})
     # What the panel adds to the kit's own evaluation, as a ratio measured in this run.
     out["panel_update_over_evaluate"] = statistics.median(t / e for t, e in zip(totals, phases["evaluate"]))

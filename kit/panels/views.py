@@ -27,17 +27,20 @@ def title_html(design):
 
 
 def headline_html(evaluation, headline, spec=None):
-    """The headline numbers (``headline`` as the kit formats them), regions, edges and the spec band."""
-    rows = []
+    """The headline numbers (``headline`` as the kit formats them) as cards that wrap, then regions, edges, spec."""
+    cards = []
     for key, text in headline.items():
-        size = "20px" if key == "I_out" else "14px"
-        rows.append(f'<tr><td style="padding:2px 10px 2px 0;color:#555">{HEADLINE_LABELS.get(key, key)}</td>'
-                    f'<td style="padding:2px 0;font-size:{size};font-weight:600;color:{theme.INK};'
-                    f'font-variant-numeric:tabular-nums">{display.escape(text)}</td></tr>')
+        size = "22px" if key == "I_out" else "15px"
+        cards.append(f'<div style="flex:0 1 auto;min-width:120px;padding:3px 12px 3px 8px;border-left:3px solid '
+                     f'{theme.INK if key == "I_out" else "#c9d3dc"}"><div style="color:#555;font-size:12px">'
+                     f'{display.escape(HEADLINE_LABELS.get(key, key))}</div><div style="font-size:{size};'
+                     f'font-weight:600;color:{theme.INK};font-variant-numeric:tabular-nums;white-space:nowrap">'
+                     f'{display.escape(text)}</div></div>')
     c = evaluation.compliance
     regions = ", ".join(f"{n} {r}" for n, r in evaluation.regions.items())
     notes = [display.escape(f"at {format_temperature(evaluation.design.temp)}; {regions}"),
-             display.escape(f"low edge: {c.low.describe()}; high edge: {c.high.describe()}")]
+             display.escape(f"low edge {format_quantity(c.low.voltage, 'V', 4)}: {c.low.describe()}; "
+                            f"high edge {format_quantity(c.high.voltage, 'V', 4)}: {c.high.describe()}")]
     if spec is not None:
         low, high = spec.limits
         inside = low <= evaluation.i_out <= high
@@ -45,7 +48,7 @@ def headline_html(evaluation, headline, spec=None):
         notes.append(f'<span style="color:{colour};font-weight:600">spec {format_quantity(low, "A", 4)} … '
                      f'{format_quantity(high, "A", 4)}: nominal {"inside" if inside else "outside"}</span>')
     return (f'<div style="font-family:{theme.FONT};font-size:13px;line-height:1.35;white-space:normal">'
-            f'<table>{"".join(rows)}</table>'
+            f'<div style="display:flex;flex-wrap:wrap;gap:6px 10px">{"".join(cards)}</div>'
             + "".join(f'<div style="color:#444;margin-top:3px">{n}</div>' for n in notes) + "</div>")
 
 

@@ -56,7 +56,7 @@ class WorstCaseView:
     """Worst case of the panel's design against ``spec`` (run with :meth:`run`)."""
 
     def __init__(self, panel, spec):
-        from bokeh.models import ColumnDataSource, FactorRange, LabelSet
+        from bokeh.models import ColumnDataSource, FactorRange, HoverTool, LabelSet
         from bokeh.plotting import figure
         from jupyter_bokeh.widgets import BokehModel
 
@@ -68,8 +68,12 @@ class WorstCaseView:
                         "budget": ColumnDataSource(data={"name": [], "share": [], "text": []})}
         hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="pan,box_zoom,reset,save",
                       title="Monte Carlo: not run yet", x_axis_label="I_out", y_axis_label="samples")
-        hist.quad(left="left", right="right", bottom=0, top="top", source=self.sources["histogram"],
-                  fill_color="colour", line_color="white", legend_label="solved samples (red: outside the limits)")
+        bars = hist.quad(left="left", right="right", bottom=0, top="top", source=self.sources["histogram"],
+                         fill_color="colour", line_color="white",
+                         legend_label="solved samples (red: outside the limits)")
+        self.hist_hover = HoverTool(renderers=[bars], tooltips=[("I_out", "@left{0.000} … @right{0.000} A"),
+                                                                ("samples", "@top")])
+        hist.add_tools(self.hist_hover)
         hist.segment(x0="x", x1="x", y0=0, y1="y1", source=self.sources["limits"], line_color=theme.LIMIT,
                      line_width=2, line_dash="dashed", legend_label="spec limits")
         hist.add_layout(LabelSet(x="x", y="y1", text="text", source=self.sources["limits"], x_offset=3,
@@ -82,8 +86,10 @@ class WorstCaseView:
         budget = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="save",
                         y_range=FactorRange(factors=[]), title="Error budget: each factor alone (exact solve)",
                         x_axis_label="share of the summed swings (%)", y_axis_label="factor")
-        budget.hbar(y="name", right="share", left=0, height=0.65, source=self.sources["budget"],
-                    fill_color=theme.RAISES, line_color=None)
+        shares = budget.hbar(y="name", right="share", left=0, height=0.65, source=self.sources["budget"],
+                             fill_color=theme.RAISES, line_color=None)
+        budget.add_tools(HoverTool(renderers=[shares], tooltips=[("factor", "@name"), ("share", "@share{0.0} %"),
+                                                                 ("swing of I_out", "@text")]))
         budget.add_layout(LabelSet(x="share", y="name", text="text", source=self.sources["budget"], x_offset=4,
                                    y_offset=-5, text_font_size="10px"))
         budget.x_range.range_padding = 0.35
@@ -96,7 +102,8 @@ class WorstCaseView:
         self.table = widgets.HTML()
         self.bokeh = {"histogram": BokehModel(hist), "budget": BokehModel(budget)}
         self._drawn = None  # the result the BokehModels were last sent with
-        self.plots = widgets.HBox(list(self.bokeh.values()))
+        # Hidden until a run fills them: no empty plot boxes.
+        self.plots = widgets.Box(list(self.bokeh.values()), layout=widgets.Layout(display="none", flex_flow="row wrap"))
         self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.table, self.plots])
         panel.on_change(self._design_changed)
 
@@ -124,9 +131,11 @@ class WorstCaseView:
         self.figures["budget"].y_range.factors = [b.label for b in ranked]
         hist = self.figures["histogram"]
         hist.xaxis.axis_label = f"I_out ({unit})"
+        self.hist_hover.tooltips = [("I_out", f"@left{{0.000}} … @right{{0.000}} {unit}"), ("samples", "@top")]
         hist.title.text = (f"Monte Carlo: {mc.detail['samples']} samples × {mc.detail['condition_points']} "
                            f"condition points; yield {mc.detail['yield']:.2%}")
         self.table.value = self._table_html(result)
+        self.plots.layout.display = "flex"
         self.status.value = _status(f"Result for the design as it is now ({self._values_text(design)}).")
         return result
 
@@ -218,7 +227,7 @@ class SynthesisView:
         for key, reasons in result.infeasible.items():
             rows.append(widgets.HTML(_status(f"{key} cannot meet the spec: {'; '.join(reasons)}", error=True)))
         self.rows.children = rows
-        self.status.value = _status(f"{len(result.candidates)} candidate(s) in {result.series} values, "
+        self.status.value = _status(f"{_count(len(result.candidates), 'candidate')} in {result.series} values, "
                                     "ranked by extreme-value margin.")
         return result
 
@@ -231,3 +240,8 @@ class SynthesisView:
                 f'({d.polarity.upper()})</b> {_verdict(c.passed)} margin {c.margin:+.2%}; nominal '
                 f'{format_quantity(c.nominal, "A", 4)}, worst case {format_quantity(c.low, "A", 4)} … '
                 f'{format_quantity(c.high, "A", 4)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+
+
+def _count(n, noun):
+    """``"no candidate"``, ``"1 candidate"``, ``"3 candidates"``."""
+    return f"no {noun}" if n == 0 else f"{n} {noun}" + ("" if n == 1 else "s")

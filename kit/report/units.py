@@ -56,3 +56,23 @@ def per(numerator, denominator):
     for name, power in parse_unit(denominator).items():
         powers[name] = powers.get(name, 0) - power
     return write_unit({k: v for k, v in powers.items() if v})
+
+
+def format_with_unit(value, unit, digits=4):
+    """``value`` in ``unit`` for a person: SI prefix on a plain unit, none on a power or a bare number.
+
+    A prefix on ``V²`` would be read two ways (mV² as m·V² or as (mV)²), so a
+    unit with a power gets powers of ten instead; a dimensionless value gets none.
+
+    Examples
+    --------
+    >>> format_with_unit(-2.86e-8, "A/Ω"), format_with_unit(0.9979, ""), format_with_unit(-9.979e-3, "V²")
+    ('-28.6 nA/Ω', '0.9979', '-0.009979 V²')
+    """
+    from kit.quantities import format_quantity
+
+    if not unit:
+        return f"{value:.{digits}g}"
+    if any(mark in unit for mark in ("²", "³", "^")):
+        return f"{value:.{digits}g} {unit}"
+    return format_quantity(value, unit, digits)

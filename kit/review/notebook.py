@@ -23,6 +23,13 @@ def _code(source, *, hide=False):
     return cell
 
 
+def _screen_only(cell):
+    from kit.review.forprint import SCREEN_ONLY_TAG
+
+    cell.metadata.setdefault("tags", []).append(SCREEN_ONLY_TAG)
+    return cell
+
+
 def _markdown(text):
     import nbformat
 
@@ -66,6 +73,16 @@ for key, colour in zip(forms, ("#e76f51", "#e9c46a", "#8ab17d", "#6d597a", "#b56
 plot.add_layout(plot.legend[0], "below")
 show(plot)'''
 
+
+PANEL_CELL = """\
+# NBVAL_IGNORE_OUTPUT
+from kit.panels import DesignPanel
+panel = DesignPanel(design, spec)
+panel"""
+
+PANEL_TEXT = ("## The design panel\n\nType a value (`4k7`, `4k7 5%`), step a resistor, move a slider, switch "
+              "the circuit or its polarity: every number, curve and tab follows the kit's exact solve. "
+              "On screen only; the printed review keeps the sections above and below.")
 
 HISTOGRAM_CELL = '''\
 # NBVAL_IGNORE_OUTPUT
@@ -136,6 +153,8 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
               "evaluation"),
         _markdown("## Across compliance"),
         _code(SWEEP_CELL),
+        _screen_only(_markdown(PANEL_TEXT)),
+        _screen_only(_code(PANEL_CELL)),
     ]
     if has_spec or record_path is not None:
         cells += [_markdown("## Worst case against the specification"),
