@@ -223,6 +223,27 @@ def _ledger(points, model, i_out, wanted):
     return tuple(out)
 
 
+def own_rail_loads(design, sinks, low, high):
+    """``(low, high, words)``: the part of compliance a load on the circuit's own rails gives.
+
+    A load returned to the supply puts a sink's output at most at the supply;
+    a source's load returned to 0 V puts its output at least at 0 V.  Beyond
+    that a load needs a rail of its own, so the stress a reviewer reads first
+    is quoted inside this range (a bidirectional pump keeps its whole range).
+
+    Examples
+    --------
+    >>> import kit
+    >>> own_rail_loads(kit.design("divider_source"), True, 2.3, 42.1)
+    (2.3, 12.0, 'up to the supply (a sink)')
+    """
+    if len(design.topology.polarities) != 2:
+        return low, high, "across compliance"
+    if sinks:
+        return low, min(high, design.values["v_supply"]), "up to the supply (a sink)"
+    return max(low, 0.0), high, "from 0 V (a source)"
+
+
 def evaluate(design, *, edge="vce_sat", reuse=None):
     """Solve a design exactly and weigh everything a review asks of it.
 
@@ -311,9 +332,16 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
         v_sweep = np.linspace(compliance.low.voltage, compliance.high.voltage, DISSIPATION_POINTS)
         swept = sweep(design, "v_load", v_sweep)
         power = dict(swept.dissipation)
-        biggest = max(power, key=lambda n: power[n].max())
-        k = int(np.argmax(power[biggest]))
-        hottest = _hottest(model, values, v_sweep, power)
+        # The headline's stress: only load voltages a load on the circuit's own rails
+        # can give (not "1 W at 51 V" on a 24 V rail); the sweep keeps the whole range.
+        low, high, _ = own_rail_loads(design, model.output_sign > 0, compliance.low.voltage,
+                                      compliance.high.voltage)
+        inside = (v_sweep >= low - 1e-12) & (v_sweep <= high + 1e-12)
+        if not inside.any():
+            inside[:] = True
+        biggest = max(power, key=lambda n: power[n][inside].max())
+        k = int(np.flatnonzero(inside)[np.argmax(power[biggest][inside])])
+        hottest = _hottest(model, values, v_sweep[inside], {n: w[inside] for n, w in power.items()})
     with np.errstate(divide="ignore"):  # an ideal part (V_A = inf) gives an infinite small-signal form
         extras = model.extras(points.x, points.q)
     return Evaluation(

@@ -35,7 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.analysis.evaluation import evaluate, model_of, sweep
+from kit.analysis.evaluation import evaluate, model_of, own_rail_loads, sweep
 from kit.errors import ParameterError
 from kit.model.compliance import find_compliance
 
@@ -189,8 +189,7 @@ def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge=
     for change in corners:
         other = find_compliance(model, values | change, edge=edge)
         low, high = max(low, other.low.voltage), min(high, other.high.voltage)
-    load_range, load_source = _load_range(v_load, model.output_sign > 0, values["v_supply"], (low, high),
-                                          load_source)
+    load_range, load_source = _load_range(v_load, design, model.output_sign > 0, (low, high), load_source)
 
     grid = np.linspace(*load_range, LOAD_POINTS)
     curves = {"v_load": grid, "nominal": _currents(design, grid, {})}
@@ -246,7 +245,7 @@ def _with_beta(bipolar, value):
     return {f"{name}.beta_f": value for name in bipolar}
 
 
-def _load_range(v_load, sinks, supply_voltage, edges, given):
+def _load_range(v_load, design, sinks, edges, given):
     low, high = edges
     if low >= high:
         raise ParameterError("no load voltage keeps every gain in compliance", parameter="beta",
@@ -257,11 +256,10 @@ def _load_range(v_load, sinks, supply_voltage, edges, given):
             raise ParameterError("load range leaves compliance at some gain", parameter="v_load",
                                  value=(a, b), valid=f"{low:.4g} … {high:.4g} V")
         return (a, b), given
-    if sinks:
-        top = min(high, supply_voltage)
-        return (low, top), "low compliance edge up to the supply (a sink)"
-    bottom = max(low, 0.0)
-    return (bottom, high), "0 V up to the high compliance edge (a source)"
+    a, b, words = own_rail_loads(design, sinks, low, high)
+    ends = {"up to the supply (a sink)": "low compliance edge up to the supply (a sink)",
+            "from 0 V (a source)": "0 V up to the high compliance edge (a source)"}
+    return (a, b), ends.get(words, words)
 
 
 def _currents(design, v_load, change):

@@ -113,10 +113,19 @@ def stress_text(evaluation):
             text += (f" (its limit {format_temperature(limit)}: " +
                      (f"{below:.1f} K to spare)" if below >= 0.05 else
                       "at the limit)" if below > -0.05 else f"{-below:.1f} K OVER it)"))
-        return text + " — the worst point across the whole compliance range"
+        return text + f" — the worst point for a load on the circuit's own rails ({_range_words(evaluation)})"
     part, watts, at = evaluation.max_dissipation
     return (f"{part} dissipates {format_quantity(watts, 'W')} at a load voltage of {format_quantity(at, 'V')} "
-            "— the most across the whole compliance range")
+            f"— the most for a load on the circuit's own rails ({_range_words(evaluation)})")
+
+
+def _range_words(evaluation):
+    from kit.analysis.evaluation import own_rail_loads
+
+    c = evaluation.compliance
+    low, high, words = own_rail_loads(evaluation.design, evaluation.points.model.output_sign > 0,
+                                      c.low.voltage, c.high.voltage)
+    return f"{words}: {format_quantity(low, 'V')} … {format_quantity(high, 'V')}"
 
 
 def device_rows(design):
