@@ -125,7 +125,7 @@ _MEASURE_PAGE = r"""
   const clipsX = (style) => style.overflowX !== "visible";
   // The CSS 'clip' rectangle of an absolutely positioned element, in page coordinates.
   const clipRect = (el, style) => {
-    const m = /^rect\(([^)]*)\)$/.exec(style.clip || "");
+    const m = /^rect\(([^)]*)\)$/.exec(style.clip || "");  /* # safe: a JavaScript RegExp, not Python exec */
     if (!m || !["absolute", "fixed"].includes(style.position)) return null;
     const r = el.getBoundingClientRect();
     const [t, ri, b, l] = m[1].split(/[ ,]+/).map((v) => (v === "auto" ? null : parseFloat(v)));
