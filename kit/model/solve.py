@@ -328,7 +328,8 @@ def check_drift(model, values):
         feeds.setdefault(j, []).append(model.parameter_names[k])
     rise = values["temp"] - values["t_ref"]
     for j in watched:
-        if reference[j] != 0 and not q[j] * reference[j] > 0:
+        # signs, not a product: a tiny value squared underflows to zero
+        if reference[j] != 0 and np.sign(q[j]) != np.sign(reference[j]):
             coefficient = next((n for n in feeds.get(j, ()) if n.endswith("_tc") or n.startswith("tcr_")), "temp")
             limit = -1.0 / rise if rise else math.inf
             valid = (f"> {limit:.4g} 1/K at temp = {values['temp']:.5g} K" if rise > 0

@@ -267,8 +267,8 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     i_temp = _exact(points, temp)
     t_celsius = kelvin_to_celsius(t_axis)
     columns["temp"] = {"temp_c": t_celsius, "temp": t_axis, "i_out": i_temp, "y": i_temp / factor}
-    if settings.self_heating:
-        heated = temperature_sweep(design, (t_low, t_high), points=HEATED_POINTS)
+    heated, heated_end = (_heated_sweep(design, t_low, t_high) if settings.self_heating else (None, ""))
+    if heated is not None:
         columns["temp_heated"] = {"temp_c": kelvin_to_celsius(heated.temps), "temp": heated.temps,
                                   "i_out": heated.i_out_heated, "y": heated.i_out_heated / factor}
     else:
@@ -280,7 +280,7 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     columns["temp_band"] = _band(None if t_spec is None else tuple(kelvin_to_celsius(np.array(t_spec))),
                                  t_low_y, t_high_y)
     labels["temp"] = {"title": "Output current against temperature" + (" (spec range shaded)" if t_spec else ""),
-                      "x": "temperature (°C)", "y": f"I_out ({unit})"}
+                      "x": "temperature (°C)" + heated_end, "y": f"I_out ({unit})"}
 
     # 4. normalised sensitivities, largest on top
     ranked = sorted((s for s in evaluation.sensitivities if s.parameter != "temp"),
@@ -320,3 +320,24 @@ def _band(bounds, low, high):
     if bounds is None:
         return {"left": [], "right": [], "bottom": [], "top": []}
     return {"left": [bounds[0]], "right": [bounds[1]], "bottom": [low], "top": [high]}
+
+
+def _heated_sweep(design, t_low, t_high):
+    """The self-heated sweep, ended below the temperature where a part leaves its limits.
+
+    Returns ``(sweep or None, words for the axis)``: a hot design (a pass device at
+    its dissipation limit at 104 °C) still shows its curve up to there, and says so.
+    """
+    from kit.errors import DesignError
+
+    try:
+        return temperature_sweep(design, (t_low, t_high), points=HEATED_POINTS), ""
+    except DesignError as err:
+        if err.parameter != "temp" or not isinstance(err.value, float) or err.value - 1.0 <= t_low:
+            return None, f"; no self-heated curve: {err.message}"
+        end = err.value - 1.0
+        words = f"; self-heated curve ends at {kelvin_to_celsius(end):.0f} °C: {err.message}"
+    try:
+        return temperature_sweep(design, (t_low, end), points=HEATED_POINTS), words
+    except DesignError as err:
+        return None, f"; no self-heated curve: {err.message}"

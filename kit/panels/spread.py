@@ -26,7 +26,7 @@ CURVES = (("low", "β low", theme.FORMS[0], "dashed"),
           ("high", "β high", theme.FORMS[1], "dotdash"))
 
 
-def spread_figure(result, *, width=theme.PLOT_WIDTH + 140, height=theme.PLOT_HEIGHT):
+def spread_figure(result, *, width=theme.PLOT_WIDTH + 60, height=theme.PLOT_HEIGHT):
     """A Bokeh figure of ``result.curves`` (load voltage in V, current scaled to 1 … 999)."""
     factor, unit = theme.current_scale(result.i_out)
     v = result.curves["v_load"]
