@@ -128,6 +128,18 @@ def _range_words(evaluation):
     return f"{words}: {format_quantity(low, 'V')} … {format_quantity(high, 'V')}"
 
 
+def _stress_words(evaluation, worst_case):
+    """Inside the spec when a worst case ran (never a load voltage it excludes), else on the own rails."""
+    if worst_case is not None and getattr(worst_case, "stress", None):
+        from kit.report.worstcase import stress_headline
+
+        inside = stress_headline(worst_case)
+        prefix = "stress inside the spec: "
+        if inside.startswith(prefix):
+            return inside[len(prefix):] + " — the most inside the spec"
+    return stress_text(evaluation)
+
+
 def device_rows(design):
     """``[part, kind, values used, source]`` per device of ``design``."""
     words = design.vocabulary
@@ -188,7 +200,7 @@ class ReviewSummary:
             "verdict": "" if worst_case is None else worst_case.verdict(),
             "reasons": [] if worst_case is None else list(worst_case.reasons()),
             "spec_box": [] if worst_case is None else spec_box(worst_case),
-            "stress": stress_text(evaluation),
+            "stress": _stress_words(evaluation, worst_case),
             "devices": device_rows(design),
             "schematic_svg": _schematic_svg(design),
         }
