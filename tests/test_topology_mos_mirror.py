@@ -28,6 +28,7 @@ import pytest
 from scipy.optimize import brentq
 
 import kit
+from wording import assert_no_bipolar_words
 from kit.analysis.evaluation import model_of, sweep
 from kit.errors import OperatingPointError, ParameterError
 from kit.model.solve import solve_points
@@ -203,15 +204,7 @@ def test_mirror_speaks_mosfet_words(polarity, evaluations):
     assert top.polarities == POLARITIES and s.part("M2").polarity == polarity
     assert ev.regions == {"M1": "saturation", "M2": "saturation"}
     assert s.hand_parameters == ()
-    words = [ev.compliance.low.text, ev.compliance.high.text, top.description, top.title]
-    words += list(top.notes) + [v.description for v in top.values]
-    words += [label for pair in s.labels.values() for label in pair]
-    words += [f.label for f in s.closed_forms] + [a for f in s.closed_forms for a in f.assumption_texts]
-    words += [label for _, label in s.extras] + [label for label, _ in ev.tempco_budget]
-    text = " ".join(words).lower().replace("{", "").replace("}", "")
-    for bipolar in ("npn", "pnp", "beta", "β", "forward active", "ebers", "moll", "base", "collector",
-                    "emitter", "v_be", "v_cc"):
-        assert bipolar not in text, bipolar
+    assert_no_bipolar_words(ev, top)
 
 
 @pytest.mark.parametrize("name, bad", [("w_ratio", 0.0), ("i_ref", -1e-6), ("v_supply", 0.0)])

@@ -33,6 +33,7 @@ import sympy as sp
 from scipy.optimize import brentq
 
 import kit
+from wording import assert_no_bipolar_words
 from kit.analysis.evaluation import model_of, sweep
 from kit.devices import KINDS
 from kit.errors import OperatingPointError, ParameterError
@@ -432,16 +433,7 @@ def test_mosfet_loop_speaks_mosfet_words(polarity, evaluations):
     assert ev.design.polarity == polarity and s.part("M1").polarity == polarity
     assert ev.regions == {"U1": "linear", "M1": "saturation"}
     assert s.hand_parameters == ()
-    words = [ev.compliance.low.text, ev.compliance.high.text, kit.topology("opamp_mos_source").description]
-    words += list(kit.topology("opamp_mos_source").notes)
-    words += [v.description for v in kit.topology("opamp_mos_source").values]
-    words += [label for pair in s.labels.values() for label in pair]
-    words += [f.label for f in s.closed_forms] + [a for f in s.closed_forms for a in f.assumption_texts]
-    words += [label for _, label in s.extras] + [label for label, _ in ev.tempco_budget]
-    text = " ".join(words).lower().replace("{", "").replace("}", "")
-    for bipolar in ("npn", "pnp", "beta", "β", "forward active", "ebers", "moll", "base", "collector",
-                    "emitter", "v_be", "v_cc"):
-        assert bipolar not in text, bipolar
+    assert_no_bipolar_words(ev, kit.topology("opamp_mos_source"))
 
 
 @pytest.mark.parametrize("name, bad", [("v_set", -1.0), ("r_s", 0.0), ("v_supply", 0.0)])
