@@ -105,9 +105,13 @@ def text(evaluation):
     lines.append(f"{'sensitivities':<17}{'dI/dp':>16}  S = (p/I) dI/dp")  # over the columns below
     for s in evaluation.sensitivities:
         lines.append(f"  {s.parameter:<14} {_derivative(s):>16}  {_normalised(s)}")
-    lines.append("tempco budget")
-    for label, value in evaluation.tempco_budget:
-        lines.append(f"  {label:<34} {format_quantity(value, 'ppm/K')}")
+    # Summed per mechanism as in the notebook's table: matched parts' terms
+    # (±34 000 ppm/K from two saturation currents) cancel before the reader sees them.
+    lines.append("tempco budget by mechanism")
+    for mechanism, parts, value in tempco_by_mechanism(evaluation.tempco_budget):
+        label = f"{mechanism} ({parts})" if parts else mechanism
+        lines.append(f"  {label:<40} {format_quantity(value, 'ppm/K'):>12}")
+    lines.append(f"  {'total':<40} {format_quantity(evaluation.tempco, 'ppm/K'):>12}")
     lines.append("ledger (closed form vs exact)")
     for e in evaluation.ledger:
         lines.append(f"  {e.label:<48} {format_quantity(e.value, 'A', 4):>10}  error {e.error:+.3%}")
