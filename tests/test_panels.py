@@ -100,8 +100,15 @@ def assert_plots_match_kit(panel, design):
     assert list(src["sensitivity"].data["name"]) == [s.parameter for s in ranked]
     np.testing.assert_array_equal(src["sensitivity"].data["value"], [s.normalised for s in ranked])
     assert panel.figures["sensitivity"].y_range.factors == [s.parameter for s in ranked]
-    budget = sorted(ev.tempco_budget, key=lambda item: abs(item[1]))
-    np.testing.assert_array_equal(src["tempco"].data["value"], [ev.tempco * 1e6] + [v * 1e6 for _, v in budget])
+    # One bar per mechanism, each the sum of its parts' raw terms (a mirror's opposite I_S terms cancel).
+    sums = {}
+    for label, value in ev.tempco_budget:
+        mechanism = label.rpartition(" of ")[0] or label
+        sums[mechanism] = sums.get(mechanism, 0.0) + value
+    bars = sorted(sums.values(), key=abs)
+    np.testing.assert_allclose(src["tempco"].data["value"], [ev.tempco * 1e6] + [v * 1e6 for v in bars],
+                               rtol=1e-12, atol=1e-9)
+    assert len(src["tempco"].data["name"]) == len(sums) + 1
     return ev
 
 
