@@ -149,8 +149,9 @@ def load_figure(design, evaluation, spec=None, *, points=POINTS):
     _spec_load(fig, spec, 1.1 * top)
     _edges(fig, evaluation, 1.1 * top)
     for k, ((label, _), y) in enumerate(zip(cases, curves)):
+        named = {"legend_label": label} if len(cases) > 1 else {}  # one curve needs no legend
         fig.line(v_load, y, line_width=2.5 if k == 0 else 1.8, color=INK if k == 0 else FORMS[(k - 1) % len(FORMS)],
-                 line_dash="solid" if k == 0 else DASHES[(k - 1) % len(DASHES)], legend_label=label)
+                 line_dash="solid" if k == 0 else DASHES[(k - 1) % len(DASHES)], **named)
     return _legend_below(fig)
 
 
@@ -166,7 +167,7 @@ def _allowances(design, spec):
                          f"{name} allowance at {format_temperature(hottest)} ambient")
     for name in design.topology.resistors:
         rated = params.get(f"p_rated_{name}")
-        if rated:
+        if rated and np.isfinite(rated):  # no rating given: infinite
             out[name] = (rated, f"{name} rating")
     return out
 
@@ -177,7 +178,7 @@ def dissipation_figure(design, evaluation, spec=None, *, points=POINTS):
     Parts that dissipate less than a thousandth of the largest are left out
     (a bias resistor next to a pass device would lie flat on the axis).
     """
-    from bokeh.models import Range1d, Span
+    from bokeh.models import Range1d
 
     from kit.panels.theme import DASHES, FORMS, INK
 
@@ -201,10 +202,8 @@ def dissipation_figure(design, evaluation, spec=None, *, points=POINTS):
         fig.line(v_load, p / scale, line_width=2.2, color=colour, legend_label=name)
         if name in near:
             watts, words = near[name]
-            fig.add_layout(Span(location=watts / scale, dimension="width", line_color=colour, line_width=1.5,
-                                line_dash=DASHES[k % len(DASHES)]))
-            fig.line([], [], color=colour, line_dash=DASHES[k % len(DASHES)],
-                     legend_label=f"{words}: {format_quantity(watts, 'W', 3)}")
+            fig.line([v_load[0], v_load[-1]], [watts / scale] * 2, color=colour, line_width=1.5,
+                     line_dash=DASHES[k % len(DASHES)], legend_label=f"{words}: {format_quantity(watts, 'W', 3)}")
     return _legend_below(fig)
 
 
