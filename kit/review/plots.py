@@ -199,7 +199,11 @@ def dissipation_figure(design, evaluation, spec=None, *, points=POINTS):
     colours = (INK,) + FORMS
     for k, (name, p) in enumerate(sorted(shown.items(), key=lambda item: -np.nanmax(item[1]))):
         colour = colours[k % len(colours)]
-        fig.line(v_load, p / scale, line_width=2.2, color=colour, legend_label=name)
+        label = name
+        if name in allowances and name not in near:  # said, though far above the curve
+            watts, words = allowances[name]
+            label += f" ({words}: {format_quantity(watts, 'W', 3)}, off the scale)"
+        fig.line(v_load, p / scale, line_width=2.2, color=colour, legend_label=label)
         if name in near:
             watts, words = near[name]
             fig.line([v_load[0], v_load[-1]], [watts / scale] * 2, color=colour, line_width=1.5,
