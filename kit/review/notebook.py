@@ -78,8 +78,10 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
         load = (f"record = None\ndesign = kit.design({top.key!r}, {design.polarity!r}, {values},\n"
                 f"                    title={heading!r})\nspec = None")
     # The title and notes may come from a record someone mailed: shown as text, never as markup.
+    # The review's cover carries the title: the heading is for the screen.
     cells = [
-        _markdown(f"# {markdown_inline(heading)}\n\n{top.title} ({design.polarity.upper()}). "
+        _screen_only(_markdown(f"# {markdown_inline(heading)}")),
+        _markdown(f"{top.title} ({design.polarity.upper()}). "
                   f"{top.description}\n\n" + (markdown_block(notes.strip()) if notes.strip() else REQUIREMENT_PROMPT)),
         _code("# NBVAL_IGNORE_OUTPUT\nimport numpy as np\nimport kit\n"
               "from bokeh.io import output_notebook\nfrom bokeh.resources import INLINE\n"
@@ -142,7 +144,8 @@ def comparison_notebook(record_paths, title):
     records = [load_record(p) for p in paths]
     names = [r.title or r.design.topology.title for r in records]
     cells = [
-        _markdown(f"# {markdown_inline(title)}\n\n" + "\n".join(
+        _screen_only(_markdown(f"# {markdown_inline(title)}")),  # the cover carries the title
+        _markdown("The designs compared:\n\n" + "\n".join(
             f"- {markdown_inline(name)} ({r.design.topology.title}, {r.design.polarity.upper()})"
             for name, r in zip(names, records))),
         _code("# NBVAL_IGNORE_OUTPUT\nimport kit\nfrom bokeh.io import output_notebook\n"
