@@ -122,6 +122,9 @@ def build_parser():
     review.add_argument("-o", "--output", required=True, metavar="OUT.pdf")
     review.add_argument("--with-code", action="store_true", help="show the code cells too")
     review.add_argument("--keep-html", metavar="PAGE.html", help="also keep the HTML page")
+    review.add_argument("--html-twin", metavar="TWIN.html",
+                        help="also write one self-contained HTML file that opens with no network "
+                             "(equations set, plots interactive) for a wiki or an e-mail")
     new = commands.add_parser(
         "new", help="start a design notebook for a topology",
         description="Write a design notebook from the standard template, with the topology's default "
@@ -168,7 +171,7 @@ def main(argv=None):
         if args.command == "spread":
             return _spread(args)
         if args.command == "review":
-            return _review(args.source, args.output, args.with_code, args.keep_html)
+            return _review(args.source, args.output, args.with_code, args.keep_html, args.html_twin)
         if args.command == "new":
             return _new(args.topology, args.output, args.record, args.polarity)
         return _evaluate(args.record, args.edge, args.json)
@@ -459,18 +462,20 @@ def _spread(args):
     return EXIT_OK
 
 
-def _review(source, output, with_code, keep_html):
+def _review(source, output, with_code, keep_html, twin=None):
     from kit.review.build import build_review
 
     def progress(stage):
         print(f"biasbook review: {stage}", file=sys.stderr, flush=True)
 
     try:
-        build_review(source, output, with_code=with_code, progress=progress, keep_html=keep_html)
+        build_review(source, output, with_code=with_code, progress=progress, keep_html=keep_html, twin=twin)
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT if err.parameter in ("source", "file") or
                         type(err).__name__ == "RecordError" else EXIT_NOT_EVALUABLE, False)
     _say(output)
+    if twin:
+        _say(twin)
     return EXIT_OK
 
 
