@@ -465,8 +465,17 @@ def _spread(args):
 def _review(source, output, with_code, keep_html, twin=None):
     from kit.review.build import build_review
 
-    def progress(stage):
-        print(f"biasbook review: {stage}", file=sys.stderr, flush=True)
+    live = sys.stderr.isatty()
+
+    def progress(stage, cell=None, cells=None):
+        if cell is None:
+            print(f"biasbook review: {stage}", file=sys.stderr, flush=True)
+            return
+        # One line rewritten in a terminal; a line per cell in a log.
+        line = f"biasbook review: executing, {cell} of {cells} cells done"
+        last = cell == cells
+        print(("\r" + line + ("\n" if last else "")) if live else line, end="" if live else "\n",
+              file=sys.stderr, flush=True)
 
     try:
         build_review(source, output, with_code=with_code, progress=progress, keep_html=keep_html, twin=twin)

@@ -109,7 +109,7 @@ def reviewed(tmp_path_factory):
 
     folder = tmp_path_factory.mktemp("review")
     stages = []
-    pdf = build_review(PASSING, folder / "review.pdf", progress=stages.append,
+    pdf = build_review(PASSING, folder / "review.pdf", progress=lambda stage, **count: stages.append((stage, count)),
                        keep_html=folder / "review.html", twin=folder / "twin.html")
     return {"pdf": pdf, "html": (folder / "review.html").read_text(encoding="utf-8"),
             "twin": (folder / "twin.html").read_text(encoding="utf-8"),
@@ -119,7 +119,16 @@ def reviewed(tmp_path_factory):
 
 @needs_printing
 def test_review_reports_its_progress(reviewed):
-    assert reviewed["stages"] == ["executing", "converting", "printing", "twin", "done"]
+    from kit.review.notebook import notebook_for_record
+
+    stages = reviewed["stages"]
+    assert [stage for stage, count in stages if not count] == ["executing", "converting", "printing", "twin", "done"]
+    # While executing: the cell count, from none done to all, one step at a time.
+    counts = [(c["cell"], c["cells"]) for stage, c in stages if c]
+    code = [c for c in notebook_for_record(reviewed["record"], PASSING.resolve()).cells
+            if c.cell_type == "code" and c.source.strip()]
+    assert counts == [(n, len(code)) for n in range(len(code) + 1)]
+    assert all(stage == "executing" for stage, c in stages if c)
 
 
 @needs_printing
