@@ -10,6 +10,8 @@ solve per figure), nothing is computed here but ranges and scales.
 * :func:`dissipation_figure` -- each part's dissipation against load voltage
   with a transistor's allowance derated to the hottest ambient (linear to
   T_J(max) through θ_JA) and a resistor's rating;
+* :func:`tempco_figure` -- the tempco budget as bars, one per mechanism;
+* :func:`budget_figure` -- the worst case's error budget, each factor alone;
 * :func:`histogram_figure` -- the Monte Carlo spread against the spec limits,
   with the yield.
 
@@ -39,8 +41,9 @@ def _figure(title, x_label, y_label, **kwargs):
 
     from kit.panels.theme import style_figure
 
-    return style_figure(figure(width=WIDTH, frame_height=FRAME_HEIGHT, title=title, x_axis_label=x_label,
-                               y_axis_label=y_label, toolbar_location=None, **kwargs))
+    kwargs.setdefault("frame_height", FRAME_HEIGHT)
+    return style_figure(figure(width=WIDTH, title=title, x_axis_label=x_label, y_axis_label=y_label,
+                               toolbar_location=None, **kwargs))
 
 
 def _legend_below(fig):
@@ -240,6 +243,64 @@ def histogram_figure(worst):
     return fig
 
 
+def _bars(title, x_label, names, values, colours, texts):
+    """Horizontal bars, largest at the top, each with its value written beside it."""
+    from bokeh.models import ColumnDataSource, LabelSet, Range1d
+
+    reach = max((abs(v) for v in values), default=1.0) or 1.0
+    height = max(FRAME_HEIGHT // 2, 26 * len(names))
+    fig = _figure(title, x_label, None, y_range=list(names), frame_height=height,
+                  x_range=Range1d(min(0.0, min(values)) - 0.45 * reach, max(0.0, max(values)) + 0.45 * reach))
+    source = ColumnDataSource({"name": list(names), "value": list(values), "colour": list(colours),
+                               "text": list(texts), "anchor": ["left" if v >= 0 else "right" for v in values],
+                               "offset": [4 if v >= 0 else -4 for v in values]})
+    fig.hbar(y="name", right="value", left=0, height=0.7, fill_color="colour", line_color=None, source=source)
+    fig.add_layout(LabelSet(x="value", y="name", text="text", text_align="anchor", x_offset="offset",
+                            y_offset=-5, text_font_size="10px", source=source))
+    fig.ygrid.visible = False
+    return fig
+
+
+def tempco_figure(evaluation):
+    """The tempco budget as bars, one per mechanism (matched parts' terms summed), the exact total on top.
+
+    Examples
+    --------
+    >>> import kit
+    >>> fig = tempco_figure(kit.evaluate(kit.design("divider_source")))
+    >>> fig.y_range.factors[-1]
+    'total (exact)'
+    """
+    from kit.panels.theme import LOWERS, RAISES, TOTAL
+    from kit.report.evaluation import tempco_by_mechanism
+
+    rows = sorted(((f"{m} ({p})" if p else m, v * 1e6) for m, p, v in tempco_by_mechanism(evaluation.tempco_budget)),
+                  key=lambda row: abs(row[1]))
+    rows.append(("total (exact)", evaluation.tempco * 1e6))
+    names, values = [r[0] for r in rows], [r[1] for r in rows]
+    colours = [RAISES if v >= 0 else LOWERS for v in values[:-1]] + [TOTAL]
+    texts = [format_quantity(v * 1e-6, "ppm/K", 3) for v in values]
+    return _bars(f"Tempco at {format_temperature(evaluation.design.temp)}, by mechanism",
+                 "contribution to (1/I_out) dI_out/dT (ppm/K)", names, values, colours, texts)
+
+
+def budget_figure(worst):
+    """The worst case's error budget: what each factor alone does to the current (exact), largest at the top.
+
+    Bars are coloured by kind (a part's spread, a condition of use, mismatch) and labelled with the swing
+    and its share of the sum.
+    """
+    from kit.panels.theme import FORMS, INK, current_scale
+
+    kinds = {"part": INK, "condition": FORMS[0], "mismatch": FORMS[2]}
+    entries = sorted(worst.budget, key=lambda b: b.swing)
+    scale, unit = current_scale(worst.spec.i_target)
+    return _bars("Error budget: each factor alone, exact", f"largest change of I_out ({unit})",
+                 [b.label for b in entries], [b.swing / scale for b in entries],
+                 [kinds.get(b.kind, FORMS[1]) for b in entries],
+                 [f"{format_quantity(b.swing, 'A', 3)} ({b.share:.0%}, {b.kind})" for b in entries])
+
+
 def review_figures(design, evaluation, spec=None, worst=None):
     """The reviewer's plots in print order: load, dissipation, and the Monte Carlo spread if a worst case ran.
 
@@ -248,9 +309,12 @@ def review_figures(design, evaluation, spec=None, worst=None):
     >>> import kit
     >>> d = kit.design("divider_source")
     >>> [f.title.text for f in review_figures(d, kit.evaluate(d))]
-    ['I_out across compliance', 'Dissipation across compliance (ambient 25 °C)']
+    ['I_out across compliance', 'Dissipation across compliance (ambient 25 °C)', 'Tempco at 25 °C, by mechanism']
     """
-    figures = [load_figure(design, evaluation, spec), dissipation_figure(design, evaluation, spec)]
+    figures = [load_figure(design, evaluation, spec), dissipation_figure(design, evaluation, spec),
+               tempco_figure(evaluation)]
+    if worst is not None and worst.budget:
+        figures.append(budget_figure(worst))
     if worst is not None and "Monte Carlo" in worst.methods:
         figures.append(histogram_figure(worst))
     return figures
