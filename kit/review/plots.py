@@ -250,7 +250,9 @@ def _bars(title, x_label, names, values, colours, texts):
     reach = max((abs(v) for v in values), default=1.0) or 1.0
     height = max(FRAME_HEIGHT // 2, 26 * len(names))
     fig = _figure(title, x_label, None, y_range=list(names), frame_height=height,
-                  x_range=Range1d(min(0.0, min(values)) - 0.45 * reach, max(0.0, max(values)) + 0.45 * reach))
+                  # room for the written values beside the bars; no empty negative side for swings
+                  x_range=Range1d(min(0.0, min(values)) - (0.5 * reach if min(values) < 0 else 0.0),
+                                  max(0.0, max(values)) + (0.7 * reach if max(values) > 0 else 0.0)))
     source = ColumnDataSource({"name": list(names), "value": list(values), "colour": list(colours),
                                "text": list(texts), "anchor": ["left" if v >= 0 else "right" for v in values],
                                "offset": [4 if v >= 0 else -4 for v in values]})
