@@ -276,9 +276,17 @@ both = ComparePanel(kit.design("basic_mirror", "npn", n_area=1, title="tail as a
                     kit.design("wilson_mirror", "npn", title="tail as a Wilson mirror", **tail),
                     Spec(100e-6, 0.05, v_load=(2.0, 10.0), temp=(273.15, 343.15), beta={"npn": (80, 300)}))
 both"""
+# A hot LED-string sink of our own: 20 mA from 24 V, a spec over load and ambient.
+STRESS_CELL = """import kit
+from kit.analysis.spec import Spec
+from kit.panels import DesignPanel
+panel = DesignPanel(kit.design("divider_source", "npn", r1="33k", r2="10k", r_e="150", v_supply="24 V",
+                               v_load="12 V", title="LED string sink"),
+                    Spec(20e-3, 0.10, v_load=(6.0, 20.0), temp=(273.15, 333.15)))
+panel"""
 
 _OUTSIDE = """(viewport) => {
-    const panel = document.querySelector('.biasbook-compare');
+    const panel = document.querySelector('.biasbook-compare') || document.querySelector('.biasbook-panel');
     const out = [];
     for (const e of [panel, ...panel.querySelectorAll('*')]) {
         const r = e.getBoundingClientRect();
@@ -301,6 +309,17 @@ _TOOLTIPS = """() => { const out = [];
     walk(document); return out.join('\\n');}"""
 
 
+# A Bokeh toolbar button by its tooltip (the buttons live in shadow roots): its centre, or every title seen.
+_BUTTON = """(title) => { const seen = [];
+    const walk = (root) => { for (const e of root.querySelectorAll('*')) {
+        if (e.title) { const r = e.getBoundingClientRect(); seen.push(e.title + '@' + Math.round(r.top) + ',' + Math.round(r.width));
+            if (e.title === title && r.width > 0 && r.top >= 0 && r.bottom <= window.innerHeight)
+                return {x: r.left + r.width / 2, y: r.top + r.height / 2}; }
+        if (e.shadowRoot) { const found = walk(e.shadowRoot); if (found) return found; } }
+        return null; };
+    return walk(document.querySelector('.biasbook-compare') || document.querySelector('.biasbook-panel')) || {seen: seen.join('|')}; }"""
+
+
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory):
     """A JupyterLab server on a folder holding one comparison notebook (stopped by its process id)."""
@@ -310,6 +329,8 @@ def lab(tmp_path_factory):
     notebook = nbformat.v4.new_notebook(cells=[nbformat.v4.new_code_cell(NOTEBOOK_CELL)])
     notebook.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3", "language": "python"}
     nbformat.write(notebook, folder / "compare.ipynb")
+    notebook.cells = [nbformat.v4.new_code_cell(STRESS_CELL)]
+    nbformat.write(notebook, folder / "stress.ipynb")
     config = tmp_path_factory.mktemp("jupyter-config")
     (config / "labconfig").mkdir()
     (config / "labconfig" / "page_config.json").write_text(json.dumps(
@@ -441,8 +462,10 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
                     break
             assert re.search(r"design:\s*[AB]", tip) and re.search(r"I_out:\s*[\d.]+ µA", tip) \
                 and re.search(r"V_load:\s*[-\d.]+ V", tip), tip
+            button = page.evaluate(_BUTTON, "Save the figure as SVG")
+            assert "x" in button, button
             with page.expect_download() as download:
-                panel.locator(".bk-toolbar-button[title='Save the figure as SVG']:visible").first.click()
+                page.mouse.click(button["x"], button["y"])
             svg = Path(download.value.path()).read_text()
             root = ET.fromstring(svg)
             assert root.tag == "{http://www.w3.org/2000/svg}svg" and "I_out" in svg
@@ -456,6 +479,64 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
                              ".find(e => e.innerText.startsWith('Values of each design'))")
             page.screenshot(path=str(SHOTS / "compare-inputs.png"))
             assert not page.evaluate(_OUTSIDE, LAPTOP)
+            assert not [e for e in errors if "Failed to load resource" not in e], errors
+        finally:
+            browser.close()
+
+
+@pytest.mark.browser
+@needs_chromium
+def test_worst_case_tab_shows_stress_and_saves_svg_in_the_browser(lab):
+    from playwright.sync_api import sync_playwright
+
+    SHOTS.mkdir(parents=True, exist_ok=True)
+    errors = []
+    with sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
+            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        try:
+            page = browser.new_page(viewport=LAPTOP, accept_downloads=True)
+            page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            page.goto(f"{lab}/lab/tree/stress.ipynb?reset&token={TOKEN}")
+            _wait_idle(page)
+            if not page.locator(".jp-FileBrowser").first.is_visible():
+                page.locator("[data-id='filebrowser']").first.click()
+            page.click("text=Run")
+            page.click("text=Run All Cells")
+            time.sleep(3)
+            _wait_idle(page)
+            panel = page.locator(".biasbook-panel").first
+            panel.wait_for(timeout=180_000)
+            panel.locator(".lm-TabBar-tab", has_text="worst case").first.click()
+            time.sleep(1)
+            panel.locator("button", has_text="check against the spec").click()
+            page.wait_for_function("() => document.querySelector('.biasbook-panel').innerText"
+                                   ".includes('Fault cases')", timeout=120_000)
+            time.sleep(2)
+            _scroll_to(page, "Array.from(document.querySelectorAll('.biasbook-panel p'))"
+                             ".find(e => e.innerText.startsWith('Stress inside the spec box'))")
+            page.screenshot(path=str(SHOTS / "worst-stress.png"))
+            assert not page.evaluate(_OUTSIDE, LAPTOP)
+            text = page.evaluate("() => document.querySelector('.biasbook-panel').innerText")
+            assert "bipolar transistor, NPN" in text and "junction" in text and "output shorted" in text
+            # The histogram's SVG button, in reach on the toolbar (not folded into a menu).
+            _scroll_to(page, "document.querySelector('.biasbook-panel .widget-tab-contents "
+                             "> :not(.lm-mod-hidden) .bk-Figure, .biasbook-panel .widget-tab-contents "
+                             "> :not(.lm-mod-hidden) .jupyter-widgets.bk-root')")
+            page.evaluate("() => window.scrollBy(0, -120)")
+            button = page.evaluate(_BUTTON, "Save the figure as SVG")
+            if "x" not in button:  # below the fold: bring the plots up
+                page.mouse.wheel(0, 300)
+                time.sleep(1)
+                button = page.evaluate(_BUTTON, "Save the figure as SVG")
+            assert "x" in button, button
+            with page.expect_download() as download:
+                page.mouse.click(button["x"], button["y"])
+            svg = Path(download.value.path()).read_text()
+            assert ET.fromstring(svg).tag == "{http://www.w3.org/2000/svg}svg"
+            assert "Monte Carlo" in svg or "Error budget" in svg  # the plot's own title, drawn as text
             assert not [e for e in errors if "Failed to load resource" not in e], errors
         finally:
             browser.close()

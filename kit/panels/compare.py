@@ -288,7 +288,7 @@ class ComparePanel:
             # compliance: a saturated part beyond an edge does not squash the curves.
             more = {"y_range": DataRange1d(range_padding=0)} if name == "load" else {}
             fig = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT + 40,
-                         tools="pan,box_zoom,wheel_zoom,reset,save", x_axis_label=x_label, **more)
+                         tools="pan,box_zoom,reset,save", x_axis_label=x_label, **more)
             theme.style_figure(fig)
             lines, edges = [], []
             for side in SIDES:
@@ -314,7 +314,8 @@ class ComparePanel:
             theme.style_legend(fig, "bottom_right" if name == "load" else "top_left")
             legend = fig.legend[0]
             fig.center.remove(legend)
-            legend.orientation = "horizontal"
+            legend.ncols = 2
+            legend.location = "top_left"
             fig.add_layout(legend, "below")
             add_csv_action(fig, f"biasbook-compare-{name}.csv", self.sources, CSV_COLUMNS[name])
             add_svg_action(fig, f"biasbook-compare-{name}.svg")
@@ -345,8 +346,7 @@ class ComparePanel:
             c = evals[side].compliance
             self.sources[f"{side}_edges"].data = {"x": [c.low.voltage, c.high.voltage], "y0": [low - pad] * 2,
                                                   "y1": [high + pad] * 2}
-        names = " and ".join(f"{s} {self.design(s).topology.title}" for s in SIDES)
-        self.figures["load"].title.text = f"I_out across the load voltage: {names}"
+        self.figures["load"].title.text = "I_out across the load voltage (dotted: compliance edges)"
         self.figures["temp"].title.text = "I_out across the ambient temperature"
         for name, fig in self.figures.items():
             fig.yaxis.axis_label = f"I_out ({unit})"
@@ -402,7 +402,8 @@ def _name_html(side, design):
     what = f"{design.topology.title} ({design.polarity.upper()})"
     if design.title:
         what = f"{design.title} — {what}"
-    return (f'<div style="font-family:{theme.FONT};font-weight:600;color:{STYLE[side][0]};font-size:14px">'
+    return (f'<div style="font-family:{theme.FONT};font-weight:600;color:{STYLE[side][0]};font-size:14px;'
+            'line-height:1.3;white-space:normal">'
             f"{side}: {display.escape(what)}</div>")
 
 

@@ -163,10 +163,16 @@ def _add_csv_action(fig, name, sources):
 
 
 def name_save_tool(fig):
-    """Say on the plot's own save button that it writes PNG (beside the SVG one)."""
+    """Say on the plot's own save button that it writes PNG (beside the SVG one).
+
+    The hover stays on without a button of its own: a toolbar longer than the
+    plot folds its last buttons (the exports) into a menu.
+    """
     for tool in fig.tools:
         if type(tool).__name__ == "SaveTool":
             tool.description = "Save the figure as PNG"
+        elif type(tool).__name__ == "HoverTool":
+            tool.visible = False
 
 
 def csv_text(name, sources, columns=None):

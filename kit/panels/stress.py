@@ -66,11 +66,13 @@ def stress_rows(result):
         else:
             hottest = f"junction {format_temperature(s.junction_temperature, 3)}"
             at = s.conditions
+        rating = "P_rated" if s.kind == "resistor" else "the derated allowance"
         if s.rating_margin is None:
             margin = "no rating known"
+        elif s.rating_margin >= 0:
+            margin = f"{s.rating_margin:.1%} of {rating} left"
         else:
-            margin = f"{s.rating_margin:.1%} of the derated allowance left" if s.kind != "resistor" \
-                else f"{s.rating_margin:.1%} below P_rated"
+            margin = f"over {rating} by {-s.rating_margin:.1%}"
         if s.breakdown_margin is not None and math.isfinite(s.breakdown_margin):
             margin += f"; {format_quantity(s.breakdown_margin, 'V', 3)} below breakdown"
         if s.runaway_points:
