@@ -208,6 +208,15 @@ class DesignPanel:
                                  valid=", ".join(known))
         return self.worst
 
+    def compare(self, other):
+        """The present design and ``other`` side by side (a :class:`kit.panels.compare.ComparePanel`).
+
+        Both are edited there on their own; this panel is left as it is.
+        """
+        from kit.panels.compare import ComparePanel
+
+        return ComparePanel(self.design, other, self.spec)
+
     def step(self, name, direction):
         """Move resistor ``name`` to the next standard value up (+1) or down (-1)."""
         value = self.design.values[name]
