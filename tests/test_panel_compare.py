@@ -564,6 +564,14 @@ def test_worst_case_tab_shows_stress_and_saves_svg_in_the_browser(lab):
             svg = Path(download.value.path()).read_text()
             assert ET.fromstring(svg).tag == "{http://www.w3.org/2000/svg}svg"
             assert "Monte Carlo" in svg or "Error budget" in svg  # the plot's own title, drawn as text
+            # ... and its numbers as CSV, from the same toolbar.
+            button = page.evaluate(_BUTTON, "Save this plot's numbers as CSV")
+            assert "x" in button, button
+            with page.expect_download() as download:
+                page.mouse.click(button["x"], button["y"])
+            head = Path(download.value.path()).read_text().splitlines()[0]
+            assert head in ("I_out bin low (A),I_out bin high (A),samples",
+                            "factor,share of the summed swings (%),swing of I_out alone (A)"), head
             assert not [e for e in errors if "Failed to load resource" not in e], errors
         finally:
             browser.close()
