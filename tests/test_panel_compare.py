@@ -262,6 +262,27 @@ def test_stress_view_shows_the_analysis_per_part_and_the_faults(spec_panel):
         assert 2.0 <= float(volts) <= 10.0
 
 
+def test_stress_view_says_when_a_part_is_over_its_rating_and_a_fault_kills_it():
+    # A 20 mA LED-string sink from 24 V with the transistor taking the rest (our own scenario).
+    design = kit.design("divider_source", "npn", r1="33k", r2="10k", r_e="150", v_supply="24 V", v_load="12 V")
+    panel = DesignPanel(design, Spec(20e-3, 0.10, v_load=(6.0, 20.0), temp=(273.15, 333.15)))
+    result = panel.worst.run()
+    q1 = next(s for s in result.stress if s.part == "Q1")
+    shown = panel.worst.stress.value
+    if q1.rating_margin < 0:
+        assert f"over the derated allowance by {-q1.rating_margin:.1%}" in shown
+    else:
+        assert f"{q1.rating_margin:.1%} of the derated allowance left" in shown
+    shorted = next(f for f in result.faults if f.fault == "output shorted")
+    assert ("does NOT survive" in shown) == (shorted.survives is False)
+    # The usual cautions where a part gets hot enough to burn (kit.report.worstcase.heat_cautions).
+    from kit.report.worstcase import heat_cautions
+    from kit.report.tables import escape
+
+    assert all(escape(c) in shown for c in heat_cautions(result))
+    assert heat_cautions(result)  # this scenario is hot: the view must carry a caution
+
+
 def test_stress_view_speaks_mosfet_words():
     design = kit.design("mos_mirror", "nmos", i_ref="100u", v_supply="15 V", v_load="5 V", title="<b>x</b>")
     panel = DesignPanel(design, Spec(100e-6, 0.10, v_load=(2.0, 10.0)))

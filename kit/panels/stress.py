@@ -30,7 +30,7 @@ from kit.report.cautions import HOT_SURFACE_KELVIN
 from kit.report.worstcase import fault_text, heat_cautions
 
 _CELL = "padding:2px 8px;border-bottom:1px solid #d8d8d8;vertical-align:top"
-HEAD = ("part", "largest power", "hottest", "margin to rating", "where (hottest)")
+HEAD = ("part", "largest power, where", "hottest, where", "margin to rating")
 
 
 def _what(design, name):
@@ -56,16 +56,14 @@ def where(conditions):
 
 
 def stress_rows(result):
-    """One dict of texts per part (keys: part, what, power, hottest, margin, where), hottest margin first."""
+    """One dict of texts per part (keys: part, what, power, hottest, margin, over, hot), least margin first."""
     rows = []
     for s in sorted(result.stress, key=lambda e: (e.rating_margin is None,
                                                   e.rating_margin if e.rating_margin is not None else 0.0)):
         if s.kind == "resistor":
-            hottest = f"body at the ambient, {format_temperature(s.junction_temperature, 3)}"
-            at = s.power_conditions
+            hottest = "body at the ambient (no thermal resistance known)"
         else:
-            hottest = f"junction {format_temperature(s.junction_temperature, 3)}"
-            at = s.conditions
+            hottest = f"junction {format_temperature(s.junction_temperature, 3)} at {where(s.conditions)}"
         rating = "P_rated" if s.kind == "resistor" else "the derated allowance"
         if s.rating_margin is None:
             margin = "no rating known"
@@ -79,7 +77,7 @@ def stress_rows(result):
             margin += f"; thermal runaway at {s.runaway_points} points of the box"
         rows.append({"part": s.part, "what": _what(result.design, s.part),
                      "power": format_quantity(s.power, "W", 3) + f" at {where(s.power_conditions)}",
-                     "hottest": hottest, "margin": margin, "where": where(at),
+                     "hottest": hottest, "margin": margin,
                      "over": s.rating_margin is not None and s.rating_margin < 0,
                      "hot": s.kind != "resistor" and s.junction_temperature > HOT_SURFACE_KELVIN})
     return rows
@@ -97,8 +95,7 @@ def stress_html(result):
                     f'<span style="color:#555;font-size:12px">{display.escape(row["what"])}</span></td>'
                     f'<td style="{_CELL}">{display.escape(row["power"])}</td>'
                     f'<td style="{_CELL};color:{colour}">{display.escape(row["hottest"])}</td>'
-                    f'<td style="{_CELL};color:{colour}">{display.escape(row["margin"])}</td>'
-                    f'<td style="{_CELL}">{display.escape(row["where"])}</td></tr>')
+                    f'<td style="{_CELL};color:{colour}">{display.escape(row["margin"])}</td></tr>')
     faults = []
     for fault in result.faults:
         good = fault.survives
