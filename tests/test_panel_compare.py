@@ -112,9 +112,15 @@ def test_beta_sensitivity_row_matches_the_published_mirror_laws():
 
 
 def test_a_mosfet_side_says_it_has_no_beta():
-    panel = ComparePanel(basic(), kit.design("mos_mirror", "nmos", i_ref="100u", v_supply="15 V", v_load="5 V"))
+    mos = kit.design("mos_mirror", "nmos", i_ref="100u", v_supply="15 V", v_load="5 V")
+    panel = ComparePanel(basic(), mos)
     row = table(panel)["β_F sensitivity (β/I) dI/dβ, all β_F together"]
     assert row[1] == "no bipolar transistor" and row[2] == ""
+    # The gain plot holds the bipolar design's curve only; with no bipolar design there is no gain tab.
+    assert "β_F" in panel.tabs.titles and len(panel.sources["B_beta"].data["beta"]) == 0
+    assert list(panel.sources["A_beta"].data["i_out"]) == list(panel.sides["A"].plot_data.columns["beta"]["i_out"])
+    assert panel.switch("A", topology="mos_mirror")
+    assert "β_F" not in panel.tabs.titles and len(panel.tabs.children) == 2
 
 
 def test_each_design_is_edited_through_its_own_panel(both):
@@ -521,6 +527,13 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
                 panel.locator(".bk-tool-icon-arrow-down-to-bar:visible").first.click()
             head = Path(download.value.path()).read_text().splitlines()[0]
             assert head == "V_load A (V),I_out A (A),V_load B (V),I_out B (A)"
+
+            # The gain plot: both mirrors' currents against β_F, inside the screen.
+            panel.locator(".lm-TabBar-tab", has_text="β_F").first.click()
+            time.sleep(1.5)
+            _scroll_to(page, "document.querySelector('.biasbook-compare .lm-TabBar')")
+            page.screenshot(path=str(SHOTS / "compare-beta.png"))
+            assert not page.evaluate(_OUTSIDE, LAPTOP)
 
             # The inputs of both designs, side by side, inside the screen.
             _scroll_to(page, "Array.from(document.querySelectorAll('.biasbook-compare .widget-html'))"

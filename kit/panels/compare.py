@@ -46,13 +46,21 @@ from kit.report.worstcase import stress_headline
 
 SIDES = ("A", "B")
 STYLE = {"A": (theme.INK, "solid"), "B": (theme.FORMS[0], "dashed")}
-FIGURES = ("load", "temp")
+# plot -> (x column, x axis words, title); the columns are each design panel's own.
+PLOTS = {"load": ("v_load", "load voltage V_load (V)", "I_out across the load voltage (dotted: compliance edges)"),
+         "temp": ("temp_c", "ambient temperature (°C)", "I_out across the ambient temperature"),
+         "beta": ("beta", "β_F of the output transistor (every β_F scaled alike)", "I_out across the forward gain")}
+TAB_TITLES = {"load": "load", "temp": "temperature", "beta": "β_F"}
+X_TIPS = {"load": ("V_load", "@v_load{0.000} V"), "temp": ("temperature", "@temp_c{0.0} °C"),
+          "beta": ("β_F", "@beta{0.0}")}
 _CELL = "padding:3px 10px;border-bottom:1px solid #d8d8d8;vertical-align:top"
 CSV_COLUMNS = {
     "load": [("A_load", "v_load", "V_load A (V)"), ("A_load", "i_out", "I_out A (A)"),
              ("B_load", "v_load", "V_load B (V)"), ("B_load", "i_out", "I_out B (A)")],
     "temp": [("A_temp", "temp_c", "temperature A (degC)"), ("A_temp", "i_out", "I_out A (A)"),
              ("B_temp", "temp_c", "temperature B (degC)"), ("B_temp", "i_out", "I_out B (A)")],
+    "beta": [("A_beta", "beta", "beta_F A"), ("A_beta", "i_out", "I_out A (A)"),
+             ("B_beta", "beta", "beta_F B"), ("B_beta", "i_out", "I_out B (A)")],
 }
 
 
@@ -277,13 +285,14 @@ class ComparePanel:
         from bokeh.models import ColumnDataSource, DataRange1d, HoverTool
         from bokeh.plotting import figure
 
-        self.sources = {f"{s}_{n}": ColumnDataSource(data={}) for s in SIDES for n in ("load", "temp")}
-        self.sources.update({f"{s}_edges": ColumnDataSource(data={"x": [], "y0": [], "y1": []}) for s in SIDES})
-        self.sources.update({f"{s}_{n}": ColumnDataSource(data={"x": [], "y": []})
-                             for s in SIDES for n in ("point", "tpoint")})
+        self.sources = {}
+        for side in SIDES:
+            for name, (x, _, _) in PLOTS.items():
+                self.sources[f"{side}_{name}"] = ColumnDataSource(data={x: [], "i_out": [], "y": []})
+                self.sources[f"{side}_{name}_point"] = ColumnDataSource(data={"x": [], "y": []})
+            self.sources[f"{side}_edges"] = ColumnDataSource(data={"x": [], "y0": [], "y1": []})
         self.figures, self.hovers = {}, {}
-        for name, x, x_label in (("load", "v_load", "load voltage V_load (V)"),
-                                 ("temp", "temp_c", "ambient temperature (°C)")):
+        for name, (x, x_label, _) in PLOTS.items():
             # The load plot's height follows the edge marks, drawn over the currents inside
             # compliance: a saturated part beyond an edge does not squash the curves.
             more = {"y_range": DataRange1d(range_padding=0)} if name == "load" else {}
@@ -293,8 +302,10 @@ class ComparePanel:
             lines, edges = [], []
             for side in SIDES:
                 colour, dash = STYLE[side]
-                lines.append(fig.line(x, "y", source=self.sources[f"{side}_{name}"], line_color=colour,
-                                      line_dash=dash, line_width=2.5, legend_label=f"{side}"))
+                line = fig.line(x, "y", source=self.sources[f"{side}_{name}"], line_color=colour,
+                                line_dash=dash, line_width=2.5, legend_label=side)
+                line.name = side  # the hover says which design ("$name")
+                lines.append(line)
                 if name == "load":
                     edges.append(fig.segment(x0="x", x1="x", y0="y0", y1="y1",
                                              source=self.sources[f"{side}_edges"], line_color=colour,
@@ -303,17 +314,14 @@ class ComparePanel:
             if edges:
                 fig.y_range.renderers = edges
             for side in SIDES:
-                point = self.sources[f"{side}_point" if name == "load" else f"{side}_tpoint"]
-                fig.scatter("x", "y", source=point, size=8, fill_color="white", line_color=STYLE[side][0],
-                            line_width=2)
+                fig.scatter("x", "y", source=self.sources[f"{side}_{name}_point"], size=8, fill_color="white",
+                            line_color=STYLE[side][0], line_width=2)
             hover = HoverTool(renderers=lines, mode="vline", tooltips=[("design", "$name")])
-            for line, side in zip(lines, SIDES):
-                line.name = side
             fig.add_tools(hover)
             self.hovers[name] = hover
-            theme.style_legend(fig, "bottom_right" if name == "load" else "top_left")
+            theme.style_legend(fig)
             legend = fig.legend[0]
-            fig.center.remove(legend)
+            fig.center.remove(legend)  # below the plot, never over the curves
             legend.ncols = 2
             legend.location = "top_left"
             fig.add_layout(legend, "below")
@@ -323,21 +331,22 @@ class ComparePanel:
             self.figures[name] = fig
 
     def _fill_figures(self):
-        data = {s: self.sides[s].plot_data for s in SIDES}
+        data = {s: self.sides[s].plot_data.columns for s in SIDES}
         evals = {s: self.evaluation(s) for s in SIDES}
         factor, unit = theme.current_scale(max(abs(e.i_out) for e in evals.values()))
         inside = []
         for side in SIDES:
-            load, temp = data[side].columns["load"], data[side].columns["temp"]
-            v_load = np.asarray(load["v_load"], float)
-            i_load, i_temp = np.asarray(load["i_out"], float), np.asarray(temp["i_out"], float)
-            self.sources[f"{side}_load"].data = {"v_load": v_load, "i_out": i_load, "y": i_load / factor}
-            self.sources[f"{side}_temp"].data = {"temp_c": np.asarray(temp["temp_c"], float), "i_out": i_temp,
-                                                 "y": i_temp / factor}
-            c, e = evals[side].compliance, evals[side]
-            self.sources[f"{side}_point"].data = {"x": [e.design.values["v_load"]], "y": [e.i_out / factor]}
-            self.sources[f"{side}_tpoint"].data = {"x": [data[side].columns["temp_point"]["x"][0]],
-                                                   "y": [e.i_out / factor]}
+            e = evals[side]
+            for name, (x, _, _) in PLOTS.items():
+                curve = data[side][name]
+                i_out = np.asarray(curve["i_out"], float)
+                self.sources[f"{side}_{name}"].data = {x: np.asarray(curve[x], float), "i_out": i_out,
+                                                       "y": i_out / factor}
+                point = data[side][f"{name}_point"]["x"]  # empty where the design has no gain to sweep
+                self.sources[f"{side}_{name}_point"].data = {"x": list(point),
+                                                             "y": [e.i_out / factor] * len(point)}
+            v_load, i_load = np.asarray(data[side]["load"]["v_load"], float), np.asarray(data[side]["load"]["i_out"])
+            c = e.compliance
             within = (v_load >= c.low.voltage) & (v_load <= c.high.voltage) & np.isfinite(i_load)
             inside += list(i_load[within] / factor) + [e.i_out / factor]
         low, high = min(inside), max(inside)
@@ -346,12 +355,22 @@ class ComparePanel:
             c = evals[side].compliance
             self.sources[f"{side}_edges"].data = {"x": [c.low.voltage, c.high.voltage], "y0": [low - pad] * 2,
                                                   "y1": [high + pad] * 2}
-        self.figures["load"].title.text = "I_out across the load voltage (dotted: compliance edges)"
-        self.figures["temp"].title.text = "I_out across the ambient temperature"
         for name, fig in self.figures.items():
+            fig.title.text = PLOTS[name][2]
             fig.yaxis.axis_label = f"I_out ({unit})"
-            x_tip = ("V_load", "@v_load{0.000} V") if name == "load" else ("temperature", "@temp_c{0.0} °C")
-            self.hovers[name].tooltips = [("design", "$name"), x_tip, ("I_out", f"@y{{0.000}} {unit}")]
+            self.hovers[name].tooltips = [("design", "$name"), X_TIPS[name], ("I_out", f"@y{{0.000}} {unit}")]
+        self._show_tabs()
+
+    def _show_tabs(self):
+        """The gain plot only where a design has bipolar transistors (no empty plot box)."""
+        if not hasattr(self, "tabs"):
+            return
+        wanted = [n for n in PLOTS if n != "beta" or any(len(self.sources[f"{s}_beta"].data["beta"]) for s in SIDES)]
+        if [self.tabs.titles[k] for k in range(len(self.tabs.children))] != [TAB_TITLES[n] for n in wanted]:
+            chosen = self.tabs.selected_index
+            self.tabs.children = [self.bokeh[n] for n in wanted]
+            self.tabs.titles = [TAB_TITLES[n] for n in wanted]
+            self.tabs.selected_index = chosen if chosen is not None and chosen < len(wanted) else 0
 
     # -- widgets --------------------------------------------------------------------------
     def _build_widgets(self):
@@ -364,9 +383,8 @@ class ComparePanel:
                                                            display="flex" if self.spec is not None else "none"))
         self.button.on_click(lambda _: self.run_worst_case())
         self.bokeh = {name: BokehModel(fig) for name, fig in self.figures.items()}
-        self.tabs = widgets.Tab(children=[self.bokeh["load"], self.bokeh["temp"]],
-                                layout=widgets.Layout(width="100%"))
-        self.tabs.titles = ["load", "temperature"]
+        self.tabs = widgets.Tab(layout=widgets.Layout(width="100%"))
+        self._show_tabs()
         self.names = {side: widgets.HTML(layout=widgets.Layout(width="100%")) for side in SIDES}
         columns = []
         for side in SIDES:
