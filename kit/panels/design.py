@@ -178,8 +178,44 @@ class DesignPanel:
         return self._apply(make, {"topology": f"{top.key} ({polarity})"})
 
     def csv(self, name):
-        """The numbers of plot ``name`` as CSV text (what its download button saves)."""
-        return plots.csv_text(name, self.sources)
+        """The numbers of plot ``name`` as CSV text (what its download button saves).
+
+        ``name`` is one of :data:`kit.panels.plots.FIGURES`, or ``"histogram"`` /
+        ``"budget"`` for the worst-case plots (after a worst-case run).
+        """
+        if name in plots.FIGURES:
+            return plots.csv_text(name, self.sources)
+        return self._worst_figure(name).csv(name)
+
+    def svg(self, name):
+        """Plot ``name`` (as for :meth:`csv`) drawn as SVG text, offline by the system Chromium.
+
+        What its SVG button saves in the browser (:mod:`kit.panels.export`).
+        """
+        from kit.panels.export import svg_text
+
+        if name in plots.FIGURES:
+            return svg_text(plots.build(self.plot_data)[0][name])  # a fresh copy of the present drawing
+        return svg_text(self._worst_figure(name).figures[name])
+
+    def _worst_figure(self, name):
+        from kit.panels.worst import CSV_COLUMNS
+
+        if name not in CSV_COLUMNS or self.worst is None or self.worst.result is None:
+            known = [*plots.FIGURES] + ([*CSV_COLUMNS] if self.worst is not None else [])
+            raise ParameterError("no such plot shown" + (" (run the worst case first)" if name in CSV_COLUMNS
+                                                          else ""), parameter="name", value=name,
+                                 valid=", ".join(known))
+        return self.worst
+
+    def compare(self, other):
+        """The present design and ``other`` side by side (a :class:`kit.panels.compare.ComparePanel`).
+
+        Both are edited there on their own; this panel is left as it is.
+        """
+        from kit.panels.compare import ComparePanel
+
+        return ComparePanel(self.design, other, self.spec)
 
     def step(self, name, direction):
         """Move resistor ``name`` to the next standard value up (+1) or down (-1)."""
