@@ -260,7 +260,7 @@ def _evaluate(path, edge, as_json):
     from kit.report.cautions import cautions
 
     try:
-        evaluation = kit.evaluate(record.design, edge=edge)
+        evaluation = kit.evaluate(record.design, edge=edge, network=record.thermal)
         report = evaluation.to_dict() if as_json else reports.text(evaluation)
         warnings = cautions(evaluation)
     except DesignError as err:
@@ -306,6 +306,8 @@ def _record_heading(record, digest, edge):
     lines += [f"migrated  {note}" for note in record.migrated]
     for name, model in record.design.devices.items():
         lines.append(f"{name:<9} {model.label}")
+    if record.thermal is not None:
+        lines.append(f"thermal   {record.thermal.describe()}")
     return "\n".join(lines)
 
 
@@ -338,9 +340,10 @@ def _check(path, as_json, self_heating):
     if record is None:
         return code
     try:
-        kit.evaluate(record.design, edge=record.edge)  # the design point itself must work
+        # the design point itself must work (past a runaway edge it does not, when self-heated)
+        kit.evaluate(record.design, edge=record.edge, self_heating=self_heating, network=record.thermal)
         result = worst_case(record.design, record.spec, self_heating=self_heating, edge=record.edge,
-                            written=_spec_fields_written(record.source))
+                            network=record.thermal, written=_spec_fields_written(record.source))
     except DesignError as err:
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:

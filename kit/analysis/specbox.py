@@ -96,7 +96,7 @@ def box_entries(spec, design, self_heating, *, written=None, network=None):
     heated = [n for n, m in design.devices.items() if "theta_ja" in m.values]
     if self_heating and heated:
         thetas = ", ".join(f"{n} θ_JA {values[f'{n}.theta_ja']:.4g} K/W" for n in heated)
-        coupling = "each part in its own package" if not network or not network.parts() else "thermal network given"
+        coupling = network.describe() if network is not None else "each part in its own package"
         fixed("self-heating", f"included: {thetas}; {coupling}", True)
     else:
         fixed("self-heating", "not included", False)

@@ -94,13 +94,16 @@ class ThermalNetwork:
         Examples
         --------
         >>> ThermalNetwork(mutual={("Q1", "Q2"): 60.0}).describe()
-        'Q1 and Q2 coupled by 60 K/W (one die or package); others each in their own package'
+        'Q1 and Q2 coupled by 60 K/W (one die or package); parts not named here each in their own package'
         """
-        said = [f"{a} and {b} coupled by {value:.4g} K/W (one die or package)" for (a, b), value in self.mutual.items()]
+        said = [f"{_listed(group)} coupled by {value:.4g} K/W (one die or package)"
+                for group, value in _groups(self.mutual)]
         said += [f"heatsink {h.name} ({h.theta_sa:.4g} K/W to the air) under "
                  + ", ".join(f"{p} ({v:.4g} K/W junction to sink)" for p, v in h.theta_js.items())
                  for h in self.heatsinks]
-        return "; ".join(said + ["others each in their own package"]) if said else "each part in its own package"
+        if not said:
+            return "each part in its own package"
+        return "; ".join(said + ["parts not named here each in their own package"])
 
     def parts(self):
         """Every part the network names."""
@@ -141,6 +144,29 @@ class ThermalNetwork:
                                      valid=f"two different parts, <= their own theta")
             theta[i, k] = theta[k, i] = value
         return theta
+
+
+def _groups(mutual):
+    """``[(parts, theta)]``: pairs of one value that couple every member with every other, as one group."""
+    out, left = [], dict(mutual)
+    while left:
+        (a, b), value = next(iter(left.items()))
+        group = [a, b]
+        for pair, other in list(left.items()):
+            for p in pair:
+                if p not in group and other == value and all(
+                        left.get((p, q), left.get((q, p))) == value for q in group):
+                    group.append(p)
+        for i, p in enumerate(group):
+            for q in group[i + 1:]:
+                left.pop((p, q), None)
+                left.pop((q, p), None)
+        out.append((group, value))
+    return out
+
+
+def _listed(names):
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + f" and {names[-1]}"
 
 
 def _resistance(name, value):
@@ -464,7 +490,9 @@ def stable_load_range(model, values, v_range, network=None, points=65):
     each end, and an end where runaway sets in is narrowed down.  A load
     voltage whose junction would settle only above
     :data:`RUNAWAY_TEMPERATURE` (``too_hot``, far past any part's T_J(max))
-    counts as runaway here: the part is destroyed on the way.
+    counts as runaway here: the part is destroyed on the way; so does one
+    whose electrothermal solve does not settle (only next to an edge, where
+    the loop gain nears 1).
 
     Returns
     -------
@@ -511,4 +539,6 @@ def stable_load_range(model, values, v_range, network=None, points=65):
 
 
 def _unstable(points):
-    return points.runaway | points.too_hot
+    # Runaway, a steady state past the laws, or none reached (the loop gain near 1 settles
+    # ever more slowly towards the edge): no stable point to hold a compliance on.
+    return points.runaway | points.too_hot | ~points.converged
