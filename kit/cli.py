@@ -74,6 +74,9 @@ def build_parser():
                           help="print one JSON object instead of text")
     evaluate.add_argument("--edge", choices=EDGES, default=None,
                           help="saturation criterion; overrides the record's conditions.edge")
+    evaluate.add_argument("--no-self-heating", action="store_true",
+                          help="compliance without self-heating (default: it ends where the junctions' "
+                               "heating runs away, with the record's [thermal] network)")
     check = commands.add_parser(
         "check", help="check a record's [spec]: exit 0 when met, 1 when not",
         description="Check the record's specification by extreme values (the guarantee), RSS and "
@@ -171,7 +174,7 @@ def main(argv=None):
             return _review(args.source, args.output, args.with_code, args.keep_html)
         if args.command == "new":
             return _new(args.topology, args.output, args.record, args.polarity)
-        return _evaluate(args.record, args.edge, args.json)
+        return _evaluate(args.record, args.edge, args.json, not args.no_self_heating)
     except BrokenPipeError:  # the reader left early (`| head`): stop quietly
         _silence_stdout()
         return EXIT_CUT_SHORT
@@ -248,7 +251,7 @@ def _list_parts(as_json):
 
 # --- evaluate -----------------------------------------------------------------------
 
-def _evaluate(path, edge, as_json):
+def _evaluate(path, edge, as_json, self_heating=True):
     from kit.record import load_record
 
     try:
@@ -260,7 +263,7 @@ def _evaluate(path, edge, as_json):
     from kit.report.cautions import cautions
 
     try:
-        evaluation = kit.evaluate(record.design, edge=edge, network=record.thermal)
+        evaluation = kit.evaluate(record.design, edge=edge, self_heating=self_heating, network=record.thermal)
         report = evaluation.to_dict() if as_json else reports.text(evaluation)
         warnings = cautions(evaluation)
     except DesignError as err:
