@@ -449,7 +449,7 @@ def _spread(args):
         load, said["load_source"] = spec.v_load, "the record's [spec]"
     try:
         result = spread(record.design, beta=beta, beta_rise=rise, supply=supply, v_load=load,
-                        edge=record.edge, **said)
+                        edge=record.edge, network=record.thermal, **said)
     except DesignError as err:
         if err.parameter in options:
             return _failure(type(err)(err.message, parameter=options[err.parameter], value=err.value,
