@@ -94,6 +94,16 @@ def _electrical_range(evaluation):
             f"{electrical.high.describe()}); thermal runaway ends it sooner")
 
 
+def _electrical_rows(evaluation):
+    """The table row of the range before self-heating cut it (none when it cut nothing)."""
+    electrical = getattr(evaluation, "electrical_compliance", None)
+    if not _electrical_range(evaluation):
+        return []
+    return [["without self-heating", f"{format_quantity(electrical.low.voltage, 'V')} … "
+             f"{format_quantity(electrical.high.voltage, 'V')}",
+             f"{electrical.low.describe()}; {electrical.high.describe()}"]]
+
+
 def _describe_part(evaluation, name):
     part = evaluation.design.structure.part(name)
     return part.kind.describe(evaluation.parts[name].quantities)
@@ -139,8 +149,7 @@ def html(evaluation):
     edges = tables.table(["edge", "load voltage", "limited by"], [
         ["low", format_quantity(c.low.voltage, "V"), c.low.describe()],
         ["high", format_quantity(c.high.voltage, "V"), c.high.describe()],
-    ] + ([["without self-heating", "", _electrical_range(evaluation)]] if _electrical_range(evaluation) else []),
-        numeric=(1,))
+    ] + _electrical_rows(evaluation), numeric=(1,))
     forms = tables.table(["output resistance", "value"],
                          [["exact (from dI/dV_load)", resistance(evaluation.r_out, 5)]]
                          + [[structure.extra_label(k), resistance(v, 5)]
