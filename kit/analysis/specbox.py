@@ -97,7 +97,8 @@ def box_entries(spec, design, self_heating, *, written=None, network=None):
     if self_heating and heated:
         thetas = ", ".join(f"{n} θ_JA {values[f'{n}.theta_ja']:.4g} K/W" for n in heated)
         coupling = network.describe() if network is not None else "each part in its own package"
-        fixed("self-heating", f"included: {thetas}; {coupling}", True)
+        # a placement the record wrote ([thermal]) is the user's, not a default
+        fixed("self-heating", f"included: {thetas}; {coupling}", network is None)
     else:
         fixed("self-heating", "not included", False)
     fixed("RSS coverage", "± tolerance taken as ±3 σ", True)
