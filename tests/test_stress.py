@@ -160,3 +160,29 @@ def test_opamp_driving_a_gate_is_reported_negligible(capsys):
     assert "U1 output: drives a gate only, no DC output current; output-stage dissipation negligible" in text
     # the headline's hottest part is still the pass device, never the op-amp
     assert "stress inside the spec: M1 up to" in text
+
+
+def test_howland_opamp_output_is_its_two_resistor_currents_by_ohms_law():
+    """The Howland pump's op-amp feeds R4 (to its - input) and R2b (to the output): by Ohm's law
+    I_o = (V_o - V_-)/R4 + (V_o - V_load)/R2b, and sinking from the -V_S rail its output stage
+    dissipates (V_o + V_S) |I_o| (the output transistor's V_CE times its current, common practice,
+    no source).  Node voltages from one solve at the worst point; the rest by hand here."""
+    from kit.analysis.spec import Spec
+    from kit.model.solve import solve_points
+
+    record = load_record("examples/howland-sensor-excitation-bipolar.toml")
+    d = record.design
+    spec = Spec(0.4e-3, 0.2, v_load=(-2.0, 2.0))
+    result = worst_case(d, spec, edge=record.edge, methods=EVA, self_heating=False)
+    u1 = next(s for s in result.stress if s.part == "U1")
+    v = d.parameters() | u1.power_conditions
+    model = model_of(d)
+    point = solve_points(model, v)
+    node = dict(zip(model.unknowns, (float(x) for x in point.x[:, 0])))
+    r2b = v["r2b"] * (1 + v["tcr_r2b"] * (v["temp"] - v["t_ref"]))
+    r4 = v["r4"] * (1 + v["tcr_r4"] * (v["temp"] - v["t_ref"]))
+    i_o = (node["V_o"] - node["V_n"]) / r4 + (node["V_o"] - v["v_load"]) / r2b
+    rail = v["v_supply"] if i_o >= 0 else -v["v_supply"]  # the split rails are +-v_supply
+    assert u1.output_current == pytest.approx(i_o, rel=1e-6)
+    assert u1.power == pytest.approx(abs(rail - node["V_o"]) * abs(i_o), rel=1e-6)
+    assert not u1.negligible and u1.power > 0
