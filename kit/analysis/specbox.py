@@ -114,8 +114,9 @@ def box_entries(spec, design, self_heating, *, written=None, network=None):
     heated = [n for n, m in design.devices.items() if "theta_ja" in m.values]
     if self_heating and heated:
         thetas = ", ".join(f"{n} θ_JA {values[f'{n}.theta_ja']:.4g} K/W" for n in heated)
-        coupling = "each part in its own package" if not network or not network.parts() else "thermal network given"
-        fixed("self-heating", f"included: {thetas}; {coupling}", True)
+        coupling = network.describe() if network is not None else "each part in its own package"
+        # a placement the record wrote ([thermal]) is the user's, not a default
+        fixed("self-heating", f"included: {thetas}; {coupling}", network is None)
     else:
         fixed("self-heating", "not included", False)
     fixed("RSS coverage", "± tolerance taken as ±3 σ", True)
