@@ -72,11 +72,12 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
     if record_path is not None:
         load = (f"record = load_record({json.dumps(str(record_path))})\n"
                 "design = record.design\n"
-                "spec = getattr(record, 'spec', None)")
+                "spec = getattr(record, 'spec', None)\n"
+                "thermal = getattr(record, 'thermal', None)  # how the parts share heat ([thermal])")
     else:
         values = ", ".join(f"{k}={v!r}" for k, v in design.values.items())
         load = (f"record = None\ndesign = kit.design({top.key!r}, {design.polarity!r}, {values},\n"
-                f"                    title={heading!r})\nspec = None")
+                f"                    title={heading!r})\nspec = None\nthermal = None")
     # The title and notes may come from a record someone mailed: shown as text, never as markup.
     # The review's cover carries the title: the heading is for the screen.
     cells = [
@@ -94,13 +95,13 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
         _screen_only(_code("render(design)")),
         _markdown("## The design point\n\nExact solve, compliance, output resistance, sensitivities, "
                   "tempco budget and the ledger of simplifications."),
-        _code("# NBVAL_IGNORE_OUTPUT\nevaluation = kit.evaluate(design, edge=getattr(record, 'edge', 'vce_sat'))\n"
-              "evaluation"),
+        _code("# NBVAL_IGNORE_OUTPUT\nevaluation = kit.evaluate(design, edge=getattr(record, 'edge', 'vce_sat'), "
+              "network=thermal)\nevaluation"),
     ]
     if has_spec or record_path is not None:
         cells += [_markdown("## Worst case against the specification"),
                   _code("# NBVAL_IGNORE_OUTPUT\nfrom kit.analysis.worstcase import worst_case\n"
-                        "worst = worst_case(design, spec) if spec is not None else None\nworst")]
+                        "worst = worst_case(design, spec, network=thermal) if spec is not None else None\nworst")]
     else:
         cells.append(_code("worst = None", hide=True))
     cells += [
