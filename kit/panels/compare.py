@@ -188,7 +188,7 @@ class ComparePanel:
         for side in SIDES:
             panel = self.sides[side]
             try:
-                self.results[side] = worst_case(panel.design, panel.spec)
+                self.results[side] = worst_case(panel.design, panel.spec, network=panel.network_for(panel.design))
             except DesignError as err:
                 self.results[side] = None
                 self.status.value = _status(f"Not run for {side}: {err}", error=True)

@@ -59,6 +59,9 @@ class DesignPanel:
     search : dict, optional
         ``topologies=`` and ``polarities=`` for the standard-value search
         (default: this design's topology and polarity).
+    network : kit.analysis.thermal.ThermalNetwork, optional
+        How the parts share heat (a record's ``[thermal]``), for designs of
+        this circuit and polarity (default: each part in its own package).
 
     Attributes
     ----------
@@ -85,8 +88,10 @@ class DesignPanel:
     (False, 2000.0)
     """
 
-    def __init__(self, design, spec=None, *, series=None, settings=None, search=None):
+    def __init__(self, design, spec=None, *, series=None, settings=None, search=None, network=None):
         self.spec = spec
+        self.network = network
+        self._network_circuit = (design.topology.key, design.polarity)  # what the network was written for
         if series is None:
             series = eseries.series_for_tolerance(spec.resistor_tolerance) \
                 if spec is not None and spec.resistor_tolerance else "E24"
@@ -168,7 +173,7 @@ class DesignPanel:
             while True:
                 design = kit.design(top.key, polarity, title=old.title, temp=old.temp, **carried)
                 try:
-                    kit.evaluate(design)
+                    kit.evaluate(design, network=self.network_for(design))
                     return design
                 except DesignError as err:
                     if err.parameter not in carried:
@@ -176,6 +181,16 @@ class DesignPanel:
                     carried.pop(err.parameter)  # this one does not suit the new circuit
 
         return self._apply(make, {"topology": f"{top.key} ({polarity})"})
+
+    def network_for(self, design):
+        """The panel's thermal network for ``design``, or None (each part in its own package).
+
+        A network names parts of the circuit it was written for; another circuit's
+        Q1 and Q2 are other transistors, so after a switch the parts stand alone.
+        """
+        if self.network is None or (design.topology.key, design.polarity) != self._network_circuit:
+            return None
+        return self.network
 
     def csv(self, name):
         """The numbers of plot ``name`` as CSV text (what its download button saves).
@@ -371,7 +386,7 @@ class DesignPanel:
     def _compute(self, design, settings, reuse=None):
         start = time.perf_counter()
         # A load-voltage step keeps the compliance edges: the kit reuses them when nothing else changed.
-        evaluation = kit.evaluate(design, reuse=reuse)
+        evaluation = kit.evaluate(design, reuse=reuse, network=self.network_for(design))
         headline = headline_of(evaluation)
         evaluated = time.perf_counter()
         data = curves.plot_data(design, evaluation, self.spec, settings)

@@ -130,7 +130,7 @@ class WorstCaseView:
         design = self.panel.design
         self.status.value = _status("Running …")
         try:
-            result = worst_case(design, self.spec)
+            result = worst_case(design, self.spec, network=self.panel.network_for(design))
         except DesignError as err:
             self.status.value = _status(f"Not run: {err}", error=True)
             return None

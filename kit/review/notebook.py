@@ -47,7 +47,7 @@ show_review_figures(design, evaluation, spec, worst)"""
 PANEL_CELL = """\
 # NBVAL_IGNORE_OUTPUT
 from kit.panels import DesignPanel
-panel = DesignPanel(design, spec)
+panel = DesignPanel(design, spec, network=thermal)
 panel"""
 
 PANEL_TEXT = ("## The design panel\n\nType a value (`4k7`, `4k7 5%`), step a resistor, move a slider, switch "
