@@ -432,12 +432,13 @@ def test_every_new_notebook_opens_a_panel_with_the_records_spec():
     for top in kit.list_topologies():
         design = kit.design(top.key)
         notebook = new_notebook(design, record_path="design.toml")
-        cells = [c for c in notebook.cells if "DesignPanel(design, spec)" in c.source]
+        cells = [c for c in notebook.cells if "DesignPanel(design, spec, network=thermal)" in c.source]
         assert len(cells) == 1, top.key
         assert SCREEN_ONLY_TAG in cells[0].metadata["tags"]  # on screen, not in the printed review
         # ``spec`` is the record's (or None): defined before the panel cell.
         before = "\n".join(c.source for c in notebook.cells[:notebook.cells.index(cells[0])])
         assert "spec = getattr(record, 'spec', None)" in before
+        assert "thermal = getattr(record, 'thermal', None)" in before  # the record's [thermal], or None
 
 
 def test_panel_shares_heat_as_the_records_thermal_section_says():

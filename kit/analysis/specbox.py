@@ -44,6 +44,8 @@ RECORD_NAMES = {"i_target": "current"}
 def _is_written(name, spec, written):
     if written is not None:
         return RECORD_NAMES.get(name, name) in written or name in written
+    if name in (spec.assumed or ()):  # left out by the caller and filled by the spec
+        return False
     default = Spec.__dataclass_fields__[name]
     value = getattr(spec, name)
     if default.default is MISSING:  # a table (beta, bounds, ...): written when not empty

@@ -15,6 +15,7 @@ import ipywidgets as widgets
 import numpy as np
 
 from kit.report import tables as display
+from kit.report.worstcase import box_lines
 from kit.analysis.synthesis import synthesize
 from kit.analysis.worstcase import worst_case
 from kit.errors import DesignError
@@ -194,6 +195,8 @@ class WorstCaseView:
         head = "".join(f'<th style="{_CELL};background:#eef2f5;text-align:left">{h}</th>'
                        for h in ("method", "lowest", "highest", "margin to spec", "verdict", "how"))
         reasons = "".join(f"<li>{display.escape(r)}</li>" for r in result.reasons())
+        # Every verdict says over what it holds (record text escaped).
+        over = "".join(f"<li>{display.escape(line)}</li>" for line in box_lines(result))
         verdict = ("spec met: the extreme-value bound lies inside the limits" if result.met
                    else "spec not met")
         return (f'<div style="font-family:{theme.FONT};font-size:13px">'
@@ -203,6 +206,8 @@ class WorstCaseView:
                 f"{'included' if result.self_heating else 'not included'}.</p>"
                 f'<table style="border-collapse:collapse"><tr>{head}</tr>{"".join(rows)}</table>'
                 f"<p>{_verdict(result.met)} — {verdict}</p>" + (f"<ul>{reasons}</ul>" if reasons else "")
+                + (f'<p style="margin-bottom:2px">Over the spec\'s box (defaults it applied marked):</p>'
+                   f'<ul style="margin-top:0">{over}</ul>' if over else "")
                 + "</div>")
 
 
