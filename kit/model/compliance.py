@@ -125,15 +125,16 @@ def _refine_edges(model, values, edge, scan, ends):
     """Refine each edge between ``grid[index]`` (inside) and its outside neighbour, all at once.
 
     ``scan`` is ``(grid, worst margin, its keys, points)`` of the scan; ``ends``
-    holds ``(index, direction)`` pairs.  Every round solves a few load
-    voltages in each remaining bracket in one vectorised call: a secant estimate
-    with a point just either side of it (the bracket then closes around the
-    root in two or three rounds, the margin being near linear in the load
-    voltage) and the quarter points (the bracket at least quarters even where
-    the margin bends or the outside end did not solve).  An edge ends when its
-    bracket is narrower than a quarter of ``EDGE_TOLERANCE``: its voltage is the
-    inside end (a load set at the edge is accepted), its part and cause those
-    limiting at the outside end, just beyond.
+    holds ``(index, direction)`` pairs.  Every round solves, in one vectorised
+    call for all edges, load voltages around three estimates of each edge (the
+    secant across the bracket and the lines through the two nearest points on
+    either side: the margin is near linear on one side of an edge even where it
+    bends on the other), each with points closer and closer either side, plus
+    the bracket's quarter points (so it at least quarters where the estimates
+    fail or the outside end did not solve).  An edge ends when its bracket is
+    narrower than a quarter of ``EDGE_TOLERANCE``: its voltage is the inside
+    end (a load set at the edge is accepted), its part and cause those limiting
+    at the outside end, just beyond.
     """
     grid, worst, keys, points = scan
     edges, active = [None] * len(ends), []
@@ -141,42 +142,76 @@ def _refine_edges(model, values, edge, scan, ends):
         outside = index + direction
         if outside < 0 or outside >= len(grid):
             edges[k] = Edge(float(grid[index]), None, None)
-        else:  # edge, inside end, outside end, margins there, key at the outside end
-            active.append([k, grid[index], grid[outside], worst[index], worst[outside], keys[outside]])
+            continue
+        near = [j for j in (index - direction, index, outside, outside + direction) if 0 <= j < len(grid)]
+        active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j]) for j in near]))
     done = []
     for _ in range(60):
-        done += [br for br in active if abs(br[2] - br[1]) <= EDGE_TOLERANCE / 4]
-        active = [br for br in active if abs(br[2] - br[1]) > EDGE_TOLERANCE / 4]
+        done += [b for b in active if b.width <= EDGE_TOLERANCE / 4]
+        active = [b for b in active if b.width > EDGE_TOLERANCE / 4]
         if not active:
             break
-        trial = [_trial_points(*br[1:5]) for br in active]
+        trial = [b.trial_points() for b in active]
         points = solve_points(model, values | {"v_load": np.concatenate(trial)})
         margin, limits = points.worst_margin(edge)
         at = 0
-        for br, v_load in zip(active, trial):
-            here = slice(at, at + len(v_load))
+        for bracket, v_load in zip(active, trial):
+            bracket.add(zip(v_load, margin[at:at + len(v_load)], limits[at:at + len(v_load)]))
             at += len(v_load)
-            # Walk from the inside end: the first point outside closes the bracket.
-            order = np.argsort((v_load - br[1]) * np.sign(br[2] - br[1]))
-            for x, fx, key in zip(v_load[order], margin[here][order], np.array(limits[here], dtype=object)[order]):
-                if np.isfinite(fx) and fx >= 0:
-                    br[1], br[3] = x, fx
-                else:
-                    br[2], br[4], br[5] = x, fx, tuple(key)
-                    break
-    for k, a, _, _, _, (part, cause) in done + active:
-        edges[k] = Edge(float(a), part, cause, points.cause_text(part, cause))
+    for bracket in done + active:
+        (a, _, _), (_, _, (part, cause)) = bracket.inside, bracket.outside
+        edges[bracket.edge] = Edge(float(a), part, cause, points.cause_text(part, cause))
     return edges
 
 
-def _trial_points(a, b, fa, fb):
-    """Load voltages to try strictly inside the bracket ``(a, b)``."""
-    width = b - a
-    quarters = a + width * np.array([0.25, 0.5, 0.75])
-    if not (np.isfinite(fa) and np.isfinite(fb)) or fa == fb:
-        return quarters
-    secant = a - fa * width / (fb - fa)
-    delta = max(abs(width) * 1e-3, EDGE_TOLERANCE / 8) * np.sign(width)
-    near = np.array([secant - delta, secant, secant + delta])
-    inside = (near - a) * (near - b) < 0  # strictly between the ends
-    return np.concatenate([near[inside], quarters])
+class _Bracket:
+    """The load voltages solved near one edge, ``(v_load, margin, limiting key)``, in search order."""
+
+    def __init__(self, edge, direction, samples):
+        self.edge, self.direction, self.samples = edge, direction, []
+        self.add(samples)
+
+    def add(self, samples):
+        # Sorted along the search direction, inside first; the bracket is the first
+        # inside -> outside change (the stretch that holds the nominal load voltage).
+        self.samples = sorted([*self.samples, *samples], key=lambda s: s[0] * self.direction)
+        first_out = next(j for j, s in enumerate(self.samples) if j > 0 and not _inside(s[1])
+                         and _inside(self.samples[j - 1][1]))
+        self.at = first_out - 1
+        self.samples = self.samples[max(self.at - 1, 0):first_out + 2]  # what the estimates use
+        self.at = min(self.at, 1)
+
+    @property
+    def inside(self):
+        return self.samples[self.at]
+
+    @property
+    def outside(self):
+        return self.samples[self.at + 1]
+
+    @property
+    def width(self):
+        return abs(self.outside[0] - self.inside[0])
+
+    def trial_points(self):
+        """Load voltages to solve next, strictly inside the bracket."""
+        (a, fa, _), (b, fb, _) = self.inside, self.outside
+        width = b - a
+        lines = [(self.inside, self.outside)]
+        if self.at > 0:
+            lines.append((self.samples[self.at - 1], self.inside))
+        if self.at + 2 < len(self.samples):
+            lines.append((self.outside, self.samples[self.at + 2]))
+        ladder = [abs(width) * 10.0 ** -k for k in range(2, 16, 2) if abs(width) * 10.0 ** -k > EDGE_TOLERANCE / 8]
+        steps = np.array([0.0, *ladder, EDGE_TOLERANCE / 8])
+        out = [a + width * np.array([0.25, 0.5, 0.75])]
+        for (x0, f0, _), (x1, f1, _) in lines:
+            if np.isfinite(f0) and np.isfinite(f1) and f0 != f1:
+                estimate = x0 - f0 * (x1 - x0) / (f1 - f0)
+                out += [estimate - steps, estimate + steps[1:]]
+        trial = np.unique(np.concatenate(out))
+        return trial[(trial - a) * (trial - b) < 0]
+
+
+def _inside(margin):
+    return bool(np.isfinite(margin) and margin >= 0)

@@ -288,6 +288,8 @@ def parameter_array(model, values, size=None):
         raise ParameterError("parameter arrays must be one-dimensional", parameter="values")
     shape = shape or (1,)
     p = np.stack([np.broadcast_to(a, shape) for a in arrays])
+    if np.isfinite(p).all():  # the common case, checked at once (this runs before every solve)
+        return p
     for name, row in zip(model.parameter_names, p):
         if not np.all(np.isfinite(row) | (np.isposinf(row) & _may_be_infinite(name))):
             raise ParameterError("must be finite", parameter=name, value=float(row[~np.isfinite(row)][0]))

@@ -22,7 +22,7 @@ from kit.report import html as report_html
 from kit.report.evaluation import headline as headline_of
 from kit.analysis import eseries
 from kit.errors import DesignError, ParameterError
-from kit.panels import curves, inputs, plots, theme, views
+from kit.panels import curves, inputs, plots, sync, theme, views
 from kit.panels.ledger import ledger_html
 from kit.quantities import celsius_to_kelvin, format_quantity, kelvin_to_celsius, parse_quantity
 
@@ -355,17 +355,23 @@ class DesignPanel:
             if self._layout_key is None or key[:2] != self._layout_key[:2]:
                 self._build_tabs()
             self._layout_key = key
-        plots.fill(self.figures, self.sources, state.data)
-        self.title.value = views.title_html(state.design)
-        self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
-        self.schematic.value = state.schematic
-        self.ledger.value = state.ledger
-        self._show_values()
-        self._clear_message()
+        # One message per widget and one patch per figure, sent when the block ends.
+        with sync.batched(self.bokeh.values(), self._synced_widgets()):
+            plots.fill(self.figures, self.sources, state.data)
+            self.title.value = views.title_html(state.design)
+            self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
+            self.schematic.value = state.schematic
+            self.ledger.value = state.ledger
+            self._show_values()
+            self._clear_message()
         self.timings = dict(self._pending_timings, widgets=time.perf_counter() - start)
         self.timings["total"] = sum(self.timings.values())
         for callback in self._listeners:
             callback(self)
+
+    def _synced_widgets(self):
+        return [self.title, self.headline, self.schematic, self.ledger, self.message_line,
+                *(f.text for f in self.fields.values()), *(e.widget for e in self.sliders.values())]
 
     # -- messages -------------------------------------------------------------------
     def _refuse(self, err, changes):
@@ -397,8 +403,6 @@ class DesignPanel:
     # curves, the sensitivities, the equations with their ledger, the drawing).  Each
     # band wraps, so a narrow notebook column reflows instead of cutting.
     def _build_widgets(self):
-        from jupyter_bokeh.widgets import BokehModel
-
         from kit.topologies import all_topologies
 
         self.title = widgets.HTML(layout=widgets.Layout(flex="1 1 320px"))
@@ -429,7 +433,7 @@ class DesignPanel:
             indent=False, layout=widgets.Layout(width="auto")), lambda value: self.configure(self_heating=value))
         # One BokehModel per figure: each patch is serialised against its own small
         # document, several times faster than against one document of all five.
-        self.bokeh = {name: BokehModel(fig) for name, fig in self.figures.items()}
+        self.bokeh = {name: sync.BatchedBokehModel(fig) for name, fig in self.figures.items()}
         self.settings_box = _wrap()
         head = widgets.Box([self.title, self.topology_choice.widget, self.polarity_choice.widget],
                            layout=_band_layout(align_items="center"))
