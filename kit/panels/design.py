@@ -444,6 +444,7 @@ class DesignPanel:
         ], layout=widgets.Layout(width="100%"))
         self.plots = widgets.VBox([self.bokeh[name] for name in plots.FIGURES])
         self.tabs = widgets.Tab(layout=widgets.Layout(width="100%"))
+        self.tabs.observe(self._show_tab, "selected_index")
         self.widget = widgets.VBox([widgets.HTML(_STYLE), self.top, _heading("How the numbers come about"),
                                     self.tabs, self.settings_box],
                                    layout=widgets.Layout(width="100%", max_width="1000px"))
@@ -470,6 +471,16 @@ class DesignPanel:
         self.tabs.titles = titles
         # The same view stays open across a switch; the gain view, gone with the bipolar parts, gives way to the first.
         self.tabs.selected_index = titles.index(before) if before in titles else 0
+        self._show_tab()
+
+    def _show_tab(self, change=None):
+        """Only the open tab's view sends its changes; the others send theirs when opened."""
+        index = self.tabs.selected_index
+        shown = self.tabs.children[index] if index is not None and index < len(self.tabs.children) else None
+        for model in self.bokeh.values():
+            model.hidden = model is not shown
+        for view in (self.ledger, self.schematic):
+            sync.hold_while_hidden(view, view is not shown)
 
     def _build_inputs(self):
         design = self.design

@@ -9,6 +9,12 @@ changes made inside :meth:`~BatchedBokehModel.batch` and sends them as one
 patch, its arrays written inline (base64), so each figure gets three
 messages and redraws once.  :func:`batched` does this for several figures
 and holds the ipywidgets' state messages alike (one message per widget).
+
+A view in a tab the designer does not look at is kept up to date in the
+kernel but sends nothing (:attr:`BatchedBokehModel.hidden`,
+:func:`hold_while_hidden`); what it held goes out, as one message, when its
+tab is opened.  The browser then neither redraws hidden plots nor typesets
+a hidden ledger on every change.
 """
 
 from __future__ import annotations
@@ -16,6 +22,7 @@ from __future__ import annotations
 import contextlib
 
 from bokeh.core.serialization import Serializer
+from bokeh.document.events import ModelChangedEvent
 from bokeh.protocol.messages.patch_doc import patch_doc
 from jupyter_bokeh.widgets import BokehModel
 
@@ -41,8 +48,27 @@ class BatchedBokehModel(BokehModel):
 
     def __init__(self, model, **kwargs):
         self._held = None
+        self._hidden = False
+        self._waiting = []  # changes held while hidden, oldest first
         self.sent_patches = 0
         super().__init__(model, **kwargs)
+
+    @property
+    def hidden(self):
+        """True while no one looks at the figure: changes wait, and go out as one patch when shown."""
+        return self._hidden
+
+    @hidden.setter
+    def hidden(self, hidden):
+        self._hidden = bool(hidden)
+        if not self._hidden and self._waiting:
+            events, self._waiting = _latest(self._waiting), []
+            self._send_patch(events)
+
+    def update_from_model(self, model):
+        """Send the figure whole (as the parent does); changes waiting until then are in it."""
+        self._waiting = []
+        super().update_from_model(model)
 
     @contextlib.contextmanager
     def batch(self):
@@ -55,7 +81,9 @@ class BatchedBokehModel(BokehModel):
             yield
         finally:
             events, self._held = self._held, None
-            if events:
+            if events and self._hidden:
+                self._waiting += events
+            elif events:
                 self._send_patch(events)
 
     def _document_patched(self, event):
@@ -63,8 +91,10 @@ class BatchedBokehModel(BokehModel):
             return
         if self._held is not None:
             self._held.append(event)
-            return
-        self._send_patch([event])
+        elif self._hidden:
+            self._waiting.append(event)
+        else:
+            self._send_patch([event])
 
     def _send_patch(self, events):
         # As bokeh's PATCH-DOC message, but with the arrays inline: a buffer costs two
@@ -77,6 +107,33 @@ class BatchedBokehModel(BokehModel):
         for part in (message.header_json, message.metadata_json, message.content_json):
             self.send({"msg": "patch", "payload": part})
         self.sent_patches += 1
+
+
+def _latest(events):
+    """``events`` with only the last change of each property of each model (the browser needs no other)."""
+    last = {}
+    for k, event in enumerate(events):
+        if isinstance(event, ModelChangedEvent):
+            last[event.model.id, event.attr] = k
+    return [event for k, event in enumerate(events)
+            if not isinstance(event, ModelChangedEvent) or last[event.model.id, event.attr] == k]
+
+
+def hold_while_hidden(widget, hidden):
+    """Hold (``hidden``) or release the state messages of an ipywidget.
+
+    While held, the widget's value changes in the kernel as usual but nothing
+    is sent; on release its changed state goes out in one message.  Uses the
+    same hold as :meth:`ipywidgets.Widget.hold_sync`, so a batch inside it
+    does not send either.
+    """
+    if hidden:
+        widget._holding_sync = True
+    elif widget._holding_sync:
+        widget._holding_sync = False
+        if widget._states_to_send:
+            widget.send_state(widget._states_to_send)
+        widget._states_to_send.clear()
 
 
 @contextlib.contextmanager
