@@ -40,6 +40,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
 TOKEN = "biasbook-panel-latency"
+TABS = ("β_F", "temperature", "sensitivities", "tempco", "ledger", "circuit")  # opened after the changes
 QUIET_MS = 1200  # nothing of the panel changed this long: the change is fully shown
 CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking",
                  "--disable-component-update", "--disable-sync", "--no-first-run"]
@@ -72,11 +73,13 @@ _INSTRUMENT = """() => {
         requestAnimationFrame(frame);
     };
     requestAnimationFrame(frame);
-    // The change starts with the key that makes it (capture: before any widget sees it).
+    // The change starts with the key or the press that makes it (capture: before any widget sees it).
+    const start = () => { watch.t0 = performance.now(); watch.changes = 0; watch.painted = 0; };
     document.addEventListener('keydown', (e) => {
-        if (['Enter', 'ArrowRight', 'ArrowLeft'].includes(e.key) && panel.contains(e.target)) {
-            watch.t0 = performance.now(); watch.changes = 0; watch.painted = 0;
-        }
+        if (['Enter', 'ArrowRight', 'ArrowLeft'].includes(e.key) && panel.contains(e.target)) start();
+    }, true);
+    document.addEventListener('pointerdown', (e) => {
+        if (e.target.closest && e.target.closest('.lm-TabBar-tab') && panel.contains(e.target)) start();
     }, true);
 }"""
 
@@ -189,10 +192,11 @@ def _timed(page, act, timeout=60.0):
 def measure_changes(page, typed=10, slider_steps=10, resistor="r_e", slider="v_load", warmup=2):
     """Time ``typed`` typed resistor values and ``slider_steps`` slider steps on the open panel.
 
-    The panel must show the default divider source design values for
-    ``resistor`` (it is stepped through E24 values around it); the load
-    slider is stepped right.  The first ``warmup`` changes (typed) are not
-    counted.  Returns the figures as :func:`measure` does.
+    The panel must show the default divider source design (``resistor`` is
+    stepped through E24 values around its value); the load slider is
+    stepped right.  The first ``warmup`` changes (typed) are not counted.
+    Then each view in :data:`TABS` is opened and timed until it shows the
+    present design.  Returns the figures as :func:`measure` does.
     """
     import kit
     from kit.analysis.eseries import neighbours
@@ -235,11 +239,19 @@ def measure_changes(page, typed=10, slider_steps=10, resistor="r_e", slider="v_l
             raise AssertionError(f"a step of the {slider} slider did not change the panel")
         slider_ms.append(elapsed)
     every = typed_ms + slider_ms
+    # A view in a closed tab catches up when opened: time that too (not part of the median above).
+    tab_ms = []
+    for title in TABS:
+        tab = page.locator(".biasbook-panel .lm-TabBar-tab", has_text=title).first
+        if tab.count():
+            tab_ms.append(_timed(page, tab.click))
+    page.locator(".biasbook-panel .lm-TabBar-tab").first.click()
     return {"panel_browser_update_ms": statistics.median(every),
             "panel_browser_typed_ms": statistics.median(typed_ms),
             "panel_browser_slider_ms": statistics.median(slider_ms),
             "panel_browser_worst_ms": max(every),
-            "panel_browser_changes": len(every)}
+            "panel_browser_changes": len(every),
+            "panel_browser_tab_ms": statistics.median(tab_ms)}
 
 
 def measure(typed=10, slider_steps=10, kit_root=ROOT):
@@ -250,7 +262,9 @@ def measure(typed=10, slider_steps=10, kit_root=ROOT):
     dict
         ``panel_browser_update_ms`` (median over every change),
         ``panel_browser_typed_ms`` and ``panel_browser_slider_ms`` (medians by
-        kind), ``panel_browser_worst_ms`` and ``panel_browser_changes``.
+        kind), ``panel_browser_worst_ms``, ``panel_browser_changes`` and
+        ``panel_browser_tab_ms`` (median time for a closed view, opened, to
+        show the present design).
     """
     import nbformat
     from playwright.sync_api import sync_playwright

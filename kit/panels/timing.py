@@ -30,7 +30,10 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
     Returns
     -------
     dict
-        ``panel_update_s`` and ``panel_update_<phase>_s`` (medians),
+        ``panel_update_s`` (and in ms ``panel_update_ms``) and
+        ``panel_update_<phase>_s`` (medians of wall time),
+        ``panel_update_cpu_ms`` (median processor time of the kernel process:
+        what the change costs when other jobs share the cores),
         ``panel_update_over_evaluate`` (median of total / evaluate per change),
         ``panel_updates`` (changes applied) and ``panel_points`` (points per curve).
 
@@ -55,23 +58,25 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
         name = design.topology.resistors[0]
         values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
         values = [v for v in values if v != design.values[name]]
-    totals, phases = [], {phase: [] for phase in PHASES}
+    totals, cpus, phases = [], [], {phase: [] for phase in PHASES}
     enabled = gc.isenabled()
     for value in values[:changes]:
         gc.disable()  # as timeit does: a collection mid-change is not the panel's cost
         try:
-            start = time.perf_counter()
+            start, cpu = time.perf_counter(), time.process_time()
             applied = panel.update(**{name: value})
-            elapsed = time.perf_counter() - start
+            elapsed, cpu = time.perf_counter() - start, time.process_time() - cpu
         finally:
             if enabled:
                 gc.enable()
         if not applied:
             continue
         totals.append(elapsed)
+        cpus.append(cpu)
         for phase in PHASES:
             phases[phase].append(panel.timings[phase])
     out = {"panel_update_s": statistics.median(totals), "panel_update_ms": 1e3 * statistics.median(totals),
+           "panel_update_cpu_ms": 1e3 * statistics.median(cpus),
            "panel_updates": len(totals), "panel_points": points}
     out.update({f"panel_update_{phase}_s": statistics.median(v) for phase, v in phases.items()})
     # What the panel adds to the kit's own evaluation, as a ratio measured in this run.
