@@ -22,7 +22,7 @@ from __future__ import annotations
 import contextlib
 
 from bokeh.core.serialization import Serializer
-from bokeh.document.events import ModelChangedEvent
+from bokeh.document.events import ColumnDataChangedEvent, ModelChangedEvent
 from bokeh.protocol.messages.patch_doc import patch_doc
 from jupyter_bokeh.widgets import BokehModel
 
@@ -110,13 +110,17 @@ class BatchedBokehModel(BokehModel):
 
 
 def _latest(events):
-    """``events`` with only the last change of each property of each model (the browser needs no other)."""
+    """``events`` without the changes a later one replaces whole (the browser needs only the last)."""
+    def whole(event):  # a new value of the whole property
+        return isinstance(event, ModelChangedEvent) or (isinstance(event, ColumnDataChangedEvent)
+                                                        and event.cols is None)
+
     last = {}
     for k, event in enumerate(events):
-        if isinstance(event, ModelChangedEvent):
+        if whole(event):
             last[event.model.id, event.attr] = k
     return [event for k, event in enumerate(events)
-            if not isinstance(event, ModelChangedEvent) or last[event.model.id, event.attr] == k]
+            if not whole(event) or last[event.model.id, event.attr] == k]
 
 
 def hold_while_hidden(widget, hidden):
