@@ -39,8 +39,6 @@ class _State:
     evaluation: object
     data: object
     headline: dict
-    schematic: str
-    ledger: str
 
 
 class DesignPanel:
@@ -224,7 +222,7 @@ class DesignPanel:
     @property
     def ledger_html(self):
         """The derivation and ledger view as HTML with LaTeX."""
-        return self._state.ledger
+        return self.ledger.value
 
     def _ipython_display_(self):
         import os
@@ -339,12 +337,8 @@ class DesignPanel:
         headline = headline_of(evaluation)
         evaluated = time.perf_counter()
         data = curves.plot_data(design, evaluation, self.spec, settings)
-        swept = time.perf_counter()
-        schematic = views.schematic_html(design)
-        ledger = ledger_html(evaluation)
-        self._pending_timings = {"evaluate": evaluated - start, "sweeps": swept - evaluated,
-                                 "views": time.perf_counter() - swept}
-        return _State(design, evaluation, data, headline, schematic, ledger)
+        self._pending_timings = {"evaluate": evaluated - start, "sweeps": time.perf_counter() - evaluated}
+        return _State(design, evaluation, data, headline)
 
     def _commit(self, state):
         start = time.perf_counter()
@@ -360,11 +354,14 @@ class DesignPanel:
             plots.fill(self.figures, self.sources, state.data)
             self.title.value = views.title_html(state.design)
             self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
-            self.schematic.value = state.schematic
-            self.ledger.value = state.ledger
             self._show_values()
             self._clear_message()
-        self.timings = dict(self._pending_timings, widgets=time.perf_counter() - start)
+        sent = time.perf_counter()
+        # The drawing and the ledger are drawn after the numbers and plots have gone out
+        # (the browser shows those meanwhile); a closed tab holds them until it opens.
+        self.schematic.value = views.schematic_html(state.design)
+        self.ledger.value = ledger_html(state.evaluation)
+        self.timings = dict(self._pending_timings, views=time.perf_counter() - sent, widgets=sent - start)
         self.timings["total"] = sum(self.timings.values())
         for callback in self._listeners:
             callback(self)

@@ -1,8 +1,9 @@
 """How long a panel takes to show a change, kernel side (for ``benchmarks/run.py``).
 
-One change = a value typed into the panel until every plot source and the
-headline numbers hold the new design's data; the browser's redraw is not
-counted.  Each change uses a different standard value, so no cache helps.
+One change = a value typed into the panel until every plot source, the
+headline numbers, the drawing and the ledger hold the new design's data and
+the widgets have sent what the browser shows; the browser's redraw is not
+counted (``benchmarks/panel_browser.py`` times that).  Each change uses a different standard value, so no cache helps.
 """
 
 from __future__ import annotations
@@ -24,8 +25,9 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
     ``value="v_load"`` the load voltage, stepped across compliance as its
     slider does (the compliance edges are then reused).  Phases:
     ``evaluate`` (:func:`kit.evaluate` and its headline), ``sweeps`` (the plot
-    columns), ``views`` (schematic, ledger HTML), ``widgets`` (sources, axis
-    texts and input widgets updated in place).
+    columns), ``widgets`` (sources, axis texts and input widgets updated in
+    place and sent), ``views`` (schematic and ledger HTML, made after the
+    numbers and plots went out; counted in the total all the same).
 
     Returns
     -------
