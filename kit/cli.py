@@ -74,6 +74,9 @@ def build_parser():
                           help="print one JSON object instead of text")
     evaluate.add_argument("--edge", choices=EDGES, default=None,
                           help="saturation criterion; overrides the record's conditions.edge")
+    evaluate.add_argument("--no-self-heating", action="store_true",
+                          help="compliance without self-heating (default: it ends where the junctions' "
+                               "heating runs away, with the record's [thermal] network)")
     check = commands.add_parser(
         "check", help="check a record's [spec]: exit 0 when met, 1 when not",
         description="Check the record's specification by extreme values (the guarantee), RSS and "
@@ -122,6 +125,9 @@ def build_parser():
     review.add_argument("-o", "--output", required=True, metavar="OUT.pdf")
     review.add_argument("--with-code", action="store_true", help="show the code cells too")
     review.add_argument("--keep-html", metavar="PAGE.html", help="also keep the HTML page")
+    review.add_argument("--html-twin", metavar="TWIN.html",
+                        help="also write one self-contained HTML file that opens with no network "
+                             "(equations set, plots interactive) for a wiki or an e-mail")
     new = commands.add_parser(
         "new", help="start a design notebook for a topology",
         description="Write a design notebook from the standard template, with the topology's default "
@@ -168,10 +174,10 @@ def main(argv=None):
         if args.command == "spread":
             return _spread(args)
         if args.command == "review":
-            return _review(args.source, args.output, args.with_code, args.keep_html)
+            return _review(args.source, args.output, args.with_code, args.keep_html, args.html_twin)
         if args.command == "new":
             return _new(args.topology, args.output, args.record, args.polarity)
-        return _evaluate(args.record, args.edge, args.json)
+        return _evaluate(args.record, args.edge, args.json, not args.no_self_heating)
     except BrokenPipeError:  # the reader left early (`| head`): stop quietly
         _silence_stdout()
         return EXIT_CUT_SHORT
@@ -248,7 +254,7 @@ def _list_parts(as_json):
 
 # --- evaluate -----------------------------------------------------------------------
 
-def _evaluate(path, edge, as_json):
+def _evaluate(path, edge, as_json, self_heating=True):
     from kit.record import load_record
 
     try:
@@ -260,7 +266,7 @@ def _evaluate(path, edge, as_json):
     from kit.report.cautions import cautions
 
     try:
-        evaluation = kit.evaluate(record.design, edge=edge)
+        evaluation = kit.evaluate(record.design, edge=edge, self_heating=self_heating, network=record.thermal)
         report = evaluation.to_dict() if as_json else reports.text(evaluation)
         warnings = cautions(evaluation)
     except DesignError as err:
@@ -306,6 +312,8 @@ def _record_heading(record, digest, edge):
     lines += [f"migrated  {note}" for note in record.migrated]
     for name, model in record.design.devices.items():
         lines.append(f"{name:<9} {model.label}")
+    if record.thermal is not None:
+        lines.append(f"thermal   {record.thermal.describe()}")
     return "\n".join(lines)
 
 
@@ -338,9 +346,10 @@ def _check(path, as_json, self_heating):
     if record is None:
         return code
     try:
-        kit.evaluate(record.design, edge=record.edge)  # the design point itself must work
+        # the design point itself must work (past a runaway edge it does not, when self-heated)
+        kit.evaluate(record.design, edge=record.edge, self_heating=self_heating, network=record.thermal)
         result = worst_case(record.design, record.spec, self_heating=self_heating, edge=record.edge,
-                            written=_spec_fields_written(record.source))
+                            network=record.thermal, written=_spec_fields_written(record.source))
     except DesignError as err:
         return _failure(_as_field(err, record), EXIT_NOT_EVALUABLE, as_json)
     if as_json:
@@ -443,7 +452,7 @@ def _spread(args):
         load, said["load_source"] = spec.v_load, "the record's [spec]"
     try:
         result = spread(record.design, beta=beta, beta_rise=rise, supply=supply, v_load=load,
-                        edge=record.edge, **said)
+                        edge=record.edge, network=record.thermal, **said)
     except DesignError as err:
         if err.parameter in options:
             return _failure(type(err)(err.message, parameter=options[err.parameter], value=err.value,
@@ -459,18 +468,29 @@ def _spread(args):
     return EXIT_OK
 
 
-def _review(source, output, with_code, keep_html):
+def _review(source, output, with_code, keep_html, twin=None):
     from kit.review.build import build_review
 
-    def progress(stage):
-        print(f"biasbook review: {stage}", file=sys.stderr, flush=True)
+    live = sys.stderr.isatty()
+
+    def progress(stage, cell=None, cells=None):
+        if cell is None:
+            print(f"biasbook review: {stage}", file=sys.stderr, flush=True)
+            return
+        # One line rewritten in a terminal; a line per cell in a log.
+        line = f"biasbook review: executing, {cell} of {cells} cells done"
+        last = cell == cells
+        print(("\r" + line + ("\n" if last else "")) if live else line, end="" if live else "\n",
+              file=sys.stderr, flush=True)
 
     try:
-        build_review(source, output, with_code=with_code, progress=progress, keep_html=keep_html)
+        build_review(source, output, with_code=with_code, progress=progress, keep_html=keep_html, twin=twin)
     except DesignError as err:
         return _failure(err, EXIT_BAD_INPUT if err.parameter in ("source", "file") or
                         type(err).__name__ == "RecordError" else EXIT_NOT_EVALUABLE, False)
     _say(output)
+    if twin:
+        _say(twin)
     return EXIT_OK
 
 

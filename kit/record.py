@@ -353,7 +353,140 @@ def _read_devices(raw, context):
             models[name] = (base or typical_device(part)).with_values(**changes)
         except ParameterError as err:
             raise _from_kit(err, f"{where}.{err.parameter}") from None
+    context["devices"] = models
+    context["written_theta"] = {name: "theta_ja" in overrides for name, overrides in table.items()}
     return {"devices": models, "t_rise": rises}
+
+
+# --- [thermal]: how the parts share their heat (kit.analysis.thermal.ThermalNetwork) ----------
+THERMAL_KEYS = ("coupled", "heatsinks")
+COUPLED_KEYS = ("parts", "mutual")
+HEATSINK_KEYS = ("sink_to_air", "junction_to_sink")
+THERMAL_RESISTANCE = ("K/W", (0.0, 2000.0))  # the kit's range of a thermal resistance
+MAX_THERMAL_GROUPS = 64  # a record couples a handful of parts
+_SINK_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_-]{0,39}")
+_SAME_THETA = 1e-9  # relative: a written theta_ja equal to a heatsink's path
+
+
+def _thermal_number(raw, field):
+    unit, limits = THERMAL_RESISTANCE
+    return _number(raw, field, unit, limits, " (a thermal resistance, e.g. \"60 K/W\")")
+
+
+def _read_thermal(raw, context):
+    """The optional [thermal] section: parts coupled on one die or package, shared heatsinks.
+
+    Returns the devices with each heatsink member's ``theta_ja`` set to its
+    path to the air (junction to sink plus sink to air: what the part's own
+    power rating is derated with); the network goes to ``context["thermal"]``.
+    """
+    from kit.analysis.thermal import Heatsink, ThermalNetwork
+    from kit.model.design import typical_device
+
+    context["thermal"] = None
+    if raw is None:
+        return {}
+    table = _table(raw, "thermal")
+    _only_keys(table, THERMAL_KEYS, "thermal")
+    s = structure(context["topology"], context["polarity"])
+    heated = [p.name for p in s.devices if "theta_ja" in p.params]
+    models = dict(context.get("devices", {}))
+    written = context.get("written_theta", {})
+
+    def part_name(raw_name, field):
+        if not isinstance(raw_name, str) or raw_name not in heated:
+            raise _fail("names no part with a thermal resistance in this circuit", field, raw_name,
+                        ", ".join(heated) or "none in this circuit")
+        return raw_name
+
+    heatsinks, sunk = [], {}
+    sinks = _table(table.get("heatsinks", {}), "thermal.heatsinks")
+    if len(sinks) > MAX_THERMAL_GROUPS:
+        raise _fail("too many heatsinks", "thermal.heatsinks", valid=f"at most {MAX_THERMAL_GROUPS}")
+    for name, sink in sinks.items():
+        where = f"thermal.heatsinks.{_key(name)}"
+        if not _SINK_NAME.fullmatch(name):
+            raise _fail("a heatsink's name is a plain word", where, name,
+                        "a letter, then up to 39 letters, digits, _ or -")
+        _table(sink, where)
+        _only_keys(sink, HEATSINK_KEYS, where)
+        for key in HEATSINK_KEYS:
+            if key not in sink:
+                raise _fail("missing; a heatsink states its path to the air and each part's path to it",
+                            f"{where}.{key}", valid="a thermal resistance (K/W)" if key == "sink_to_air"
+                            else "a table: part name = junction-to-sink resistance")
+        to_air = _thermal_number(sink["sink_to_air"], f"{where}.sink_to_air")
+        members = _table(sink["junction_to_sink"], f"{where}.junction_to_sink")
+        if not members:
+            raise _fail("names no part", f"{where}.junction_to_sink", valid="one or more of " + ", ".join(heated))
+        paths = {}
+        for part, value in members.items():
+            field = f"{where}.junction_to_sink.{_key(part)}"
+            part_name(part, field)
+            if part in sunk:
+                raise _fail(f"a part sits on one heatsink only; {part} is on {sunk[part]} already", field,
+                            valid="each part on one heatsink")
+            sunk[part] = name
+            paths[part] = _thermal_number(value, field)
+            models[part] = _sunk_model(models.get(part) or typical_device(s.part(part)), part,
+                                       paths[part] + to_air, written.get(part, False), field)
+        heatsinks.append(Heatsink(name, to_air, paths))
+    groups = table.get("coupled", [])
+    if not isinstance(groups, list) or not all(isinstance(g, dict) for g in groups):
+        raise _fail("must be a list of tables ([[thermal.coupled]])", "thermal.coupled", groups,
+                    'e.g. [[thermal.coupled]] parts = ["Q1", "Q2"], mutual = "60 K/W"')
+    if len(groups) > MAX_THERMAL_GROUPS:
+        raise _fail("too many coupled groups", "thermal.coupled", valid=f"at most {MAX_THERMAL_GROUPS}")
+    own = {p: models[p].values["theta_ja"] if p in models else typical_device(s.part(p)).values["theta_ja"]
+           for p in heated}
+    mutual, paired = {}, {}
+    for k, group in enumerate(groups):
+        where = f"thermal.coupled[{k}]"
+        _only_keys(group, COUPLED_KEYS, where)
+        for key in COUPLED_KEYS:
+            if key not in group:
+                raise _fail("missing; a coupled group names its parts and their mutual thermal resistance",
+                            f"{where}.{key}", valid='parts = ["Q1", "Q2"]' if key == "parts" else "e.g. \"60 K/W\"")
+        parts = group["parts"]
+        if not isinstance(parts, list) or len(parts) < 2:
+            raise _fail("must list two or more parts", f"{where}.parts", parts, ", ".join(heated))
+        names = [part_name(p, f"{where}.parts[{i}]") for i, p in enumerate(parts)]
+        if len(set(names)) != len(names):
+            raise _fail("names a part twice", f"{where}.parts", ", ".join(names), "each part once")
+        value = _thermal_number(group["mutual"], f"{where}.mutual")
+        smallest = min(names, key=lambda n: own[n])
+        if value > own[smallest]:
+            raise _fail(f"a junction cannot warm another more than its own package warms it ({smallest}'s own "
+                        f"θ is {own[smallest]:.4g} K/W)", f"{where}.mutual", group["mutual"],
+                        f"0 … {own[smallest]:.4g} K/W")
+        for i, a in enumerate(names):
+            for b in names[i + 1:]:
+                pair = tuple(sorted((a, b)))
+                if pair in paired:
+                    raise _fail(f"{a} and {b} are coupled in {paired[pair]} already", f"{where}.parts",
+                                ", ".join(names), "each pair of parts in one group")
+                paired[pair] = where
+                mutual[(a, b)] = value
+    network = ThermalNetwork(mutual=mutual, heatsinks=tuple(heatsinks))
+    try:
+        network.matrix(heated, own)
+    except ParameterError as err:
+        raise _from_kit(err, f"thermal.{err.parameter}") from None
+    context["thermal"] = network
+    return {"devices": models} if heatsinks else {}
+
+
+def _sunk_model(model, part, path, written, field):
+    """``model`` with ``theta_ja`` the heatsink's path; a different one written in [devices] is refused."""
+    stated = model.values["theta_ja"]
+    if written and abs(stated - path) > _SAME_THETA * path:
+        raise _fail(f"on its heatsink {part}'s path to the air is {path:.6g} K/W (junction to sink plus sink "
+                    f"to air), but devices.{part}.theta_ja says {stated:.6g} K/W", field,
+                    valid=f"leave devices.{part}.theta_ja out or give {path:.6g} K/W")
+    try:
+        return model.with_values(theta_ja=path)
+    except ParameterError as err:
+        raise _from_kit(err, field) from None
 
 
 # --- part classes and datasheet entries (kit.devices.part_classes, kit.devices.datasheet)
@@ -619,6 +752,7 @@ SECTIONS = {
     "ratings": (_read_ratings, False),
     "hand": (_read_hand, False),
     "devices": (_read_devices, False),
+    "thermal": (_read_thermal, False),
     "spec": (_read_spec, False),
 }
 
@@ -674,6 +808,9 @@ class Record:
         Saturation criterion for evaluation (``conditions.edge``).
     title, revision, author, notes : str
         Header text (``""`` when absent).
+    thermal : kit.analysis.thermal.ThermalNetwork or None
+        How the parts share heat (``[thermal]``); None: each part in its own
+        package.  Pass it to :func:`kit.evaluate` and ``worst_case`` as ``network``.
     spec_from_parts : tuple of str
         The spec ranges filled from parts given by class or datasheet
         (``"spec.beta.Q1 = [114.286, 342.857] from devices.Q1"``).
@@ -728,13 +865,14 @@ class Record:
         except ParameterError as err:  # ranges and cross-checks the readers leave to the kit
             raise _from_kit(err, field_path(err.parameter, context["topology"], context["polarity"])) from None
         self.design = design
+        self.thermal = context.get("thermal")
         self.spec, self.spec_from_parts = _make_spec(context.get("spec"), design, context.get("part_data"))
         self.edge = context["edge"]
         self.title, self.revision = header["title"], header["revision"]
         self.author, self.notes = header["author"], header["notes"]
 
     @classmethod
-    def from_design(cls, design, *, edge="vce_sat", title=None, revision="", author="", notes=""):
+    def from_design(cls, design, *, edge="vce_sat", title=None, revision="", author="", notes="", thermal=None):
         """A record of a :class:`kit.model.design.Design` (values written as SI numbers).
 
         Part parameters equal to the part's typical model are left out, as a
@@ -750,6 +888,9 @@ class Record:
             Record title (default: the design's title, which must not be empty).
         revision, author, notes : str
             Optional header text.
+        thermal : kit.analysis.thermal.ThermalNetwork, optional
+            How the parts share heat, written as ``[thermal]`` (each mutual
+            resistance as a coupled pair).
         """
         from kit.model.design import typical_device
 
@@ -776,6 +917,8 @@ class Record:
                 devices[part.name] = changed
         if devices:
             document["devices"] = devices
+        if thermal is not None and (thermal.mutual or thermal.heatsinks):
+            document["thermal"] = _thermal_document(thermal)
         return cls(document, source="<design>")
 
     # -- output ---------------------------------------------------------------
@@ -803,7 +946,8 @@ class Record:
             "devices": {name: m.numbers() | {"label": m.label,
                                              T_RISE_KEY: float(d.t_rise.get(name, 0.0))}
                         for name, m in d.devices.items()},
-        } | ({"spec": self.spec.to_dict()} if self.spec is not None else {})
+        } | ({"thermal": self.thermal.to_dict()} if self.thermal is not None else {}) \
+          | ({"spec": self.spec.to_dict()} if self.spec is not None else {})
 
     def content_hash(self):
         """SHA-256 (hex) of the canonical JSON of :meth:`to_dict`.
@@ -820,6 +964,18 @@ class Record:
         ordered |= {k: doc[k] for k in SECTIONS if k in doc}
         head = f"# biasbook design record, schema {SCHEMA_VERSION} (docs/record-format.md)\n"
         return head + tomli_w.dumps(ordered, multiline_strings=True)
+
+
+def _thermal_document(network):
+    """``[thermal]`` as TOML data from a ThermalNetwork."""
+    out = {}
+    if network.heatsinks:
+        out["heatsinks"] = {h.name: {"sink_to_air": float(h.theta_sa),
+                                     "junction_to_sink": {p: float(v) for p, v in h.theta_js.items()}}
+                            for h in network.heatsinks}
+    if network.mutual:
+        out["coupled"] = [{"parts": list(pair), "mutual": float(value)} for pair, value in network.mutual.items()]
+    return out
 
 
 def _check_version(doc):

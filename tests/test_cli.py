@@ -316,3 +316,50 @@ def test_record_text_cannot_drive_the_terminal(capsys, tmp_path):
     path = write_record(tmp_path, title="Panel \x1b[2J bias")
     code, out, err = run(capsys, "evaluate", str(path))
     assert code == 2 and "title" in err and "\x1b" not in out + err
+
+
+# --- review ------------------------------------------------------------------------
+
+def _addresses(page):
+    """Every address an element of the page would load (the markup's own tags, not text or scripts)."""
+    from html.parser import HTMLParser
+
+    found = []
+
+    class Addresses(HTMLParser):
+        def handle_starttag(self, tag, attrs):
+            found.extend(v for k, v in attrs if k in ("src", "href", "data", "poster", "srcset") and v)
+
+    Addresses().feed(page)
+    return found
+
+
+REVIEW_TITLE = 'Hall bias <script>document.title="RAN"</script> & <b>bold</b>'
+
+
+@pytest.mark.slow
+@pytest.mark.skipif(__import__("shutil").which("chromium") is None, reason="needs Debian's chromium")
+def test_review_writes_the_offline_html_twin_with_the_record_text_as_text(capsys, tmp_path):
+    import re
+
+    from kit.review.printcheck import pdf_info
+
+    path = write_record(tmp_path, title=REVIEW_TITLE, notes='<img src="https://example.org/x.png"> as words')
+    pdf, twin = tmp_path / "review.pdf", tmp_path / "share" / "twin.html"
+    twin.parent.mkdir()
+    code, out, err = run(capsys, "review", str(path), "-o", str(pdf), "--html-twin", str(twin))
+    assert code == 0, err
+    assert out.split() == [str(pdf), str(twin)] and "biasbook review: twin" in err
+    page = twin.read_text(encoding="utf-8")
+    # opens with no network: nothing it loads is an address outside the file (RFC 3986 scheme names)
+    loaded = _addresses(page)
+    assert loaded and all(a.startswith(("data:", "#")) for a in loaded), loaded
+    assert not re.search(r"<script\b[^>]*\bsrc=", page)
+    # the record's words are there as text, never as markup
+    assert '<script>document.title="RAN"' not in page and "<b>bold</b>" not in page
+    assert "&lt;script&gt;" in page and "&lt;img src=" in page
+    # and the PDF's title metadata is the title as written (PDF 32000-1:2008, 14.3.3 /Title)
+    assert pdf_info(pdf)["Title"] == REVIEW_TITLE
+    # no twin asked for: none written
+    code, out, _ = run(capsys, "review", str(path), "-o", str(tmp_path / "again.pdf"))
+    assert code == 0 and out.split() == [str(tmp_path / "again.pdf")]

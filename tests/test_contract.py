@@ -639,7 +639,7 @@ def test_an_example_record_of_the_topology_evaluates(top):
     records = [r for r in _records() if r.design.topology.key == top.key]
     assert records, f"no example record in examples/ for {top.key}"
     for record in records:
-        ev = kit.evaluate(record.design, edge=record.edge)
+        ev = kit.evaluate(record.design, edge=record.edge, network=record.thermal)  # its [thermal], if any
         assert ev.points.converged.all()
         for name, part in ev.parts.items():
             assert part.region == KINDS[part.kind].good_region, (record.source, name, part.region)

@@ -16,7 +16,7 @@ EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.tom
 @pytest.mark.parametrize("path", EXAMPLES, ids=[p.stem for p in EXAMPLES])
 def test_example_evaluates_with_every_device_in_its_region(path):
     record = load_record(path)
-    evaluation = kit.evaluate(record.design, edge=record.edge)
+    evaluation = kit.evaluate(record.design, edge=record.edge, network=record.thermal)
     assert evaluation.points.converged.all()
     structure = record.design.structure
     for name, region in evaluation.regions.items():

@@ -284,7 +284,7 @@ def test_example_record_reads_its_mismatch_and_reports_it():
     spec = rec.spec
     assert spec.matched == (("Q1", "Q2"),)
     assert (spec.mismatch_vbe, spec.mismatch_beta) == pytest.approx((1e-3, 0.10), rel=1e-12)
-    wc = worst_case(rec.design, spec)
+    wc = worst_case(rec.design, spec, network=rec.thermal)  # the dual's halves share their heat ([thermal])
     (out,) = wc.mismatch
     # Gray et al. (from memory): sigma(dI/I) = sigma(dV_BE)/V_T, the record's 1 mV taken as 3 sigma;
     # the base currents and the Early effect change it by a few parts per thousand here

@@ -100,8 +100,15 @@ def assert_plots_match_kit(panel, design):
     assert list(src["sensitivity"].data["name"]) == [s.parameter for s in ranked]
     np.testing.assert_array_equal(src["sensitivity"].data["value"], [s.normalised for s in ranked])
     assert panel.figures["sensitivity"].y_range.factors == [s.parameter for s in ranked]
-    budget = sorted(ev.tempco_budget, key=lambda item: abs(item[1]))
-    np.testing.assert_array_equal(src["tempco"].data["value"], [ev.tempco * 1e6] + [v * 1e6 for _, v in budget])
+    # One bar per mechanism, each the sum of its parts' raw terms (a mirror's opposite I_S terms cancel).
+    sums = {}
+    for label, value in ev.tempco_budget:
+        mechanism = label.rpartition(" of ")[0] or label
+        sums[mechanism] = sums.get(mechanism, 0.0) + value
+    bars = sorted(sums.values(), key=abs)
+    np.testing.assert_allclose(src["tempco"].data["value"], [ev.tempco * 1e6] + [v * 1e6 for v in bars],
+                               rtol=1e-12, atol=1e-9)
+    assert len(src["tempco"].data["name"]) == len(sums) + 1
     return ev
 
 
@@ -431,3 +438,28 @@ def test_every_new_notebook_opens_a_panel_with_the_records_spec():
         # ``spec`` is the record's (or None): defined before the panel cell.
         before = "\n".join(c.source for c in notebook.cells[:notebook.cells.index(cells[0])])
         assert "spec = getattr(record, 'spec', None)" in before
+
+
+def test_panel_shares_heat_as_the_records_thermal_section_says():
+    """A mirror that runs away at its own load voltage as two packages opens as the record's coupled dual.
+
+    Physics (from memory, common practice): two transistors on one die share heat, so
+    the diode-connected one's V_BE falls with the output one's and the loop
+    gain theta * dP/dT_j drops; the kit's runaway edge moves up (tested in
+    test_thermal_coupling.py against the hand loop-gain condition).
+    """
+    from pathlib import Path
+
+    from kit.record import load_record
+
+    record = load_record(Path(__file__).resolve().parents[1] / "examples" / "basic_mirror_rref-led-string-sink.toml")
+    assert record.thermal is not None
+    with pytest.raises(DesignError, match="thermal"):
+        DesignPanel(record.design)  # each part in its own package: the design point runs away
+    panel = DesignPanel(record.design, network=record.thermal)
+    expected = kit.evaluate(record.design, network=record.thermal)
+    assert panel.headline_text() == headline(expected)
+    assert panel.update(v_load=panel.design.values["v_load"] * 0.9)
+    assert panel.evaluation.thermal_network is record.thermal
+    # Another circuit's Q1 and Q2 are other transistors: the network stays with its own circuit.
+    assert panel.switch("wilson_mirror") and panel.evaluation.thermal_network is None

@@ -441,3 +441,100 @@ def test_format1_field_out_of_range_names_its_new_field():
     doc = {**BASE, "biasbook_record": 1, "circuit": {"topology": "zener_source", "polarity": "npn"},
            "values": {"r_feed": "3k6", "r_e": "240", "v_supply": "24 V", "v_load": "6 V", "v_z0": "-5 V"}}
     assert error_of(text_of(doc)).parameter == "devices.D1.v_z0"
+
+
+# --- [thermal]: parts coupled on one die or package, shared heatsinks ------------------------
+
+# A scenario of our own: a two-transistor mirror as a dual in one package, its output on a clip.
+MIRROR = {
+    "biasbook_record": 2,
+    "title": "Mirror dual, 2 mA",
+    "circuit": {"topology": "basic_mirror", "polarity": "npn"},
+    "values": {"i_ref": "2 mA", "i_ref_tc": "0 ppm/K", "n_area": 1, "v_supply": "12 V", "v_load": "3 V"},
+}
+
+
+def _thermal(thermal, devices=None):
+    return text_of(MIRROR | {"thermal": thermal} | ({"devices": devices} if devices else {}))
+
+
+COUPLED = {"coupled": [{"parts": ["Q1", "Q2"], "mutual": "150 K/W"}]}
+SINK = {"heatsinks": {"clip": {"sink_to_air": "40 K/W", "junction_to_sink": {"Q2": "60 K/W"}}}}
+# on the clip Q2's own path is 100 K/W: a coupling of 80 K/W fits under it
+BOTH = SINK | {"coupled": [{"parts": ["Q1", "Q2"], "mutual": "80 K/W"}]}
+
+
+def test_thermal_section_round_trips_with_its_hash(tmp_path):
+    from kit.analysis.thermal import Heatsink, ThermalNetwork
+
+    record = parse_record(_thermal(BOTH))
+    assert record.thermal == ThermalNetwork(mutual={("Q1", "Q2"): 80.0},
+                                            heatsinks=(Heatsink("clip", 40.0, {"Q2": 60.0}),))
+    # the heatsink sets Q2's own path to the air: junction to sink + sink to air
+    assert record.design.devices["Q2"].values["theta_ja"] == 100.0
+    path = tmp_path / "dual.toml"
+    save_record(record, path)
+    again = load_record(path)
+    assert again == record and again.content_hash() == record.content_hash() and again.thermal == record.thermal
+    # written from the design and its network: the same design and network
+    built = Record.from_design(record.design, thermal=record.thermal)
+    assert built.design == record.design and built.thermal == record.thermal
+    # the network is part of the meaning: dropping it changes the hash; no section, no key
+    plain = parse_record(text_of(MIRROR))
+    assert plain.thermal is None and "thermal" not in plain.to_dict()
+    assert parse_record(_thermal(COUPLED)).content_hash() != plain.content_hash()
+
+
+@pytest.mark.parametrize("thermal, devices, parameter, valid", [
+    ({"coupled": [{"parts": ["Q1", "Q2"], "mutual": "-5 K/W"}]}, None, "thermal.coupled[0].mutual", "0 … 2000 K/W"),
+    ({"coupled": [{"parts": ["Q1", "Q2"], "mutual": "nan"}]}, None, "thermal.coupled[0].mutual", "0 … 2000 K/W"),
+    ({"coupled": [{"parts": ["Q1", "Q9"], "mutual": "5 K/W"}]}, None, "thermal.coupled[0].parts[1]", "Q1, Q2"),
+    ({"coupled": [{"parts": ["Q1", "Q2"], "mutual": "300 K/W"}]}, None, "thermal.coupled[0].mutual",
+     "0 … 250 K/W"),
+    ({"coupled": [{"parts": ["Q1"], "mutual": "5 K/W"}]}, None, "thermal.coupled[0].parts", "Q1, Q2"),
+    ({"coupled": [{"parts": ["Q1", "Q1"], "mutual": "5 K/W"}]}, None, "thermal.coupled[0].parts", "each part once"),
+    ({"coupled": [{"parts": ["Q1", "Q2"], "mutual": 5}, {"parts": ["Q2", "Q1"], "mutual": 6}]}, None,
+     "thermal.coupled[1].parts", "each pair of parts in one group"),
+    ({"coupled": [{"parts": ["Q1", "Q2"]}]}, None, "thermal.coupled[0].mutual", '"60 K/W"'),
+    ({"coupled": {"parts": ["Q1", "Q2"], "mutual": 5}}, None, "thermal.coupled", "[[thermal.coupled]]"),
+    ({"heatsinks": {"a": {"sink_to_air": 5, "junction_to_sink": {"Q1": 2}},
+                    "b": {"sink_to_air": 5, "junction_to_sink": {"Q1": 2}}}}, None,
+     "thermal.heatsinks.b.junction_to_sink.Q1", "each part on one heatsink"),
+    ({"heatsinks": {"a": {"sink_to_air": -1, "junction_to_sink": {"Q1": 2}}}}, None,
+     "thermal.heatsinks.a.sink_to_air", "0 … 2000 K/W"),
+    ({"heatsinks": {"a": {"junction_to_sink": {"Q1": 2}}}}, None, "thermal.heatsinks.a.sink_to_air", "K/W"),
+    ({"heatsinks": {"a": {"sink_to_air": 5, "junction_to_sink": {}}}}, None, "thermal.heatsinks.a.junction_to_sink",
+     "Q1, Q2"),
+    ({"heatsinks": {"<b>a</b>": {"sink_to_air": 5, "junction_to_sink": {"Q1": 2}}}}, None,
+     'thermal.heatsinks."<b>a</b>"', "a letter"),
+    ({"heatsinks": {"a": {"sink_to_air": 5, "junction_to_sink": {"Q1": 2}}}}, {"Q1": {"theta_ja": "250 K/W"}},
+     "thermal.heatsinks.a.junction_to_sink.Q1", "give 7 K/W"),
+    (SINK | {"coupled": [{"parts": ["Q1", "Q2"], "mutual": "150 K/W"}]}, None, "thermal.coupled[0].mutual",
+     "0 … 100 K/W"),
+    ({"spread": 1}, None, "thermal.spread", "coupled, heatsinks"),
+])
+def test_bad_thermal_entry_names_its_field_and_range(thermal, devices, parameter, valid):
+    err = error_of(_thermal(thermal, devices))
+    assert err.parameter == parameter
+    assert valid in (err.valid or "")
+
+
+def test_thermal_text_is_never_markup_in_outputs():
+    # a heatsink name is a plain word: markup cannot get in at all (refused above); what is
+    # printed about the network is built from part names and numbers
+    record = parse_record(_thermal(BOTH))
+    said = record.thermal.describe()
+    assert said == ("Q1 and Q2 coupled by 80 K/W (one die or package); heatsink clip (40 K/W to the air) "
+                    "under Q2 (60 K/W junction to sink); parts not named here each in their own package")
+    assert "<" not in said and "&" not in said
+
+
+def test_evaluate_uses_the_records_network():
+    # one package (mutual 150 K/W): Q2's heat warms Q1 too, the mirror stays matched; apart they run away
+    text = _thermal(COUPLED).replace('"2 mA"', '"5 mA"')
+    record = parse_record(text)
+    coupled = kit.evaluate(record.design, network=record.thermal)
+    apart = kit.evaluate(record.design)
+    assert coupled.thermal_network == record.thermal
+    assert coupled.compliance.high.voltage > apart.compliance.high.voltage
+    assert apart.compliance.high.cause == "thermal_runaway"

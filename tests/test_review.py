@@ -109,7 +109,7 @@ def reviewed(tmp_path_factory):
 
     folder = tmp_path_factory.mktemp("review")
     stages = []
-    pdf = build_review(PASSING, folder / "review.pdf", progress=stages.append,
+    pdf = build_review(PASSING, folder / "review.pdf", progress=lambda stage, **count: stages.append((stage, count)),
                        keep_html=folder / "review.html", twin=folder / "twin.html")
     return {"pdf": pdf, "html": (folder / "review.html").read_text(encoding="utf-8"),
             "twin": (folder / "twin.html").read_text(encoding="utf-8"),
@@ -119,7 +119,16 @@ def reviewed(tmp_path_factory):
 
 @needs_printing
 def test_review_reports_its_progress(reviewed):
-    assert reviewed["stages"] == ["executing", "converting", "printing", "twin", "done"]
+    from kit.review.notebook import notebook_for_record
+
+    stages = reviewed["stages"]
+    assert [stage for stage, count in stages if not count] == ["executing", "converting", "printing", "twin", "done"]
+    # While executing: the cell count, from none done to all, one step at a time.
+    counts = [(c["cell"], c["cells"]) for stage, c in stages if c]
+    code = [c for c in notebook_for_record(reviewed["record"], PASSING.resolve()).cells
+            if c.cell_type == "code" and c.source.strip()]
+    assert counts == [(n, len(code)) for n in range(len(code) + 1)]
+    assert all(stage == "executing" for stage, c in stages if c)
 
 
 @needs_printing
@@ -278,4 +287,17 @@ def test_mosfet_balances_name_the_drain_current_and_lose_nothing(polarity):
     for residual in der.equations.residuals:
         assert sp.simplify(residual.subs(swap).subs(back) - residual) == 0
     html = report.html(der)
-    assert "I_{D,M1} = " in html and "part currents" in html
+    # the channel law is stated once, in the channel's own voltages, and M1 uses it by name
+    # with its own gate-source and drain-source voltages (normalised: conduction positive)
+    from kit.report.derivation import channel_law_latex
+
+    part = der.equations.parts["M1"]
+    assert html.count("i_D(v_{GS}, v_{DS}) = ") == 2 and all(line in html for line in channel_law_latex())
+    assert rf"I_{{D,M1}} = i_D\left({der.latex(part.q['v_gs'])},\; {der.latex(part.q['v_ds'])}\right)" in html
+    assert r"\begin{cases}" not in html.split("each channel of this circuit")[1].split("Exact sensitivities")[0]
+    # the law as stated is the law the solve uses: forward_current of v_ov = v_gs - V_th at v_ds >= 0
+    from kit.devices.mosfet import forward_current
+
+    k, v_th, lam, n, v_t = (part.symbols[key] for key in ("K", "V_th", "lambda", "n", "V_T"))
+    stated = forward_current(k, part.q["v_gs"] - v_th, part.q["v_ds"], lam, 2 * n * v_t)
+    assert part.q["i_d"].args[0].expr == stated

@@ -88,3 +88,23 @@ def test_print_setup_comes_first_and_leaves_with_the_screen_cells():
     assert "use_print_theme()" in prepared.cells[0].source
     assert len(notebook.cells) == 2
     assert _sources(for_print(prepared, with_code=True)) == ["# A design", "x = 1"]
+
+
+def _html(source, html):
+    cell = nbformat.v4.new_code_cell(source)
+    cell.outputs = [nbformat.v4.new_output("display_data", data={"text/html": html, "text/plain": "x"})]
+    return cell
+
+
+def test_an_output_already_printed_is_printed_once_where_it_came_first():
+    # a panel that shows the design's evaluation again, beside a table of its own
+    notebook = _notebook(_markdown("## The numbers"), _html("evaluation", "<table>I_out 1 mA</table>"),
+                         _markdown("## The panel"), _html("panel", "<table>I_out 1 mA</table>"),
+                         _html("panel.figures", "<table>R_out 3 MΩ</table>"))
+    printed = for_print(notebook)
+    shown = [o["data"]["text/html"] for c in printed.cells if c.cell_type == "code" for o in c.outputs]
+    assert shown == ["<table>I_out 1 mA</table>", "<table>R_out 3 MΩ</table>"]
+    # a section left with nothing but the repeat goes with it
+    only_repeat = _notebook(_markdown("## The numbers"), _html("evaluation", "<p>a</p>"),
+                            _markdown("## Again"), _html("evaluation", "<p>a</p>"))
+    assert [c.source for c in for_print(only_repeat).cells if c.cell_type == "markdown"] == ["## The numbers"]

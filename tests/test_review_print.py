@@ -11,6 +11,9 @@ poppler.  What is checked, and why:
 * no plot toolbar or plotting-library logo, no test-suite marker or sentence,
   no slider instructions, no unedited template prompt: paper has no use for
   them (common practice, no source);
+* no section heading (h1-h3) and no result block printed twice, and no
+  check cell's Python text ("met: False") -- a reviewer reads each once
+  (common practice, no source);
 * no page but the last is less than a quarter full, and no section heading is
   the last thing on its page (a heading kept with what follows it: the CSS
   Fragmentation Module's ``break-after: avoid``, W3C, and ordinary book
@@ -69,6 +72,8 @@ DEFECTS_PAGE = """<!DOCTYPE html>
   <div style="overflow-x: auto"><div style="width: 800px">an equation in a scrolling box</div></div>
   <div class="bk-Toolbar" style="width: 24px; height: 80px; background: #888"></div>
   <p>Move the sliders to try it; NBVAL_CHECK_OUTPUT marks this for the test suite.</p>
+  <h3>Results</h3><div class="bb-result">I_out 1 mA</div><pre>met: False</pre>
+  <h3>Results</h3><div class="bb-result">I_out 1 mA</div>
   <div style="height: 700px; background: #eee"></div>
   <h2>A heading left at the foot of the page</h2>
 </div>
@@ -98,7 +103,12 @@ def test_checker_finds_wide_and_scrolled_boxes(defects):
 def test_checker_finds_toolbars_and_text_for_the_screen(defects):
     assert defects.plot_tools == ["bk-Toolbar"]
     kinds = {kind for kind, _, _ in defects.unwanted_text}
-    assert kinds == {"test-suite marker", "test suite", "slider instructions", "'Try it'"}
+    assert kinds == {"test-suite marker", "test suite", "slider instructions", "'Try it'", "check-cell text"}
+
+
+def test_checker_finds_what_is_printed_twice(defects):
+    assert defects.repeated == ["section 'Results'", "result block 'I_out 1 mA'"]
+    assert defects.counts()["sections printed twice"] == 2
 
 
 def test_checker_finds_a_sparse_page_a_stranded_heading_and_the_title(defects):
@@ -171,6 +181,10 @@ def test_no_plot_toolbar_or_logo(printed):
 
 def test_no_text_meant_for_the_screen(printed):
     assert printed.unwanted_text == [], printed.problems()
+
+
+def test_each_section_and_result_printed_once(printed):
+    assert printed.repeated == [], printed.problems()
 
 
 def test_no_page_but_the_last_below_a_quarter_full(printed):

@@ -113,3 +113,76 @@ def test_check_text_prints_the_box_with_the_verdict(capsys):
     assert "matching: no matched group written [default, not written]" in text
     assert "stress inside the spec" in text and "verdict:" in text
     assert text.index("over (the spec's box)") < text.index("verdict:")
+
+
+def test_opamp_output_stress_is_the_base_drive_by_hand():
+    """The op-amp sinks the PNP's base current; its output stage dissipates V_o I_B.
+
+    Hand model (the op-amp current source with a bipolar pass device, any op-amp text, e.g.
+    Horowitz & Hill ch. 4, and the bipolar transistor's I_E = (beta + 1) I_B): the loop holds
+    V_SET across R_S, so I_E = V_SET/R_S; I_B = I_E/(1 + beta_F(T)(1 + V_EC/V_A)) with the
+    kit's stated laws beta_F(T) = beta_F (T/T_ref)^XTB and the Early factor on I_C/I_B; the
+    output sits a V_EB (0.6-0.7 V, a fact of the trade) and I_B R_B below the emitter;
+    sinking from a 0 V negative rail the output stage dissipates (V_o - 0) I_B.
+    """
+    from kit.analysis.spec import Spec
+
+    record = load_record("examples/opamp_bjt_source-sensor-excitation-pnp.toml")
+    spec = Spec(1e-3, 0.05, v_load=(0.0, 5.0))
+    result = worst_case(record.design, spec, edge=record.edge, methods=EVA, self_heating=False)
+    u1 = next(s for s in result.stress if s.part == "U1")
+    assert u1.kind == "opamp" and not u1.negligible and u1.rating_margin is None
+    v = record.design.parameters() | u1.power_conditions
+    t = v["temp"]
+    r_s = v["r_s"] * (1 + v["tcr_r_s"] * (t - v["t_ref"]))
+    v_rs = v["v_set"] * (1 + v["v_set_tc"] * (t - v["t_ref"]))  # the offset, 0.2 mV of 1 V, left out
+    i_e = v_rs / r_s
+    v_e = v["v_supply"] - v_rs
+    beta = v["Q1.beta_f"] * (t / v["t_ref"]) ** v["Q1.beta_temp_exponent"] * (1 + (v_e - v["v_load"]) / v["Q1.v_a"])
+    i_b = i_e / (1 + beta)
+    v_o = v_e - 0.65 - i_b * v["r_b"]
+    assert u1.output_current == pytest.approx(-i_b, rel=0.01)  # negative: the output sinks it
+    assert u1.power == pytest.approx(v_o * i_b, rel=0.01)  # V_EB 0.6-0.7 V moves it by 0.5 %
+    # the largest over the box: the lowest load voltage (widest V_EC, yet the largest base current)
+    # is not assumed; the maximum is no lower than the design point's own output power
+    own = worst_case(record.design, Spec(1e-3, 0.05), edge=record.edge, methods=EVA, self_heating=False)
+    assert u1.power >= next(s for s in own.stress if s.part == "U1").power * (1 - 1e-9)
+
+
+def test_opamp_driving_a_gate_is_reported_negligible(capsys):
+    record = load_record("examples/opamp_mos_source-power-led-heatsink.toml")
+    result = worst_case(record.design, record.spec, edge=record.edge, methods=EVA, network=record.thermal)
+    u1 = next(s for s in result.stress if s.part == "U1")
+    # a MOSFET gate draws no DC current in the square law: nothing for the output to deliver
+    assert u1.negligible and u1.power == 0.0 and u1.output_current == 0.0
+    main(["check", "examples/opamp_mos_source-power-led-heatsink.toml"])
+    text = capsys.readouterr().out
+    assert "U1 output: drives a gate only, no DC output current; output-stage dissipation negligible" in text
+    # the headline's hottest part is still the pass device, never the op-amp
+    assert "stress inside the spec: M1 up to" in text
+
+
+def test_howland_opamp_output_is_its_two_resistor_currents_by_ohms_law():
+    """The Howland pump's op-amp feeds R4 (to its - input) and R2b (to the output): by Ohm's law
+    I_o = (V_o - V_-)/R4 + (V_o - V_load)/R2b, and sinking from the -V_S rail its output stage
+    dissipates (V_o + V_S) |I_o| (the output transistor's V_CE times its current, common practice,
+    no source).  Node voltages from one solve at the worst point; the rest by hand here."""
+    from kit.analysis.spec import Spec
+    from kit.model.solve import solve_points
+
+    record = load_record("examples/howland-sensor-excitation-bipolar.toml")
+    d = record.design
+    spec = Spec(0.4e-3, 0.2, v_load=(-2.0, 2.0))
+    result = worst_case(d, spec, edge=record.edge, methods=EVA, self_heating=False)
+    u1 = next(s for s in result.stress if s.part == "U1")
+    v = d.parameters() | u1.power_conditions
+    model = model_of(d)
+    point = solve_points(model, v)
+    node = dict(zip(model.unknowns, (float(x) for x in point.x[:, 0])))
+    r2b = v["r2b"] * (1 + v["tcr_r2b"] * (v["temp"] - v["t_ref"]))
+    r4 = v["r4"] * (1 + v["tcr_r4"] * (v["temp"] - v["t_ref"]))
+    i_o = (node["V_o"] - node["V_n"]) / r4 + (node["V_o"] - v["v_load"]) / r2b
+    rail = v["v_supply"] if i_o >= 0 else -v["v_supply"]  # the split rails are +-v_supply
+    assert u1.output_current == pytest.approx(i_o, rel=1e-6)
+    assert u1.power == pytest.approx(abs(rail - node["V_o"]) * abs(i_o), rel=1e-6)
+    assert not u1.negligible and u1.power > 0

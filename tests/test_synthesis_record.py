@@ -102,7 +102,7 @@ def test_keeps_every_value_it_does_not_search_records_with_a_spec(path):
 def test_keeps_every_value_it_does_not_search_every_other_record(path):
     # a loose spec around the record's own current: what is held must still be the record's
     record = load_record(path)
-    own_current = kit.evaluate(record.design, edge=record.edge).i_out
+    own_current = kit.evaluate(record.design, edge=record.edge, network=record.thermal).i_out
     if own_current < 0:
         # A spec states a positive target (a bidirectional source driven negative): it says so, and
         # the same record with its input turned round is synthesised instead.
@@ -111,7 +111,7 @@ def test_keeps_every_value_it_does_not_search_every_other_record(path):
         with pytest.raises(ParameterError, match="i_target"):
             Spec(own_current, 0.5)
         record.design = record.design.with_values(v_in=-record.design.values["v_in"])
-        own_current = kit.evaluate(record.design, edge=record.edge).i_out
+        own_current = kit.evaluate(record.design, edge=record.edge, network=record.thermal).i_out
     spec = Spec(own_current, 0.5, resistor_tolerance=0.01)
     result = synthesize(spec, start=record.design, topologies=[record.design.topology.key],
                         polarities=[record.design.polarity], self_heating=False, edge=record.edge)

@@ -89,19 +89,28 @@ def test_runaway_threshold_against_the_loop_gain_condition():
     p_lo = _powers(model, edge, (0.0, t2 - 0.05))[1]
     p_hi = _powers(model, edge, (0.0, t2 + 0.05))[1]
     assert theta * (p_hi - p_lo) / 0.1 == pytest.approx(1.0, abs=0.03)
-    # Hand model: P = V I0 exp(a dT), a = (XTI + (E_g - V_BE)/V_T)/T; steady dT = theta P has
-    # a root only while theta a V I0 e <= 1 (tangency of dT and theta V I0 exp(a dT)).
+    assert v_star == pytest.approx(_hand_edge(model, values, v_star), rel=0.15)
+
+
+def _hand_edge(model, values, v_load):
+    """The runaway load voltage of the output transistor Q2 by hand, its current taken cold at ``v_load``.
+
+    Hand model: P = V I0 exp(a dT), a = (XTI + (E_g - V_BE)/V_T)/T (the junction law's
+    temperature dependence, Gray, Hurst, Lewis & Meyer ch. 1); the steady rise dT = theta P has
+    a root only while theta a V I0 e <= 1: at the tangency of dT and theta V I0 exp(a dT) the
+    loop gain theta dP/dT_j = theta a P is 1 and dT = 1/a.
+    """
     t_a = values["temp"]
+    theta = values["Q2.theta_ja"]
     v_be = 0.65  # at 5 mA, common practice, no source (checked against the solve below)
-    cold = solve_points(model, edge)
+    cold = solve_points(model, values | {"v_load": v_load})
     j = cold.junctions["Q2"]
     assert abs(float(j["v_be"][0]) - v_be) < 0.1  # V_BE 0.6-0.7 V, a fact of the trade
     v_be = float(j["v_be"][0])
     t_edge = t_a + 1.0 / ((values["Q2.i_s_temp_exponent"] + (values["Q2.e_g"] - v_be) / (K_OVER_Q * t_a)) / t_a)
     a = (values["Q2.i_s_temp_exponent"] + (values["Q2.e_g"] - v_be) / (K_OVER_Q * t_edge)) / t_edge
     i0 = float(j["i_c"][0])
-    hand = 1.0 / (theta * a * math.e * i0)
-    assert v_star == pytest.approx(hand, rel=0.15)
+    return 1.0 / (theta * a * math.e * i0)
 
 
 def test_runaway_is_named_not_a_failed_solve():
@@ -139,13 +148,63 @@ def test_temperature_sweep_names_runaway():
         temperature_sweep(d, (233.15, 298.15), points=5)
 
 
-def test_evaluate_names_runaway_at_the_design_point():
+def test_compliance_ends_at_the_runaway_edge_against_the_loop_gain_condition():
+    from kit.report import text
     from kit.report.cautions import cautions
 
     rec = load_record("examples/basic_mirror-discrete-runaway.toml")
-    assert kit.evaluate(rec.design).thermal_runaway is None  # 2 V: a stable point exists
-    hot = kit.evaluate(rec.design.with_values(v_load=5.5))  # above the edge found above (about 4.8 V)
-    assert hot.thermal_runaway is not None and hot.thermal_runaway.side == "above"
-    assert 4.0 < hot.thermal_runaway.v_load < 5.5
-    assert any("thermal runaway: no stable operating point above V_load" in c for c in cautions(hot))
-    assert hot.to_dict()["thermal_runaway"]["v_load"] == hot.thermal_runaway.v_load
+    # Q1 held at ambient (the smallest thermal resistance) so the hand model is exact in form
+    design = rec.design.with_parameter("Q1.theta_ja", 0.1)
+    ev = kit.evaluate(design)
+    model, values = model_of(design), design.parameters()
+    high = ev.compliance.high
+    electrical = ev.electrical_compliance.high
+    # the electrical range reaches the breakdown voltage; self-heating ends it far below
+    assert electrical.cause == "breakdown" and high.voltage < 0.5 * electrical.voltage
+    assert (high.part, high.cause) == ("Q2", "thermal_runaway")
+    assert ev.compliance.low == ev.electrical_compliance.low  # the saturation end is not touched
+    # 1. the loop-gain condition theta dP/dT_j = 1 at the edge, dP/dT_j from the test's own isothermal steps
+    at_edge = solve_self_heated(model, values | {"v_load": np.array([high.voltage])})
+    assert at_edge.converged[0]
+    t2 = float(at_edge.p[model.parameter_index["Q2.t_rise"]][0])
+    edge = values | {"v_load": high.voltage}
+    slope = (_powers(model, edge, (0.0, t2 + 0.05))[1] - _powers(model, edge, (0.0, t2 - 0.05))[1]) / 0.1
+    assert values["Q2.theta_ja"] * slope == pytest.approx(1.0, abs=0.03)
+    # 2. the hand model's edge (tangency of dT and theta V I0 exp(a dT)), within its 15 %
+    assert high.voltage == pytest.approx(_hand_edge(model, values, high.voltage), rel=0.15)
+    # words: text, JSON, cautions name the cause; the headline's stress stays inside the cut range
+    said = text(ev)
+    assert "compliance   200 mV … 4." in said and "runs away thermally above this load voltage" in said
+    assert ev.to_dict()["compliance"]["high"]["cause"] == "thermal_runaway"
+    assert ev.to_dict()["electrical_compliance"]["high"]["cause"] == "breakdown"
+    assert ev.max_dissipation[2] <= high.voltage + 1e-9
+    assert any("the compliance stated ends there" in c for c in cautions(ev))
+    # without self-heating the electrical range comes back
+    assert kit.evaluate(design, self_heating=False).compliance.high == electrical
+
+
+def test_evaluate_refuses_a_load_voltage_past_the_runaway_edge():
+    from kit.errors import OperatingPointError
+
+    rec = load_record("examples/basic_mirror-discrete-runaway.toml")
+    ev = kit.evaluate(rec.design)  # 2 V: a stable point exists
+    assert ev.thermal_runaway is not None and ev.thermal_runaway.side == "above"
+    assert 4.0 < ev.thermal_runaway.v_load < 5.5 and ev.compliance.high.voltage == ev.thermal_runaway.v_load
+    assert ev.to_dict()["thermal_runaway"]["v_load"] == ev.thermal_runaway.v_load
+    with pytest.raises(OperatingPointError, match="runs away thermally above") as caught:
+        kit.evaluate(rec.design.with_values(v_load=5.5))  # above the edge (about 4.8 V)
+    assert caught.value.parameter == "v_load" and "self-heating" in caught.value.valid
+    # the isothermal evaluation still answers there when asked for
+    assert kit.evaluate(rec.design.with_values(v_load=5.5), self_heating=False).thermal_runaway is None
+
+
+def test_runaway_at_every_load_voltage_is_refused_naming_the_package():
+    from kit.errors import OperatingPointError
+
+    rec = load_record("examples/basic_mirror-discrete-runaway.toml")
+    # 50 mA at 2000 K/W: at the saturation edge (0.2 V) P = 10 mW and theta a P is about
+    # 2000 x 0.065/K x 10 mW = 1.3 > 1 (the hand loop gain above): no load voltage is stable
+    hot = rec.design.with_parameter("Q2.theta_ja", 2000.0).with_values(i_ref=0.05, v_load=0.22)
+    with pytest.raises(OperatingPointError, match="no load voltage inside the electrical compliance") as caught:
+        kit.evaluate(hot)
+    assert caught.value.parameter == "Q2.theta_ja"

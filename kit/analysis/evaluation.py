@@ -2,7 +2,10 @@
 
 :func:`evaluate` solves the exact equations at the design point and returns
 an :class:`Evaluation` — plain numbers, frozen: output current, compliance
-range with the part that limits each end, exact output resistance beside
+range with the part that limits each end (with self-heating, an end where
+the electrothermal loop runs away inside the electrical range: compliance
+ends there, its cause :data:`kit.analysis.thermal.RUNAWAY_CAUSE`), exact
+output resistance beside
 the small-signal forms, sensitivities to every parameter (absolute and
 normalised), the tempco and its budget, every part's operating point and
 dissipation across the compliance range, and the ledger — each named
@@ -16,10 +19,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from kit.analysis.thermal import RunawayThreshold, runaway_threshold, solve_self_heated
+from dataclasses import replace
+
+from kit.analysis.thermal import RUNAWAY_CAUSE, RUNAWAY_TEMPERATURE, ThermalNetwork, heated_parts, stable_load_range
 from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
-from kit.model.compliance import find_compliance
+from kit.model.compliance import Edge, find_compliance
 from kit.model.solve import check_drift, check_edge, check_laws, solve_points
 
 DISSIPATION_POINTS = 101
@@ -136,9 +141,12 @@ class Evaluation:
     hottest: tuple | None  # (device, watts, load voltage, junction temperature in K) of the hottest junction
     node_voltages: dict
     points: object  # the exact operating point (kit.model.solve.OperatingPoints, one point)
-    # Self-heating leaves the design point without a stable state: where the stable points end
-    # (kit.analysis.thermal.RunawayThreshold), else None.
+    # Self-heating cuts the electrical compliance range: where the stable points end
+    # (kit.analysis.thermal.RunawayThreshold; the high end's if both are cut), else None.
     thermal_runaway: object = None
+    self_heating: bool = True  # compliance judged with the junctions heated (runaway ends it)
+    thermal_network: object = None  # kit.analysis.thermal.ThermalNetwork, None: one package each
+    electrical_compliance: object = None  # the range before self-heating cut it (same when not cut)
 
     def derivative(self, name):
         """Exact dI_out/dp of flat parameter ``name``."""
@@ -168,6 +176,9 @@ class Evaluation:
             "ledger": [e.to_dict() for e in self.ledger],
             "node_voltages": dict(self.node_voltages),
             "thermal_runaway": self.thermal_runaway.to_dict() if self.thermal_runaway is not None else None,
+            "self_heating": self.self_heating,
+            "thermal_network": self.thermal_network.to_dict() if self.thermal_network is not None else None,
+            "electrical_compliance": (self.electrical_compliance or self.compliance).to_dict(),
         }
 
 
@@ -244,7 +255,7 @@ def own_rail_loads(design, sinks, low, high):
     return max(low, 0.0), high, "from 0 V (a source)"
 
 
-def evaluate(design, *, edge="vce_sat", reuse=None):
+def evaluate(design, *, edge="vce_sat", reuse=None, self_heating=True, network=None):
     """Solve a design exactly and weigh everything a review asks of it.
 
     Parameters
@@ -257,6 +268,13 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
         compliance edges and its dissipation across them are taken as they are
         (neither depends on the load voltage), which saves the edge search.
         Ignored unless only ``v_load`` differs.
+    self_heating : bool
+        Judge compliance with the junctions heated by their power: where
+        the electrothermal loop runs away inside the electrical range, the
+        compliance ends (cause ``"thermal_runaway"``).  The numbers at the
+        design point are solved at the design temperature either way.
+    network : kit.analysis.thermal.ThermalNetwork, optional
+        How the parts share heat (one die, a heatsink); default one package each.
 
     Returns
     -------
@@ -265,10 +283,11 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
     Raises
     ------
     kit.errors.OperatingPointError
-        If the load voltage is outside compliance (``parameter="v_load"``) or the
-        supply cannot turn the circuit on (``parameter="v_supply"``).  A design
-        point without a stable electrothermal state is not refused: the result's
-        ``thermal_runaway`` says where the stable points end.
+        If the load voltage is outside compliance (``parameter="v_load"``; beyond
+        a runaway edge the message says "thermal runaway"), the supply cannot
+        turn the circuit on (``parameter="v_supply"``), or with self-heating no
+        load voltage has a stable electrothermal point (``parameter`` the
+        hottest part's ``theta_ja``).
     kit.errors.ConvergenceError
         If the exact solve did not converge.
     """
@@ -278,13 +297,27 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
     check_laws(model, values)  # device laws and resistors inside their domains
     check_drift(model, values)  # rails and reference currents keep their sign
     points = solve_points(model, values)
-    same = _same_but_load(reuse, design, values, edge)
+    if network is not None and not isinstance(network, ThermalNetwork):
+        raise ParameterError("must be a thermal network", parameter="network", value=type(network).__name__,
+                             valid="kit.analysis.thermal.ThermalNetwork or None")
+    same = _same_but_load(reuse, design, values, edge, self_heating, network)
     try:
-        compliance = same.compliance if same else find_compliance(model, values, edge=edge)
+        electrical = same.electrical_compliance if same else find_compliance(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
-    thermal = _thermal_runaway(model, values, compliance)
+    if same:
+        compliance, thermal = same.compliance, same.thermal_runaway
+    elif self_heating:
+        compliance, thermal = _thermal_limits(model, values, electrical, network)
+    else:
+        compliance, thermal = electrical, None
     v_load = values["v_load"]
+    if electrical.contains(v_load) and not compliance.contains(v_load):
+        end = compliance.low if v_load < compliance.low.voltage else compliance.high
+        raise OperatingPointError(
+            f"load voltage outside compliance: {end.part} {end.text}",
+            parameter="v_load", value=v_load,
+            valid=f"{compliance.low.voltage:.4g} … {compliance.high.voltage:.4g} V with self-heating")
     if not points.converged[0] and compliance.contains(v_load):
         points = _continue_in_load(model, values, compliance)
     worst, keys = points.worst_margin(edge)
@@ -296,7 +329,7 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
     if worst[0] < 0 or not compliance.contains(v_load):
         # A load voltage far outside compliance may have no operating point
         # at all: the refusal is the same as just outside, with the range.
-        part, cause = keys[0] if points.converged[0] else _nearest_edge(compliance, v_load)
+        part, cause = keys[0] if points.converged[0] else _nearest_edge(electrical, v_load)
         here = "here" if points.converged[0] else "beyond this end"
         raise OperatingPointError(
             f"load voltage outside compliance: {part} {points.cause_text(part, cause)} {here}",
@@ -341,7 +374,7 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
             inside[:] = True
         biggest = max(power, key=lambda n: power[n][inside].max())
         k = int(np.flatnonzero(inside)[np.argmax(power[biggest][inside])])
-        hottest = _hottest(model, values, v_sweep[inside], {n: w[inside] for n, w in power.items()})
+        hottest = _hottest(model, values, v_sweep[inside], {n: w[inside] for n, w in power.items()}, network)
     with np.errstate(divide="ignore"):  # an ideal part (V_A = inf) gives an infinite small-signal form
         extras = model.extras(points.x, points.q)
     return Evaluation(
@@ -353,28 +386,52 @@ def evaluate(design, *, edge="vce_sat", reuse=None):
         dissipation_sweep=(v_sweep, power), max_dissipation=(biggest, float(power[biggest][k]), float(v_sweep[k])),
         hottest=hottest,
         node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points,
-        thermal_runaway=thermal)
+        thermal_runaway=thermal, self_heating=bool(self_heating), thermal_network=network,
+        electrical_compliance=electrical)
 
 
-def _thermal_runaway(model, values, compliance):
-    """Where the stable electrothermal points end across compliance (each part in its own
-    package), or None when the design point itself has a stable one.
+def _thermal_limits(model, values, electrical, network):
+    """``(compliance, threshold)``: the electrical range cut where self-heating runs away, and the cut.
 
-    The evaluation itself holds the junctions at the design temperature; this says
-    whether self-heating would leave the design point without a steady state.
+    The evaluation holds the junctions at the design temperature; this asks
+    along the electrical range whether each load voltage has a stable
+    electrothermal point (:func:`kit.analysis.thermal.stable_load_range`).
+    An end where it has none is a compliance edge of its own, named
+    after the hottest part there; ``threshold`` is None when nothing is cut.
     """
-    if not solve_self_heated(model, values).runaway[0]:
-        return None
+    if not heated_parts(model):
+        return electrical, None
+    span = (electrical.low.voltage, electrical.high.voltage)
     try:
-        return runaway_threshold(model, values, (compliance.low.voltage, compliance.high.voltage))
-    except ConvergenceError:  # every load voltage across compliance runs away
-        return RunawayThreshold(None, 1.0, (compliance.low.voltage, compliance.high.voltage), "everywhere")
+        low, high = stable_load_range(model, values, span, network)
+    except ConvergenceError:  # no load voltage has a stable point: nothing is in compliance
+        from kit.analysis.thermal import runaway_error, solve_self_heated
+
+        points = solve_self_heated(model, values, network)
+        named = runaway_error(points, "design point") if points.runaway[0] or points.too_hot[0] else None
+        raise OperatingPointError(
+            f"thermal runaway: no load voltage inside the electrical compliance range "
+            f"{span[0]:.4g} … {span[1]:.4g} V has a stable temperature (electrothermal loop gain >= 1, "
+            f"or a junction past {RUNAWAY_TEMPERATURE:g} K)",
+            parameter=named.parameter if named else "v_load", value=named.value if named else values["v_load"],
+            valid="a package (θ_JA) or operating point with an electrothermal loop gain below 1, "
+                  "or evaluate without self-heating") from None
+    cut = replace(electrical, low=_runaway_edge(low) if low else electrical.low,
+                  high=_runaway_edge(high) if high else electrical.high)
+    return cut, high or low
 
 
-def _same_but_load(earlier, design, values, edge):
+def _runaway_edge(threshold):
+    return Edge(threshold.v_load, threshold.part, RUNAWAY_CAUSE, threshold.edge_text())
+
+
+def _same_but_load(earlier, design, values, edge, self_heating=True, network=None):
     """``earlier`` if it evaluated this design at another load voltage with the same edge, else None."""
     if earlier is None or earlier.edge != edge or earlier.design.topology is not design.topology \
             or earlier.design.polarity != design.polarity:
+        return None
+    if earlier.self_heating != bool(self_heating) or earlier.thermal_network != network \
+            or earlier.electrical_compliance is None:
         return None
     before = earlier.design.parameters()
     if before.keys() != values.keys() or any(before[k] != v for k, v in values.items() if k != "v_load"):
@@ -410,17 +467,22 @@ def _continue_in_load(model, values, compliance, steps=24):
     return points
 
 
-def _hottest(model, values, v_load, power):
+def _hottest(model, values, v_load, power, network=None):
     """``(part, watts, load voltage, junction temperature)`` of the hottest junction across compliance.
 
-    Each part with a thermal resistance of its own rises ``theta_JA P_D``
-    above the design temperature (no coupling between packages).
+    Each part with a thermal resistance of its own rises by the thermal
+    network times the powers at the design temperature (``theta_JA P_D``
+    for parts in packages of their own), without the loop of self-heating.
     """
     best = None
-    for part in model.structure.devices:
-        if "theta_ja" not in part.params or part.name not in power:
-            continue
-        rise = values[part.params["theta_ja"]] * power[part.name]
+    heated = [p.name for p in model.structure.devices if "theta_ja" in p.params and p.name in power]
+    if not heated:
+        return None
+    theta = (network or ThermalNetwork()).matrix(heated, {n: values[f"{n}.theta_ja"] for n in heated})
+    rises = theta @ np.stack([np.asarray(power[n], dtype=float) for n in heated])
+    for i, name in enumerate(heated):
+        part = model.structure.part(name)
+        rise = rises[i]
         k = int(np.argmax(rise))
         junction = values["temp"] + float(rise[k])
         if best is None or junction > best[3]:

@@ -29,6 +29,8 @@ from kit.errors import ParameterError
 SIGMA_PER_TOLERANCE = 3.0  # RSS maps a ± tolerance to 3 sigma (an assumption, stated in reports)
 MAX_SAMPLES = 1_000_000  # Monte Carlo runs in constant memory; this bounds the time (minutes)
 DISTRIBUTIONS = ("uniform", "log-uniform")
+# The spec's conditions in a reviewer's words (budget rows, panel bars).
+CONDITION_WORDS = {"v_supply": "supply voltage", "v_load": "load voltage", "temp": "ambient temperature"}
 # Applied where a spec does not say (common practice, no source: 1 % metal film
 # of 100 ppm/K); Spec.assumed names the ones a spec left to these.
 DEFAULT_RESISTOR_TOLERANCE = 0.01
@@ -388,7 +390,7 @@ def factors(spec, design):
     out += [f for f in shared if f.kind == "mismatch"]
     for name, bounds in (("v_supply", spec.v_supply), ("v_load", spec.v_load), ("temp", spec.temp)):
         if bounds is not None:
-            out.append(Factor(name, params[name], bounds[0], bounds[1], "condition", label=name))
+            out.append(Factor(name, params[name], bounds[0], bounds[1], "condition", label=CONDITION_WORDS[name]))
     return out
 
 

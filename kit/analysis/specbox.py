@@ -11,9 +11,7 @@ field is taken as written when it differs from the spec's default.
 Examples
 --------
 >>> import kit
->>> from dataclasses import MISSING
-
-from kit.analysis.spec import Spec
+>>> from kit.analysis.spec import Spec
 >>> d = kit.design("divider_source")
 >>> spec = Spec(1e-3, 0.05, temp=(273.15, 323.15))
 >>> rows = box_entries(spec, d, True, written={"current", "tolerance", "temp"})
@@ -26,6 +24,18 @@ from __future__ import annotations
 from dataclasses import MISSING
 
 from kit.analysis.spec import Spec
+from kit.model.vocabulary import vocabulary
+from kit.quantities import format_quantity
+
+# How each mismatch field reads in the box: the symbol a reviewer knows and its value in units.
+MISMATCH_WORDS = (
+    ("mismatch_vbe", "ΔV_BE ≤", lambda v: format_quantity(v, "V")),
+    ("mismatch_beta", "Δβ/β ≤", lambda v: f"{100 * v:.3g} %"),
+    ("mismatch_vth", "ΔV_th ≤", lambda v: format_quantity(v, "V")),
+    ("mismatch_k", "Δk/k ≤", lambda v: f"{100 * v:.3g} %"),
+    ("a_vth", "Pelgrom A_VT", lambda v: f"{v * 1e9:.3g} mV·µm"),
+    ("a_k", "Pelgrom A_k", lambda v: f"{v * 1e8:.3g} %·µm"),
+)
 
 # Record field names for the spec's own names.
 RECORD_NAMES = {"i_target": "current"}
@@ -45,6 +55,13 @@ def _range(pair, unit, kelvin=False):
     if kelvin:
         return f"{pair[0] - 273.15:.4g} … {pair[1] - 273.15:.4g} °C"
     return f"{pair[0]:.4g} … {pair[1]:.4g} {unit}".rstrip()
+
+
+def _quantity_range(pair, unit):
+    """``-2 mV … 2 mV`` for a bound in its vocabulary unit (a bare number when it has none)."""
+    if unit in ("", "1"):
+        return f"{pair[0]:.4g} … {pair[1]:.4g}"
+    return f"{format_quantity(pair[0], unit)} … {format_quantity(pair[1], unit)}"
 
 
 def box_entries(spec, design, self_heating, *, written=None, network=None):
@@ -87,17 +104,19 @@ def box_entries(spec, design, self_heating, *, written=None, network=None):
         add("resistor TCR", (f"±{spec.resistor_tcr * 1e6:.3g} ppm/K" + (f" ({tcr})" if tcr else ""))
             + ("" if spec.temp is not None else " (not varied: no temperature range)"), "resistor_tcr")
     if spec.bounds:
-        add("other bounds", "; ".join(f"{k} {v[0]:.4g} … {v[1]:.4g}" for k, v in spec.bounds.items()), "bounds")
+        words = vocabulary(design.topology, design.polarity)
+        add("other bounds", "; ".join(f"{k} {_quantity_range(v, words[k].unit if k in words else '')}"
+                                      for k, v in spec.bounds.items()), "bounds")
     matched = "; ".join(", ".join(g) for g in spec.matched)
-    mismatch = [f"{n} {getattr(spec, n):.3g}" for n in ("mismatch_vbe", "mismatch_beta", "mismatch_vth",
-                                                          "mismatch_k", "a_vth", "a_k") if getattr(spec, n)]
+    mismatch = [f"{label} {shown(getattr(spec, n))}" for n, label, shown in MISMATCH_WORDS if getattr(spec, n)]
     add("matching", (matched or "no matched group written") + (f"; {', '.join(mismatch)}" if mismatch else ""),
         "matched")
     heated = [n for n, m in design.devices.items() if "theta_ja" in m.values]
     if self_heating and heated:
         thetas = ", ".join(f"{n} θ_JA {values[f'{n}.theta_ja']:.4g} K/W" for n in heated)
-        coupling = "each part in its own package" if not network or not network.parts() else "thermal network given"
-        fixed("self-heating", f"included: {thetas}; {coupling}", True)
+        coupling = network.describe() if network is not None else "each part in its own package"
+        # a placement the record wrote ([thermal]) is the user's, not a default
+        fixed("self-heating", f"included: {thetas}; {coupling}", network is None)
     else:
         fixed("self-heating", "not included", False)
     fixed("RSS coverage", "± tolerance taken as ±3 σ", True)

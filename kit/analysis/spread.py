@@ -142,7 +142,7 @@ class Spread:
 
 
 def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge="vce_sat",
-           beta_source="given", load_source="given"):
+           beta_source="given", load_source="given", network=None):
     """Answer the four questions for ``design`` (see the module docstring).
 
     Parameters
@@ -166,6 +166,9 @@ def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge=
     beta_source, load_source : str
         How to say where a given ``beta`` or ``v_load`` range came from (the
         command line says "the record's [spec]" for a range it took there).
+    network : kit.analysis.thermal.ThermalNetwork, optional
+        How the parts share heat, for the self-heated compliance (a record's
+        ``[thermal]``); default one package each.
 
     Returns
     -------
@@ -177,7 +180,7 @@ def spread(design, *, beta=None, beta_rise=None, supply=None, v_load=None, edge=
         A range out of order or out of its valid range, or a range that leaves
         compliance (named, with the range that would do).
     """
-    nominal = evaluate(design, edge=edge)
+    nominal = evaluate(design, edge=edge, network=network)  # compliance ends where self-heating runs away
     model = model_of(design)
     values = design.parameters()
     bipolar = tuple(p.name for p in model.structure.devices if "beta_f" in p.params)
@@ -273,13 +276,13 @@ def _currents(design, v_load, change):
 
 def _tempco(design, bipolar, law, edge):
     if not bipolar:
-        ev = evaluate(design, edge=edge)
+        ev = evaluate(design, edge=edge, self_heating=False)
         return ev.tempco, ev.tempco_budget
     changed = design
     for name in bipolar:
         for param, value in law.items():
             changed = changed.with_parameter(f"{name}.{param}", value)
-    ev = evaluate(changed, edge=edge)
+    ev = evaluate(changed, edge=edge, self_heating=False)  # a tempco at the design temperature
     return ev.tempco, ev.tempco_budget
 
 
@@ -303,7 +306,7 @@ def _supply_part(design, supply, edge):
     currents = []
     for v in (a, b):
         try:
-            currents.append(evaluate(design.with_values(v_supply=v), edge=edge).i_out)
+            currents.append(evaluate(design.with_values(v_supply=v), edge=edge, self_heating=False).i_out)
         except ParameterError as err:
             raise ParameterError(f"at a supply of {v:g} V: {err}", parameter="supply", value=(a, b),
                                  valid="a range over which the design's load voltage stays in compliance") from None

@@ -13,6 +13,15 @@ to its breakdown voltage (V) and the margin to its power rating:
   ``T_J(max)``; with one package per part this is ``1 - P / P_allowed``);
 * a resistor: ``1 - P / P_rated`` (none when it has no rating).
 
+An op-amp that drives a pass device is judged by its output stage: its
+output current is what the parts on its output node draw (a MOSFET or
+JFET gate nothing at DC, a transistor's base its base current, a resistor
+its Ohm's-law current), and the output stage dissipates
+``(V+ - V_o) I_o`` while it sources and ``(V_o - V-) |I_o|`` while it sinks
+(the op-amp's quiescent supply power is its own and not counted).  No part
+class or datasheet entry states an output-current or output-power rating,
+so it has no rating margin; a gate drive is reported as negligible.
+
 Every point lies inside the spec (load voltage, supply, temperature,
 tolerances), so nothing is quoted at a load voltage the spec excludes.
 :func:`fault_cases` solves the output shorted (the output at the rail the
@@ -50,6 +59,8 @@ class PartStress:
     basis: str
     runaway_points: int = 0
     breakdown_margin: float | None = None  # V to the breakdown rating, smallest over the box
+    output_current: float | None = None  # an op-amp: its output current (A, + sourced) where its power is largest
+    negligible: bool = False  # an op-amp driving only gates: no DC output current at all
 
     def to_dict(self):
         return dict(self.__dict__)
@@ -87,6 +98,63 @@ def _dissipating(model):
     return [p for p in model.parts if p.kind.key not in ("opamp", "source")]
 
 
+def _into_terminal(part, terminal, j, params):
+    """DC current into ``terminal`` of ``part`` from its solved quantities, or None if the kit cannot tell."""
+    key = part.kind.key
+    if key == "resistor":  # i_r flows from a to b (kit.circuit.Circuit.resistor)
+        return j["i_r"] if terminal == "a" else -j["i_r"]
+    if key in ("mos", "jfet") and terminal == "g":  # the gate draws nothing at DC in their laws
+        return np.zeros_like(np.asarray(j[part.kind.quantities[0]], dtype=float))
+    if key == "bjt" and terminal == "b":  # the base current flows into an NPN's base, out of a PNP's
+        return (1.0 if part.sense == "n" else -1.0) * j["i_b"]
+    if key == "opamp" and terminal in ("p", "n"):  # the bias current flows into the - input only
+        return params.i_bias * np.ones_like(np.asarray(j["v_o"], dtype=float)) if terminal == "n" \
+            else np.zeros_like(np.asarray(j["v_o"], dtype=float))
+    return None
+
+
+def opamp_output(points, name):
+    """``(current, power, gates_only)`` of op-amp ``name``'s output stage at solved points, or None.
+
+    ``current`` (A) is positive where the output sources current, ``power``
+    (W) the output stage's ``(V+ - V_o) I_o`` sourcing or ``(V_o - V-) |I_o|``
+    sinking, ``gates_only`` True where only gates (no DC current) hang on the
+    output.  None when a part on the output node draws a current the kit
+    cannot read off its solved quantities.
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.analysis.evaluation import model_of
+    >>> from kit.model.solve import solve_points
+    >>> d = kit.design("opamp_mos_source")
+    >>> current, power, gates_only = opamp_output(solve_points(model_of(d), d.parameters()), "U1")
+    >>> float(current[0]), float(power[0]), gates_only
+    (0.0, 0.0, True)
+    """
+    model = points.model
+    amp = model.structure.part(name)
+    node = amp.nodes["o"]
+    j = points.junctions[name]
+    current = np.zeros(points.size)
+    gates_only = True
+    for part in model.parts:
+        for terminal, at in part.nodes.items():
+            if at != node or (part.name == name and terminal == "o"):
+                continue
+            drawn = _into_terminal(part, terminal, points.junctions[part.name], model.params(points.p, part))
+            if drawn is None:
+                return None
+            gates_only &= part.kind.key in ("mos", "jfet") and terminal == "g"
+            current = current + np.broadcast_to(np.asarray(drawn, dtype=float), (points.size,))
+    power = np.where(current >= 0, (j["v_pos"] - j["v_o"]) * current, (j["v_o"] - j["v_neg"]) * -current)
+    return current, np.maximum(power, 0.0), bool(gates_only)
+
+
+def _amplifiers(model):
+    return [p for p in model.parts if p.kind.key == "opamp"]
+
+
 class _Sampled:
     """Box points solved, with each part's power, temperature and rating margin."""
 
@@ -119,6 +187,17 @@ class _Sampled:
             self.power[part.name] = power
             self.temperature[part.name] = np.where(self.ok, np.broadcast_to(t_j, (points.size,)), -np.inf)
             self.margin[part.name] = np.where(self.ok, margin, np.inf)
+        self.current, self.gates_only = {}, {}
+        for part in _amplifiers(model):
+            found = opamp_output(points, part.name)
+            if found is None:
+                continue
+            current, power, self.gates_only[part.name] = found
+            self.current[part.name] = current
+            self.power[part.name] = np.where(self.ok, power, -np.inf)
+            self.temperature[part.name] = np.where(self.ok, ambient, -np.inf)  # no thermal resistance known
+            self.margin[part.name] = np.full(points.size, np.inf)  # no output rating known
+            self.volts[part.name] = np.full(points.size, np.inf)
 
 
 def _conditions(changes, k, base, box_factors):
@@ -165,7 +244,8 @@ def stress_over_box(solve, box_factors, base, seed=1):
                     lines.append(line)
         samples.append(_Sampled(solve, box_factors, _stack(lines), base))
     out = []
-    for part in _dissipating(first.points.model):
+    model = first.points.model
+    for part in _dissipating(model) + [p for p in _amplifiers(model) if p.name in first.power]:
         name = part.name
         power = np.concatenate([s.power[name] for s in samples])
         temperature = np.concatenate([s.temperature[name] for s in samples])
@@ -179,7 +259,17 @@ def stress_over_box(solve, box_factors, base, seed=1):
         heated = "t_j_max" in part.params
         kt = int(np.argmax(temperature)) if heated else kp
         worst_margin = float(np.min(margin))
-        if heated:
+        amplifier = part.kind.key == "opamp"
+        current = float(np.concatenate([s.current[name] for s in samples])[kp]) if amplifier else None
+        negligible = amplifier and all(s.gates_only[name] for s in samples)
+        if negligible:
+            basis = ("output drives only a gate: no DC output current, output-stage dissipation negligible "
+                     "(gate charge on fast changes not modelled); no output rating known")
+        elif amplifier:
+            basis = ("output stage: (V+ − V_o)·I_o sourcing, (V_o − V−)·|I_o| sinking, quiescent supply power "
+                     "not counted; at the ambient; no output-current or output-power rating known "
+                     "(no part class or datasheet entry states one)")
+        elif heated:
             basis = ("junction: ambient + thermal network × power; margin (T_J(max) − T_j)/(T_J(max) − T_a), "
                      "a linear derating to T_J(max)")
         elif "p_rated" in part.params:
@@ -190,7 +280,7 @@ def stress_over_box(solve, box_factors, base, seed=1):
                               worst_margin if np.isfinite(worst_margin) else None,
                               _conditions(changes, kt, base, box_factors),
                               _conditions(changes, kp, base, box_factors), basis, runaway,
-                              volts if np.isfinite(volts) else None))
+                              volts if np.isfinite(volts) else None, current, bool(negligible)))
     return sorted(out, key=lambda s: (s.rating_margin is None, s.rating_margin if s.rating_margin is not None
                                       else 0.0, -s.power))
 

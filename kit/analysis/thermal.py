@@ -46,7 +46,8 @@ DERIVATIVE_STEP = 1e-2  # K, the finite step of dP/dT_j
 # heated this far while still climbing is held there: in thermal runaway if the loop
 # gain there is 1 or more, else at a steady state beyond the laws (``too_hot``).
 RUNAWAY_TEMPERATURE = 500.0  # K
-THRESHOLD_BISECTIONS = 40
+EDGE_STEPS = 15  # load voltages solved at once per round of narrowing a runaway edge
+EDGE_TOLERANCE = 1e-5  # of the load voltage (at least 1 V): the runaway edge's width
 
 
 @dataclass(frozen=True)
@@ -80,6 +81,29 @@ class ThermalNetwork:
 
     mutual: dict = field(default_factory=dict)
     heatsinks: tuple = ()
+
+    def to_dict(self):
+        """Plain data: ``{"mutual": [{"parts": [a, b], "theta": K/W}], "heatsinks": [...]}``."""
+        return {"mutual": [{"parts": list(pair), "theta": float(value)} for pair, value in self.mutual.items()],
+                "heatsinks": [{"name": h.name, "theta_sa": float(h.theta_sa),
+                               "theta_js": {p: float(v) for p, v in h.theta_js.items()}} for h in self.heatsinks]}
+
+    def describe(self):
+        """One line of plain words (record names are a stranger's text: escape it where it is shown).
+
+        Examples
+        --------
+        >>> ThermalNetwork(mutual={("Q1", "Q2"): 60.0}).describe()
+        'Q1 and Q2 coupled by 60 K/W (one die or package); parts not named here each in their own package'
+        """
+        said = [f"{_listed(group)} coupled by {value:.4g} K/W (one die or package)"
+                for group, value in _groups(self.mutual)]
+        said += [f"heatsink {h.name} ({h.theta_sa:.4g} K/W to the air) under "
+                 + ", ".join(f"{p} ({v:.4g} K/W junction to sink)" for p, v in h.theta_js.items())
+                 for h in self.heatsinks]
+        if not said:
+            return "each part in its own package"
+        return "; ".join(said + ["parts not named here each in their own package"])
 
     def parts(self):
         """Every part the network names."""
@@ -120,6 +144,29 @@ class ThermalNetwork:
                                      valid=f"two different parts, <= their own theta")
             theta[i, k] = theta[k, i] = value
         return theta
+
+
+def _groups(mutual):
+    """``[(parts, theta)]``: pairs of one value that couple every member with every other, as one group."""
+    out, left = [], dict(mutual)
+    while left:
+        (a, b), value = next(iter(left.items()))
+        group = [a, b]
+        for pair, other in list(left.items()):
+            for p in pair:
+                if p not in group and other == value and all(
+                        left.get((p, q), left.get((q, p))) == value for q in group):
+                    group.append(p)
+        for i, p in enumerate(group):
+            for q in group[i + 1:]:
+                left.pop((p, q), None)
+                left.pop((q, p), None)
+        out.append((group, value))
+    return out
+
+
+def _listed(names):
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + f" and {names[-1]}"
 
 
 def _resistance(name, value):
@@ -322,6 +369,9 @@ def junction_temperatures(points):
     return out
 
 
+RUNAWAY_CAUSE = "thermal_runaway"  # a compliance edge set by self-heating (kit.analysis.evaluation)
+
+
 @dataclass(frozen=True)
 class RunawayThreshold:
     """Where the stable electrothermal points end along the load voltage.
@@ -329,13 +379,17 @@ class RunawayThreshold:
     ``v_load`` is the last load voltage with a stable point (None: every load
     voltage searched has one), ``side`` whether the runaway lies ``"above"``
     or ``"below"`` it, ``loop_gain`` the loop gain there, ``searched`` the
-    range searched.
+    range searched, ``part`` the heated part with the largest rise at the
+    edge (None where not known).
     """
 
     v_load: float | None
     loop_gain: float
     searched: tuple
     side: str = "above"
+    part: str | None = None
+    too_hot: bool = False  # past the edge a steady state, if any, lies above RUNAWAY_TEMPERATURE
+
 
     def text(self):
         if self.side == "everywhere":
@@ -347,9 +401,49 @@ class RunawayThreshold:
         return (f"thermal runaway: no stable operating point {self.side} V_load = {self.v_load:.4g} V, "
                 f"electrothermal loop gain {self.loop_gain:.3g} there")
 
+    def edge_text(self):
+        """What a compliance edge set here says after its part's name (``"Q2 " + ...``)."""
+        if self.too_hot:
+            return (f"runs away thermally {self.side} this load voltage (self-heated; its junction would "
+                    f"settle above {RUNAWAY_TEMPERATURE:g} K, beyond every temperature the laws hold)")
+        return (f"runs away thermally {self.side} this load voltage (self-heated; electrothermal loop "
+                f"gain {self.loop_gain:.3g} at the edge, 1 beyond)")
+
     def to_dict(self):
         return {"v_load": self.v_load, "side": self.side, "loop_gain": self.loop_gain,
-                "searched": list(self.searched), "text": self.text()}
+                "searched": list(self.searched), "part": self.part, "too_hot": self.too_hot,
+                "text": self.text()}
+
+
+def _everywhere(lo, hi):
+    return ConvergenceError(f"thermal runaway: no stable operating point for V_load {lo:.4g} … {hi:.4g} V "
+                            "(electrothermal loop gain >= 1 everywhere)", parameter="v_load",
+                            valid="a lower dissipation: less current, a cooler package or more voltage headroom "
+                                  "taken by a resistor")
+
+
+def _edge(model, values, good, wrong, gain, network, searched, side, unstable=None):
+    """Narrow the step between a stable load voltage ``good`` and a runaway one ``wrong``.
+
+    Each round solves :data:`EDGE_STEPS` load voltages between them at once
+    (one vectorised solve instead of a bisection's one point at a time) and
+    keeps the step where runaway begins, to :data:`EDGE_TOLERANCE`.
+    """
+    unstable = unstable or (lambda points: points.runaway)
+    part, too_hot = None, False
+    while abs(wrong - good) > EDGE_TOLERANCE * max(1.0, abs(wrong)):
+        trial = np.linspace(good, wrong, EDGE_STEPS + 2)[1:-1]
+        solved = solve_self_heated(model, values | {"v_load": trial}, network)
+        bad = unstable(solved)
+        first = int(np.argmax(bad)) if np.any(bad) else trial.size
+        if first > 0:
+            good, gain, part = float(trial[first - 1]), float(solved.loop_gain[first - 1]), \
+                _hottest_part(solved, first - 1)[0]
+        if first < trial.size:
+            wrong, too_hot = float(trial[first]), bool(solved.too_hot[first])
+    if part is None:
+        part = _hottest_part(solve_self_heated(model, values | {"v_load": np.array([good])}, network), 0)[0]
+    return RunawayThreshold(float(good), gain, searched, side, part, too_hot)
 
 
 def runaway_threshold(model, values, v_range, network=None, points=65):
@@ -379,22 +473,72 @@ def runaway_threshold(model, values, v_range, network=None, points=65):
     if not np.any(bad):
         return RunawayThreshold(None, float(np.max(solved.loop_gain[solved.converged], initial=0.0)), (lo, hi))
     if np.all(bad):
-        raise ConvergenceError(f"thermal runaway: no stable operating point for V_load {lo:.4g} … {hi:.4g} V "
-                               "(electrothermal loop gain >= 1 everywhere)", parameter="v_load",
-                               valid="a lower dissipation: less current, a cooler package or more voltage headroom "
-                                     "taken by a resistor")
+        raise _everywhere(lo, hi)
     side = "below" if bad[0] else "above"
     order = np.arange(points) if side == "above" else np.arange(points)[::-1]
     first = int(order[int(np.argmax(bad[order]))])
     last = first - 1 if side == "above" else first + 1
-    good, wrong, gain = grid[last], grid[first], float(solved.loop_gain[last])
-    for _ in range(THRESHOLD_BISECTIONS):
-        mid = 0.5 * (good + wrong)
-        one = solve_self_heated(model, values | {"v_load": np.array([mid])}, network)
-        if one.runaway[0]:
-            wrong = mid
-        else:
-            good, gain = mid, float(one.loop_gain[0])
-        if abs(wrong - good) < 1e-6 * max(1.0, abs(wrong)):
-            break
-    return RunawayThreshold(float(good), gain, (lo, hi), side)
+    return _edge(model, values, grid[last], grid[first], float(solved.loop_gain[last]), network, (lo, hi), side)
+
+
+def stable_load_range(model, values, v_range, network=None, points=65):
+    """The stretch of load voltages with a stable electrothermal point around the design's own.
+
+    The load voltage is stepped across ``v_range`` (with the design's own
+    ``values["v_load"]`` among the steps); the stretch without runaway that
+    holds the design's load voltage (else the nearest one) is followed to
+    each end, and an end where runaway sets in is narrowed down.  A load
+    voltage whose junction would settle only above
+    :data:`RUNAWAY_TEMPERATURE` (``too_hot``, far past any part's T_J(max))
+    counts as runaway here: the part is destroyed on the way; so does one
+    whose electrothermal solve does not settle (only next to an edge, where
+    the loop gain nears 1).
+
+    Returns
+    -------
+    (RunawayThreshold or None, RunawayThreshold or None)
+        The low and the high end where runaway cuts the range (``side``
+        ``"below"`` and ``"above"``); None where the stretch reaches the end
+        of ``v_range``.
+
+    Raises
+    ------
+    kit.errors.ConvergenceError
+        If every load voltage searched runs away.
+
+    Examples
+    --------
+    >>> import kit
+    >>> from kit.analysis.evaluation import model_of
+    >>> d = kit.design("divider_source")
+    >>> stable_load_range(model_of(d), d.parameters(), (4.0, 10.0))
+    (None, None)
+    """
+    lo, hi = float(v_range[0]), float(v_range[1])
+    nominal = float(np.clip(values["v_load"], lo, hi))
+    grid = np.unique(np.append(np.linspace(lo, hi, points), nominal))
+    solved = solve_self_heated(model, values | {"v_load": grid}, network)
+    bad = _unstable(solved)
+    if not np.any(bad):
+        return None, None
+    if np.all(bad):
+        raise _everywhere(lo, hi)
+    stable = np.flatnonzero(~bad)
+    at = int(stable[np.argmin(np.abs(grid[stable] - nominal))])
+    first, last = at, at
+    while first > 0 and not bad[first - 1]:
+        first -= 1
+    while last < grid.size - 1 and not bad[last + 1]:
+        last += 1
+    gain = solved.loop_gain
+    low = (_edge(model, values, grid[first], grid[first - 1], float(gain[first]), network, (lo, hi), "below",
+                 _unstable) if first > 0 else None)
+    high = (_edge(model, values, grid[last], grid[last + 1], float(gain[last]), network, (lo, hi), "above",
+                  _unstable) if last < grid.size - 1 else None)
+    return low, high
+
+
+def _unstable(points):
+    # Runaway, a steady state past the laws, or none reached (the loop gain near 1 settles
+    # ever more slowly towards the edge): no stable point to hold a compliance on.
+    return points.runaway | points.too_hot | ~points.converged

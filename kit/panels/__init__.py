@@ -17,7 +17,7 @@ inline the first time).  The submodules load lazily, so
 
 from __future__ import annotations
 
-__all__ = ["DesignPanel", "WorstCaseView", "SynthesisView", "load_bokeh"]
+__all__ = ["DesignPanel", "ComparePanel", "WorstCaseView", "SynthesisView", "load_bokeh"]
 
 
 def __getattr__(name):
@@ -25,6 +25,10 @@ def __getattr__(name):
         from kit.panels.design import DesignPanel
 
         return DesignPanel
+    if name == "ComparePanel":
+        from kit.panels.compare import ComparePanel
+
+        return ComparePanel
     if name in ("WorstCaseView", "SynthesisView"):
         from kit.panels import worst
 

@@ -57,6 +57,9 @@ class DesignPanel:
     search : dict, optional
         ``topologies=`` and ``polarities=`` for the standard-value search
         (default: this design's topology and polarity).
+    network : kit.analysis.thermal.ThermalNetwork, optional
+        How the parts share heat (a record's ``[thermal]``), for designs of
+        this circuit and polarity (default: each part in its own package).
 
     Attributes
     ----------
@@ -83,8 +86,10 @@ class DesignPanel:
     (False, 2000.0)
     """
 
-    def __init__(self, design, spec=None, *, series=None, settings=None, search=None):
+    def __init__(self, design, spec=None, *, series=None, settings=None, search=None, network=None):
         self.spec = spec
+        self.network = network
+        self._network_circuit = (design.topology.key, design.polarity)  # what the network was written for
         if series is None:
             series = eseries.series_for_tolerance(spec.resistor_tolerance) \
                 if spec is not None and spec.resistor_tolerance else "E24"
@@ -166,7 +171,7 @@ class DesignPanel:
             while True:
                 design = kit.design(top.key, polarity, title=old.title, temp=old.temp, **carried)
                 try:
-                    kit.evaluate(design)
+                    kit.evaluate(design, network=self.network_for(design))
                     return design
                 except DesignError as err:
                     if err.parameter not in carried:
@@ -175,9 +180,55 @@ class DesignPanel:
 
         return self._apply(make, {"topology": f"{top.key} ({polarity})"})
 
+    def network_for(self, design):
+        """The panel's thermal network for ``design``, or None (each part in its own package).
+
+        A network names parts of the circuit it was written for; another circuit's
+        Q1 and Q2 are other transistors, so after a switch the parts stand alone.
+        """
+        if self.network is None or (design.topology.key, design.polarity) != self._network_circuit:
+            return None
+        return self.network
+
     def csv(self, name):
-        """The numbers of plot ``name`` as CSV text (what its download button saves)."""
-        return plots.csv_text(name, self.sources)
+        """The numbers of plot ``name`` as CSV text (what its download button saves).
+
+        ``name`` is one of :data:`kit.panels.plots.FIGURES`, or ``"histogram"`` /
+        ``"budget"`` for the worst-case plots (after a worst-case run).
+        """
+        if name in plots.FIGURES:
+            return plots.csv_text(name, self.sources)
+        return self._worst_figure(name).csv(name)
+
+    def svg(self, name):
+        """Plot ``name`` (as for :meth:`csv`) drawn as SVG text, offline by the system Chromium.
+
+        What its SVG button saves in the browser (:mod:`kit.panels.export`).
+        """
+        from kit.panels.export import svg_text
+
+        if name in plots.FIGURES:
+            return svg_text(plots.build(self.plot_data)[0][name])  # a fresh copy of the present drawing
+        return svg_text(self._worst_figure(name).figures[name])
+
+    def _worst_figure(self, name):
+        from kit.panels.worst import CSV_COLUMNS
+
+        if name not in CSV_COLUMNS or self.worst is None or self.worst.result is None:
+            known = [*plots.FIGURES] + ([*CSV_COLUMNS] if self.worst is not None else [])
+            raise ParameterError("no such plot shown" + (" (run the worst case first)" if name in CSV_COLUMNS
+                                                          else ""), parameter="name", value=name,
+                                 valid=", ".join(known))
+        return self.worst
+
+    def compare(self, other):
+        """The present design and ``other`` side by side (a :class:`kit.panels.compare.ComparePanel`).
+
+        Both are edited there on their own; this panel is left as it is.
+        """
+        from kit.panels.compare import ComparePanel
+
+        return ComparePanel(self.design, other, self.spec)
 
     def step(self, name, direction):
         """Move resistor ``name`` to the next standard value up (+1) or down (-1)."""
@@ -333,7 +384,7 @@ class DesignPanel:
     def _compute(self, design, settings, reuse=None):
         start = time.perf_counter()
         # A load-voltage step keeps the compliance edges: the kit reuses them when nothing else changed.
-        evaluation = kit.evaluate(design, reuse=reuse)
+        evaluation = kit.evaluate(design, reuse=reuse, network=self.network_for(design))
         headline = headline_of(evaluation)
         evaluated = time.perf_counter()
         data = curves.plot_data(design, evaluation, self.spec, settings)

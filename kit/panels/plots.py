@@ -15,6 +15,7 @@ from bokeh.models import (ColumnDataSource, CustomAction, CustomJS, DataRange1d,
 from bokeh.plotting import figure
 
 from kit.panels import theme
+from kit.panels.export import add_svg_action
 from kit.panels.curves import SOURCES
 
 FIGURES = ("load", "beta", "temp", "sensitivity", "tempco")
@@ -147,23 +148,44 @@ link.remove();
 """
 
 
-def _add_csv_action(fig, name, sources):
-    used = {k for k, _, _ in CSV_COLUMNS[name]}
-    callback = CustomJS(args={"sources": {k: sources[k] for k in used},
-                              "columns": [list(c) for c in CSV_COLUMNS[name]],
-                              "forms": sources[FORMS_CSV[name]] if name in FORMS_CSV else None,
-                              "filename": f"biasbook-{name}.csv"}, code=_CSV_JS)
+def add_csv_action(fig, filename, sources, columns, forms=None):
+    """Add a toolbar button saving ``columns`` (``(source, column, header)``) of ``sources`` as CSV."""
+    used = {k for k, _, _ in columns}
+    callback = CustomJS(args={"sources": {k: sources[k] for k in used}, "columns": [list(c) for c in columns],
+                              "forms": forms, "filename": filename}, code=_CSV_JS)
     fig.add_tools(CustomAction(icon="arrow_down_to_bar", description="Save this plot's numbers as CSV",
                                callback=callback, name="csv"))
 
 
-def csv_text(name, sources):
-    """The CSV the plot ``name``'s download button writes, from the same ``sources`` (for scripts and tests)."""
+def _add_csv_action(fig, name, sources):
+    add_csv_action(fig, f"biasbook-{name}.csv", sources, CSV_COLUMNS[name],
+                   sources[FORMS_CSV[name]] if name in FORMS_CSV else None)
+
+
+def name_save_tool(fig):
+    """Say on the plot's own save button that it writes PNG (beside the SVG one).
+
+    The hover stays on without a button of its own: a toolbar longer than the
+    plot folds its last buttons (the exports) into a menu.
+    """
+    for tool in fig.tools:
+        if type(tool).__name__ == "SaveTool":
+            tool.description = "Save the figure as PNG"
+        elif type(tool).__name__ == "HoverTool":
+            tool.visible = False
+
+
+def csv_text(name, sources, columns=None):
+    """The CSV the plot ``name``'s download button writes, from the same ``sources`` (for scripts and tests).
+
+    ``columns`` (``(source, column, header)`` triples) defaults to the design plots' :data:`CSV_COLUMNS`.
+    """
     import csv
     import io
 
-    cols = [(head, list(sources[k].data.get(key, []))) for k, key, head in CSV_COLUMNS[name]]
-    if name in FORMS_CSV:
+    columns = CSV_COLUMNS[name] if columns is None else columns
+    cols = [(head, list(sources[k].data.get(key, []))) for k, key, head in columns]
+    if name in FORMS_CSV and columns is CSV_COLUMNS[name]:
         forms = sources[FORMS_CSV[name]].data
         cols += [(f"{label} (A)", list(ys)) for label, ys in zip(forms.get("label", []), forms.get("i_out", []))]
     out = io.StringIO()
@@ -199,6 +221,8 @@ def build(data=None):
                "tempco": _bar_figure(sources["tempco"], [], [("mechanism", "@name"), ("share", "@with_unit")])}
     for name, fig in figures.items():
         _add_csv_action(fig, name, sources)
+        add_svg_action(fig, f"biasbook-{name}.svg")
+        name_save_tool(fig)
     if data is not None:
         fill(figures, sources, data)
     return figures, sources

@@ -19,9 +19,19 @@ from kit.analysis.synthesis import synthesize
 from kit.analysis.worstcase import worst_case
 from kit.errors import DesignError
 from kit.panels import theme
+from kit.panels.export import add_svg_action
+from kit.panels.plots import add_csv_action, csv_text, name_save_tool
+from kit.panels.stress import stress_html
 from kit.quantities import format_quantity
 
 HISTOGRAM_BINS = 40
+# What each worst-case figure's CSV holds: (source, column, header), SI units in the headers.
+CSV_COLUMNS = {
+    "histogram": [("histogram", "low", "I_out bin low (A)"), ("histogram", "high", "I_out bin high (A)"),
+                  ("histogram", "top", "samples")],
+    "budget": [("budget", "name", "factor"), ("budget", "share", "share of the summed swings (%)"),
+               ("budget", "swing", "swing of I_out alone (A)")],
+}
 _CELL = "padding:2px 10px;border-bottom:1px solid #d8d8d8"
 
 
@@ -45,11 +55,12 @@ def histogram_columns(result, scale):
     counts, edges = mc.arrays["histogram"].coarse(HISTOGRAM_BINS)
     lo, hi = result.spec.limits
     if counts.size == 0:
-        return {"left": [], "right": [], "top": [], "colour": []}
+        return {"left": [], "right": [], "top": [], "colour": [], "low": [], "high": []}
     centres = 0.5 * (edges[:-1] + edges[1:])
     inside = (centres >= lo) & (centres <= hi)
     return {"left": edges[:-1] / scale, "right": edges[1:] / scale, "top": counts,
-            "colour": np.where(inside, theme.RAISES, theme.FAIL_COLOUR).tolist()}
+            "colour": np.where(inside, theme.RAISES, theme.FAIL_COLOUR).tolist(),
+            "low": edges[:-1], "high": edges[1:]}  # in A, for the CSV
 
 
 class WorstCaseView:
@@ -63,9 +74,10 @@ class WorstCaseView:
         self.panel = panel
         self.spec = spec
         self.result = None
-        self.sources = {"histogram": ColumnDataSource(data={"left": [], "right": [], "top": [], "colour": []}),
+        self.sources = {"histogram": ColumnDataSource(data={"left": [], "right": [], "top": [], "colour": [],
+                                                            "low": [], "high": []}),
                         "limits": ColumnDataSource(data={"x": [], "y1": [], "text": []}),
-                        "budget": ColumnDataSource(data={"name": [], "share": [], "text": []})}
+                        "budget": ColumnDataSource(data={"name": [], "share": [], "text": [], "swing": []})}
         hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="pan,box_zoom,reset,save",
                       title="Monte Carlo: not run yet", x_axis_label="I_out", y_axis_label="samples")
         bars = hist.quad(left="left", right="right", bottom=0, top="top", source=self.sources["histogram"],
@@ -95,16 +107,22 @@ class WorstCaseView:
         budget.x_range.range_padding = 0.35
         theme.style_figure(budget)
         self.figures = {"histogram": hist, "budget": budget}
+        for name, fig in self.figures.items():
+            add_csv_action(fig, f"biasbook-{name}.csv", self.sources, CSV_COLUMNS[name])
+            add_svg_action(fig, f"biasbook-{name}.svg")
+            name_save_tool(fig)
         self.button = widgets.Button(description="check against the spec", button_style="primary",
                                      layout=widgets.Layout(width="220px"))
         self.button.on_click(lambda _: self.run())
         self.status = widgets.HTML(_status("Not run yet: the analysis takes a few seconds."))
         self.table = widgets.HTML()
+        self.stress = widgets.HTML(layout=widgets.Layout(width="100%"))
         self.bokeh = {"histogram": BokehModel(hist), "budget": BokehModel(budget)}
         self._drawn = None  # the result the BokehModels were last sent with
         # Hidden until a run fills them: no empty plot boxes.
         self.plots = widgets.Box(list(self.bokeh.values()), layout=widgets.Layout(display="none", flex_flow="row wrap"))
-        self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.table, self.plots])
+        self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.table, self.plots,
+                                    self.stress])
         panel.on_change(self._design_changed)
 
     def run(self):
@@ -112,7 +130,7 @@ class WorstCaseView:
         design = self.panel.design
         self.status.value = _status("Running …")
         try:
-            result = worst_case(design, self.spec)
+            result = worst_case(design, self.spec, network=self.panel.network_for(design))
         except DesignError as err:
             self.status.value = _status(f"Not run: {err}", error=True)
             return None
@@ -127,7 +145,8 @@ class WorstCaseView:
                                        "text": ["low limit", "high limit"]}
         ranked = sorted(result.budget, key=lambda b: b.share)
         self.sources["budget"].data = {"name": [b.label for b in ranked], "share": [100 * b.share for b in ranked],
-                                       "text": [format_quantity(b.swing, "A") for b in ranked]}
+                                       "text": [format_quantity(b.swing, "A") for b in ranked],
+                                       "swing": [b.swing for b in ranked]}
         self.figures["budget"].y_range.factors = [b.label for b in ranked]
         hist = self.figures["histogram"]
         hist.xaxis.axis_label = f"I_out ({unit})"
@@ -135,9 +154,14 @@ class WorstCaseView:
         hist.title.text = (f"Monte Carlo: {mc.detail['samples']} samples × {mc.detail['condition_points']} "
                            f"condition points; yield {mc.detail['yield']:.2%}")
         self.table.value = self._table_html(result)
+        self.stress.value = stress_html(result)
         self.plots.layout.display = "flex"
         self.status.value = _status(f"Result for the design as it is now ({self._values_text(design)}).")
         return result
+
+    def csv(self, name):
+        """The numbers of worst-case plot ``name`` (``"histogram"``, ``"budget"``) as CSV text."""
+        return csv_text(name, self.sources, CSV_COLUMNS[name])
 
     def refresh_drawings(self, force=False):
         """Re-send both drawings whole if a run changed them since (see DesignPanel.refresh_drawings)."""
@@ -204,7 +228,8 @@ class SynthesisView:
                                      layout=widgets.Layout(width="220px"))
         self.button.on_click(lambda _: self.run())
         self.status = widgets.HTML(_status(
-            f"Tries {', '.join(self.topologies)} ({', '.join(self.polarities)}); takes seconds per topology."))
+            f"Tries {', '.join(self.topologies)} ({', '.join(self.polarities)}) starting from the design as it "
+            "is now; takes seconds per topology."))
         self.rows = widgets.VBox()
         self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.rows])
 
@@ -212,7 +237,9 @@ class SynthesisView:
         """Search; returns the Synthesis, or None if refused."""
         self.status.value = _status("Searching …")
         try:
-            result = synthesize(self.spec, topologies=self.topologies, polarities=self.polarities)
+            # From where the designer is: the values, parts and conditions it does not search are kept.
+            result = synthesize(self.spec, start=self.panel.design, topologies=self.topologies,
+                                polarities=self.polarities)
         except DesignError as err:
             self.status.value = _status(f"Not run: {err}", error=True)
             return None

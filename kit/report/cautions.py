@@ -44,10 +44,12 @@ def cautions(evaluation):
                    "supplies need a licensed professional's design and sign-off.")
     runaway = getattr(evaluation, "thermal_runaway", None)
     if runaway is not None:
-        out.append(f"With self-heating (each part in its own package) this design point has no stable "
-                   f"temperature — {runaway.text()}. A part heats until it fails: it can "
-                   "burn and start a fire. Couple the parts thermally, add emitter resistance or lower the "
-                   "dissipation, and test with a current-limited supply.")
+        network = getattr(evaluation, "thermal_network", None)
+        placed = network.describe() if network is not None else "each part in its own package"
+        out.append(f"With self-heating ({placed}) the stable operating points end inside the electrical "
+                   f"compliance range — {runaway.text()}; the compliance stated ends there. Beyond it a part "
+                   "heats until it fails: it can burn and start a fire. Couple the parts thermally, add "
+                   "emitter resistance or lower the dissipation, and test with a current-limited supply.")
     hottest = evaluation.hottest
     if hottest is not None:
         part, watts, at, junction = hottest

@@ -83,6 +83,27 @@ def _normalised(s):
     return format_quantity(s.normalised, "ppm/K") if s.parameter == "temp" else f"{s.normalised:+.4f}"
 
 
+def _electrical_range(evaluation):
+    """Words for the range self-heating cut, or "" when it cut nothing."""
+    electrical = getattr(evaluation, "electrical_compliance", None)
+    c = evaluation.compliance
+    if electrical is None or electrical == c:
+        return ""
+    return (f"electrically {format_quantity(electrical.low.voltage, 'V')} … "
+            f"{format_quantity(electrical.high.voltage, 'V')} ({electrical.low.describe()}; "
+            f"{electrical.high.describe()}); thermal runaway ends it sooner")
+
+
+def _electrical_rows(evaluation):
+    """The table row of the range before self-heating cut it (none when it cut nothing)."""
+    electrical = getattr(evaluation, "electrical_compliance", None)
+    if not _electrical_range(evaluation):
+        return []
+    return [["without self-heating", f"{format_quantity(electrical.low.voltage, 'V')} … "
+             f"{format_quantity(electrical.high.voltage, 'V')}",
+             f"{electrical.low.describe()}; {electrical.high.describe()}"]]
+
+
 def _describe_part(evaluation, name):
     part = evaluation.design.structure.part(name)
     return part.kind.describe(evaluation.parts[name].quantities)
@@ -96,6 +117,9 @@ def text(evaluation):
         lines.append(f"  {label:<12} {value}")
     c = evaluation.compliance
     lines.append(f"  low edge     {c.low.describe()}; high edge {c.high.describe()}")
+    cut = _electrical_range(evaluation)
+    if cut:
+        lines.append(f"  {'':<12} {cut}")
     structure = design.structure
     for key, value in evaluation.r_out_forms.items():  # beside the exact R_out above
         lines.append(f"  {'':<12} {resistance(value)}: {structure.extra_label(key)}")
@@ -105,9 +129,13 @@ def text(evaluation):
     lines.append(f"{'sensitivities':<17}{'dI/dp':>16}  S = (p/I) dI/dp")  # over the columns below
     for s in evaluation.sensitivities:
         lines.append(f"  {s.parameter:<14} {_derivative(s):>16}  {_normalised(s)}")
-    lines.append("tempco budget")
-    for label, value in evaluation.tempco_budget:
-        lines.append(f"  {label:<34} {format_quantity(value, 'ppm/K')}")
+    # Summed per mechanism as in the notebook's table: matched parts' terms
+    # (±34 000 ppm/K from two saturation currents) cancel before the reader sees them.
+    lines.append("tempco budget by mechanism")
+    for mechanism, parts, value in tempco_by_mechanism(evaluation.tempco_budget):
+        label = f"{mechanism} ({parts})" if parts else mechanism
+        lines.append(f"  {label:<40} {format_quantity(value, 'ppm/K'):>12}")
+    lines.append(f"  {'total':<40} {format_quantity(evaluation.tempco, 'ppm/K'):>12}")
     lines.append("ledger (closed form vs exact)")
     for e in evaluation.ledger:
         lines.append(f"  {e.label:<48} {format_quantity(e.value, 'A', 4):>10}  error {e.error:+.3%}")
@@ -125,7 +153,7 @@ def html(evaluation):
     edges = tables.table(["edge", "load voltage", "limited by"], [
         ["low", format_quantity(c.low.voltage, "V"), c.low.describe()],
         ["high", format_quantity(c.high.voltage, "V"), c.high.describe()],
-    ], numeric=(1,))
+    ] + _electrical_rows(evaluation), numeric=(1,))
     forms = tables.table(["output resistance", "value"],
                          [["exact (from dI/dV_load)", resistance(evaluation.r_out, 5)]]
                          + [[structure.extra_label(k), resistance(v, 5)]

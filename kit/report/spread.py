@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from kit.quantities import format_quantity
 from kit.report import tables
-from kit.report.evaluation import title
+from kit.report.evaluation import tempco_by_mechanism, title
 
 
 def _current(value):
@@ -72,8 +72,10 @@ def _budget_columns(result):
 
 def _budget_rows(result):
     """``[mechanism, value per column]`` rows; one column when no gain is spread."""
-    labels = dict.fromkeys(k for k, _ in (*result.budget_beta_constant, *result.budget_beta_rising))
-    constant, rising = dict(result.budget_beta_constant), dict(result.budget_beta_rising)
+    # Summed per mechanism (matched parts' ±140 000 ppm/K terms cancel), as in every other tempco table.
+    constant, rising = ({f"{m} ({p})" if p else m: v for m, p, v in tempco_by_mechanism(b)}
+                        for b in (result.budget_beta_constant, result.budget_beta_rising))
+    labels = dict.fromkeys((*constant, *rising))
     columns = (constant, rising) if result.beta_range is not None else (constant,)
     return [[label, *(format_quantity(c.get(label, 0.0), "ppm/K") for c in columns)] for label in labels]
 

@@ -27,6 +27,15 @@ def value_text(design, name):
     return format_quantity(design.values[name], unit, 3) if unit else f"{design.values[name]:g}"
 
 
+def bound_text(design, bound):
+    """``-2 mV … 2 mV``: a spec bound in its parameter's unit (bare numbers when it has none)."""
+    words = design.vocabulary
+    unit = words[bound["name"]].unit if bound["name"] in words else ""
+    if unit in ("", "1"):
+        return f"{bound['low']:g} … {bound['high']:g}"
+    return f"{format_quantity(bound['low'], unit)} … {format_quantity(bound['high'], unit)}"
+
+
 def _percent(fraction):
     return f"±{fraction * 100:.3g} %"
 
@@ -76,7 +85,7 @@ def _candidate_lines(rank, c):
     for name, why in c.ideal:
         lines.append(f"      IDEAL {name}: {IDEAL_WORDS.get(why, why)}")
     for b in c.bounds:
-        lines.append(f"      bound {b['name']}: {b['low']:g} … {b['high']:g} ({APPLIED_WORDS[b['applied']]})")
+        lines.append(f"      bound {b['name']}: {bound_text(c.design, b)} ({APPLIED_WORDS[b['applied']]})")
     return lines
 
 

@@ -100,6 +100,9 @@ def stress_lines(result):
     """Each part's worst stress inside the spec box, then the fault cases and any runaway."""
     out = []
     for s in result.stress:
+        if s.kind == "opamp":
+            out.append(_opamp_line(s))
+            continue
         margin = "no rating known" if s.rating_margin is None else f"rating margin {s.rating_margin:.1%}"
         if s.breakdown_margin is not None:
             margin += f", {format_quantity(s.breakdown_margin, 'V', 3)} below breakdown"
@@ -114,9 +117,22 @@ def stress_lines(result):
     return out
 
 
+def _opamp_line(s):
+    """An op-amp's output stage: what it drives, its current and dissipation, and that no rating is known."""
+    if s.negligible:
+        return (f"{s.part} output: drives a gate only, no DC output current; output-stage dissipation "
+                "negligible (gate charge on fast changes not modelled); no output rating known")
+    current = s.output_current or 0.0
+    way = "sources" if current >= 0 else "sinks"
+    return (f"{s.part} output stage: {format_quantity(s.power, 'W', 3)} max at {_where(s.power_conditions)}, "
+            f"where it {way} {format_quantity(abs(current), 'A', 3)}; no output-current or output-power "
+            "rating known (compare with the op-amp's datasheet)")
+
+
 def heat_cautions(result):
     """The usual cautions where the box makes a part hot enough to burn or run away."""
-    hot = [s for s in result.stress if s.kind != "resistor" and s.junction_temperature > HOT_SURFACE_KELVIN
+    hot = [s for s in result.stress if s.kind not in ("resistor", "opamp")
+           and s.junction_temperature > HOT_SURFACE_KELVIN
            and s.junction_temperature - s.conditions.get("temp", result.design.temp) > SELF_HEATING_KELVIN]
     out = []
     if hot:
@@ -132,7 +148,7 @@ def heat_cautions(result):
 
 def stress_headline(result):
     """The hottest part inside the spec in one line, or ``""``: never a load voltage the spec excludes."""
-    heated = [s for s in result.stress if s.kind != "resistor"]
+    heated = [s for s in result.stress if s.kind not in ("resistor", "opamp")]  # with a junction of their own
     if not heated:
         return ""
     s = min(heated, key=lambda e: e.rating_margin if e.rating_margin is not None else float("inf"))

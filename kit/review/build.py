@@ -29,7 +29,7 @@ import tempfile
 from pathlib import Path
 
 from kit.errors import DesignError
-from kit.review.forprint import for_print, with_print_setup
+from kit.review.forprint import PRINT_SETUP_TAG, for_print, with_print_setup
 from kit.review.page import REVIEW_PAGE
 from kit.review.pageone import page_one_html
 from kit.review.policy import with_content_policy
@@ -71,16 +71,34 @@ def mathjax_url():
     return script.as_uri() + "?config=TeX-AMS-MML_HTMLorMML-full,Safe"
 
 
-def execute(notebook, directory, *, timeout=EXECUTE_TIMEOUT_S):
-    """Run ``notebook`` in place in a fresh kernel whose working directory is ``directory``."""
+def execute(notebook, directory, *, timeout=EXECUTE_TIMEOUT_S, on_cell=None):
+    """Run ``notebook`` in place in a fresh kernel whose working directory is ``directory``.
+
+    ``on_cell(done, total)`` is called before each code cell runs (``done`` cells
+    finished of ``total``) and once more when the last has finished.
+    """
     from nbclient import NotebookClient
     from nbclient.exceptions import CellExecutionError
+
+    # The user's own code cells: the print theme's set-up cell is ours, not counted.
+    code = [i for i, cell in enumerate(notebook.cells) if cell.cell_type == "code" and cell.source.strip()
+            and PRINT_SETUP_TAG not in cell.metadata.get("tags", ())]
+    position = {index: n for n, index in enumerate(code)}
+
+    def started(cell, cell_index):
+        if on_cell is not None and cell_index in position:
+            on_cell(position[cell_index], len(code))
 
     saved = {k: os.environ.get(k) for k in ("BIASBOOK_REVIEW", "BOKEH_RESOURCES")}
     os.environ.update(BIASBOOK_REVIEW="1", BOKEH_RESOURCES="inline")
     try:
-        NotebookClient(notebook, timeout=timeout, kernel_name="python3",
+        # The kernel talks to this process over loopback only; its start-up warning about
+        # unencrypted TCP is not for a reviewer's terminal (cell errors still arrive).
+        NotebookClient(notebook, timeout=timeout, kernel_name="python3", on_cell_start=started,
+                       extra_arguments=["--IPKernelApp.log_level=ERROR"],
                        resources={"metadata": {"path": str(directory)}}).execute()
+        if on_cell is not None:
+            on_cell(len(code), len(code))
     except CellExecutionError as err:
         # The exception's name and text, not the kernel's traceback: that one is
         # coloured for a terminal, and the message is printed, logged and saved.
@@ -170,7 +188,9 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
     with_code : bool
         Show code cells (hidden by default: a review wants results).
     progress : callable, optional
-        Called with ``"executing"``, ``"converting"``, ``"printing"``, (``"twin"``), ``"done"``.
+        Called with each stage: ``"executing"``, ``"converting"``, ``"printing"``,
+        (``"twin"``), ``"done"``; while executing, also with ``"executing"``
+        and the keywords ``cell`` (cells finished) and ``cells`` (code cells in all).
     keep_html : path, optional
         Also keep the HTML page the PDF is printed from (it loads the local
         typesetting library: for tests and this machine).
@@ -187,7 +207,7 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
 
     from kit.review.notebook import notebook_for_record
 
-    report = progress or (lambda stage: None)
+    report = progress or (lambda stage, **count: None)
     source, output = Path(source), Path(output)
     if not source.exists():
         raise ReviewError("no such file", parameter="source", value=str(source))
@@ -201,7 +221,8 @@ def build_review(source, output, *, with_code=False, progress=None, keep_html=No
         raise ReviewError("not a notebook or a design record", parameter="source", value=str(source),
                           valid="a .ipynb or .toml file")
     report("executing")
-    notebook = execute(with_print_setup(notebook), source.resolve().parent)
+    notebook = execute(with_print_setup(notebook), source.resolve().parent,
+                       on_cell=lambda done, total: report("executing", cell=done, cells=total))
     report("converting")
     html = to_html(notebook, with_code=with_code)
     with tempfile.TemporaryDirectory(prefix="biasbook-review-") as scratch:

@@ -10,6 +10,8 @@ the second one's part:
 * the template's requirement prompt, left unedited, is not printed;
 * the review summary a notebook displays last is not printed where the
   notebook shows it: page one is made from it (:mod:`kit.review.pageone`);
+* an output the review already printed (the same table shown twice, say by
+  a panel that shows its evaluation again) is printed once, where it came first;
 * a section heading with nothing printed under it (its cells are all
   screen-only, or code without output while code is hidden) is not printed.
 
@@ -94,6 +96,35 @@ def _drop_empty_sections(cells, with_code):
     return kept
 
 
+def _output_key(output):
+    """What an output shows, to tell a repeat (its HTML, image or text, whichever it prints)."""
+    data = output.get("data", {})
+    for mime in ("text/html", "image/svg+xml", "image/png", "text/latex", "text/markdown"):
+        if mime in data:
+            shown = data[mime]
+            return mime, shown if isinstance(shown, str) else "".join(shown)
+    if output.get("output_type") == "stream":
+        return "stream", output.get("text", "")
+    return None  # a plot script or the like: drawn afresh each time, never a repeat by its bytes
+
+
+def _drop_repeated_outputs(cells):
+    seen = set()
+    for cell in cells:
+        if cell.cell_type != "code":
+            continue
+        kept = []
+        for output in cell.get("outputs", []):
+            key = _output_key(output)
+            if key is not None and key[1].strip():
+                if key in seen:
+                    continue
+                seen.add(key)
+            kept.append(output)
+        cell.outputs = kept
+    return cells
+
+
 def for_print(notebook, *, with_code=False):
     """A copy of an executed ``notebook`` holding what the printed review shows.
 
@@ -119,5 +150,5 @@ def for_print(notebook, *, with_code=False):
             if not cell.source:
                 continue
         cells.append(cell)
-    printed.cells = _drop_empty_sections(cells, with_code)
+    printed.cells = _drop_empty_sections(_drop_repeated_outputs(cells), with_code)
     return printed

@@ -1,8 +1,10 @@
 """Design notebooks made from a template: one per topology, prefilled from a record.
 
-:func:`new_notebook` writes the standard design story — circuit, derivation,
-operating point, ledger, sweep across compliance, worst case when the record
-has a spec, and the review summary — for any topology.  ``biasbook new`` and
+:func:`new_notebook` writes the standard design story in the order a review
+prints it — the design point with its ledger, the worst case with stress
+when the record has a spec, the plots (:mod:`kit.review.plots`), the exact
+equations and closed forms as an appendix, and the review summary that page
+one is made from — for any topology.  ``biasbook new`` and
 ``biasbook review RECORD.toml`` both use it.
 """
 
@@ -36,79 +38,21 @@ def _markdown(text):
     return nbformat.v4.new_markdown_cell(text)
 
 
-SWEEP_CELL = '''\
+PLOTS_CELL = """\
 # NBVAL_IGNORE_OUTPUT
-from bokeh.models import BoxAnnotation, Label, Range1d, Span
-from bokeh.plotting import figure, show
-from kit.panels.theme import current_scale
-low, high = evaluation.compliance.low.voltage, evaluation.compliance.high.voltage
-span = max(high - low, 1.0)
-# The working region and a little of each side: enough to see both edges, not the collapse beyond them.
-v_load = np.linspace(low - 0.06 * span, high + 0.04 * span, 300)
-points = sweep(design, "v_load", v_load)
-forms = points.model.closed_forms(points.q)
-scale, unit = current_scale(evaluation.i_out)
-exact = np.where(points.converged, points.i_out, np.nan) / scale  # an unconverged point is a gap
-inside = (v_load >= low) & (v_load <= high)
-top = np.nanmax(exact[inside])
-plot = figure(width=640, frame_height=240, x_axis_label="load voltage V_load (V)", y_axis_label=f"I_out ({unit})",
-              title="I_out across compliance: exact and hand formulas", toolbar_location=None,
-              x_range=Range1d(v_load[0], v_load[-1]), y_range=Range1d(0, 1.08 * top))
-plot.add_layout(BoxAnnotation(left=low, right=high, fill_alpha=0.08, fill_color="#2a9d8f"))
-if spec is not None and spec.v_load is not None:
-    # The load range the spec asks for, inside the working region if the design is sound.
-    plot.add_layout(BoxAnnotation(left=spec.v_load[0], right=spec.v_load[1], fill_alpha=0.12,
-                                  fill_color="#e9c46a"))
-    plot.add_layout(Label(x=spec.v_load[0], y=1.0 * top, x_offset=3, y_offset=-14, text="spec load range",
-                          text_font_size="10px"))
-for voltage, edge, align in ((low, evaluation.compliance.low, "left"), (high, evaluation.compliance.high, "right")):
-    plot.add_layout(Span(location=voltage, dimension="height", line_dash="dotted", line_color="#555"))
-    plot.add_layout(Label(x=voltage, y=0.04 * top, x_offset=4 if align == "left" else -4, text_align=align,
-                          text=f"{voltage:.3g} V: {edge.describe()}", text_font_size="10px"))
-plot.line(v_load, exact, line_width=2.5, color="#264653", legend_label="exact")
-for key, colour in zip(forms, ("#e76f51", "#e9c46a", "#8ab17d", "#6d597a", "#b56576")):
-    plot.line(v_load, np.where(points.converged, forms[key], np.nan) / scale, line_dash="dashed", color=colour,
-              legend_label=design.structure.form(key).label)
-# Below the frame: long labels never cover the curves or the axis.
-plot.add_layout(plot.legend[0], "below")
-show(plot)'''
+from kit.review.plots import show_review_figures
+show_review_figures(design, evaluation, spec, worst)"""
 
 
 PANEL_CELL = """\
 # NBVAL_IGNORE_OUTPUT
 from kit.panels import DesignPanel
-panel = DesignPanel(design, spec)
+panel = DesignPanel(design, spec, network=thermal)
 panel"""
 
 PANEL_TEXT = ("## The design panel\n\nType a value (`4k7`, `4k7 5%`), step a resistor, move a slider, switch "
               "the circuit or its polarity: every number, curve and tab follows the kit's exact solve. "
               "On screen only; the printed review keeps the sections above and below.")
-
-HISTOGRAM_CELL = '''\
-# NBVAL_IGNORE_OUTPUT
-from bokeh.models import Label, Span
-from bokeh.plotting import figure, show
-from kit.panels.theme import current_scale
-from kit.panels.worst import histogram_columns
-carlo = worst.methods["Monte Carlo"]
-scale, unit = current_scale(worst.spec.i_target)
-bars = histogram_columns(worst, scale)
-hist = figure(width=640, frame_height=220, x_axis_label=f"I_out ({unit})", y_axis_label="samples",
-              title=f"Monte Carlo: {carlo.detail['samples']} samples, yield {carlo.detail['yield']:.1%}",
-              toolbar_location=None)
-hist.quad(left=bars["left"], right=bars["right"], bottom=0, top=bars["top"], fill_color=bars["colour"],
-          line_color="white")
-for limit, name in zip(worst.spec.limits, ("low limit", "high limit")):
-    hist.add_layout(Span(location=limit / scale, dimension="height", line_dash="dashed", line_color="#b23a48"))
-    hist.add_layout(Label(x=limit / scale, y=max(bars["top"], default=1), y_offset=-14, x_offset=3,
-                          text=name, text_font_size="10px", text_color="#b23a48"))
-# The axis holds both spec limits whatever the spread.
-lo, hi = worst.spec.limits
-edges = list(bars["left"]) + list(bars["right"]) + [lo / scale, hi / scale]
-pad = 0.05 * (max(edges) - min(edges))
-hist.x_range.start, hist.x_range.end = min(edges) - pad, max(edges) + pad
-show(hist)'''
-
 
 REQUIREMENT_PROMPT = ("State the requirement here: the current and its tolerance, the load-voltage range, "
                       "the supply and temperature ranges.")
@@ -128,14 +72,17 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
     if record_path is not None:
         load = (f"record = load_record({json.dumps(str(record_path))})\n"
                 "design = record.design\n"
-                "spec = getattr(record, 'spec', None)")
+                "spec = getattr(record, 'spec', None)\n"
+                "thermal = getattr(record, 'thermal', None)  # how the parts share heat ([thermal])")
     else:
         values = ", ".join(f"{k}={v!r}" for k, v in design.values.items())
         load = (f"record = None\ndesign = kit.design({top.key!r}, {design.polarity!r}, {values},\n"
-                f"                    title={heading!r})\nspec = None")
+                f"                    title={heading!r})\nspec = None\nthermal = None")
     # The title and notes may come from a record someone mailed: shown as text, never as markup.
+    # The review's cover carries the title: the heading is for the screen.
     cells = [
-        _markdown(f"# {markdown_inline(heading)}\n\n{top.title} ({design.polarity.upper()}). "
+        _screen_only(_markdown(f"# {markdown_inline(heading)}")),
+        _markdown(f"{top.title} ({design.polarity.upper()}). "
                   f"{top.description}\n\n" + (markdown_block(notes.strip()) if notes.strip() else REQUIREMENT_PROMPT)),
         _code("# NBVAL_IGNORE_OUTPUT\nimport numpy as np\nimport kit\n"
               "from bokeh.io import output_notebook\nfrom bokeh.resources import INLINE\n"
@@ -143,30 +90,32 @@ def new_notebook(design, *, record_path=None, title=None, has_spec=False, notes=
               "from kit.record import load_record\nfrom kit.review import review_summary\n"
               "from kit.report.schematic import render\n"
               "output_notebook(resources=INLINE, hide_banner=True)\n" + load, hide=True),
-        _markdown("## The circuit"),
-        _code("render(design)"),
-        _markdown("## The exact equations and the hand formulas"),
-        _code("# NBVAL_IGNORE_OUTPUT\nderivation(design)"),
+        # Page one of the review carries the schematic and the device table.
+        _screen_only(_markdown("## The circuit")),
+        _screen_only(_code("render(design)")),
         _markdown("## The design point\n\nExact solve, compliance, output resistance, sensitivities, "
                   "tempco budget and the ledger of simplifications."),
-        _code("# NBVAL_IGNORE_OUTPUT\nevaluation = kit.evaluate(design, edge=getattr(record, 'edge', 'vce_sat'))\n"
-              "evaluation"),
-        _markdown("## Across compliance"),
-        _code(SWEEP_CELL),
-        _screen_only(_markdown(PANEL_TEXT)),
-        _screen_only(_code(PANEL_CELL)),
+        _code("# NBVAL_IGNORE_OUTPUT\nevaluation = kit.evaluate(design, edge=getattr(record, 'edge', 'vce_sat'), "
+              "network=thermal)\nevaluation"),
     ]
     if has_spec or record_path is not None:
         cells += [_markdown("## Worst case against the specification"),
                   _code("# NBVAL_IGNORE_OUTPUT\nfrom kit.analysis.worstcase import worst_case\n"
-                        "worst = worst_case(design, spec) if spec is not None else None\nworst")]
-        if has_spec and record_path is not None:
-            # Where a worst case ran, the spread of its Monte Carlo samples against the limits.
-            cells.append(_code(HISTOGRAM_CELL))
+                        "worst = worst_case(design, spec, network=thermal) if spec is not None else None\nworst")]
     else:
         cells.append(_code("worst = None", hide=True))
-    cells += [_markdown("## Summary for the review"),
-              _code("# NBVAL_IGNORE_OUTPUT\nreview_summary(evaluation, worst, record)")]
+    cells += [
+        _markdown("## Plots\n\nThe current across compliance (at the spec's gain and temperature extremes "
+                  "where it gives them), each part's dissipation against its allowance, and the Monte Carlo "
+                  "spread against the limits where a worst case ran."),
+        _code(PLOTS_CELL),
+        _screen_only(_markdown(PANEL_TEXT)),
+        _screen_only(_code(PANEL_CELL)),
+        _markdown("## Appendix: exact equations and closed forms"),
+        _code("# NBVAL_IGNORE_OUTPUT\nderivation(design)"),
+        _markdown("## Summary for the review"),
+        _code("# NBVAL_IGNORE_OUTPUT\nreview_summary(evaluation, worst, record)"),
+    ]
     notebook = nbformat.v4.new_notebook()
     notebook.cells = cells
     notebook.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3", "language": "python"}
@@ -196,7 +145,8 @@ def comparison_notebook(record_paths, title):
     records = [load_record(p) for p in paths]
     names = [r.title or r.design.topology.title for r in records]
     cells = [
-        _markdown(f"# {markdown_inline(title)}\n\n" + "\n".join(
+        _screen_only(_markdown(f"# {markdown_inline(title)}")),  # the cover carries the title
+        _markdown("The designs compared:\n\n" + "\n".join(
             f"- {markdown_inline(name)} ({r.design.topology.title}, {r.design.polarity.upper()})"
             for name, r in zip(names, records))),
         _code("# NBVAL_IGNORE_OUTPUT\nimport kit\nfrom bokeh.io import output_notebook\n"

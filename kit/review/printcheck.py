@@ -53,6 +53,8 @@ NOT_FOR_A_REVIEWER = {
     "template prompt": re.compile(re.escape(REQUIREMENT_PROMPT.split(":")[0]), re.IGNORECASE),
     "slider instructions": re.compile(r"\bsliders?\b", re.IGNORECASE),
     "'Try it'": re.compile(r"\bTry it\b", re.IGNORECASE),
+    # a check cell's Python repr ("met: False", a tuple of SymPy expressions) is for the test suite
+    "check-cell text": re.compile(r"\b\w+: (?:True|False)\b|\(-?\(\w+\*\w+"),
 }
 QUARTER = 0.25
 # Ink this far below a heading's text still belongs to the heading (its rule).
@@ -83,6 +85,7 @@ class PrintReport:
     unwanted_text: list = field(default_factory=list)  # (kind, where, excerpt)
     sparse_pages: list = field(default_factory=list)  # (page, fraction filled)
     stranded_headings: list = field(default_factory=list)  # (page, heading)
+    repeated: list = field(default_factory=list)  # section headings or result blocks printed twice
     pages: int = 0
     title: str = ""
     expected_title: str | None = None
@@ -94,6 +97,7 @@ class PrintReport:
                 "plot toolbars and logos": len(self.plot_tools), "text not for a reviewer": len(self.unwanted_text),
                 "pages below a quarter full": len(self.sparse_pages),
                 "headings ending a page": len(self.stranded_headings),
+                "sections printed twice": len(self.repeated),
                 "title differs": int(self.expected_title is not None and self.title != self.expected_title)}
 
     def problems(self):
@@ -107,6 +111,7 @@ class PrintReport:
         lines += [f"{kind} in the {where}: {excerpt!r}" for kind, where, excerpt in self.unwanted_text]
         lines += [f"page {p} is only {f:.0%} full" for p, f in self.sparse_pages]
         lines += [f"heading {h!r} is the last thing on page {p}" for p, h in self.stranded_headings]
+        lines += [f"printed twice: {r}" for r in self.repeated]
         if self.expected_title is not None and self.title != self.expected_title:
             lines.append(f"PDF title is {self.title!r}, not {self.expected_title!r}")
         return lines
@@ -183,7 +188,14 @@ _MEASURE_PAGE = r"""
   const headings = [...document.body.querySelectorAll("h1, h2, h3, h4, h5, h6")]
     .filter((h) => visible(h, h.getBoundingClientRect()))
     .map((h) => h.innerText.replace(/\s+/g, " ").trim()).filter((t) => t);
-  return {wide, scrolled, tools, headings, text: document.body.innerText, title: document.title};
+  // The notebook's own sections (h1-h3; a result's table titles are h4) and every result block.
+  const sections = [...document.body.querySelectorAll("h1, h2, h3")]
+    .filter((h) => visible(h, h.getBoundingClientRect()))
+    .map((h) => h.innerText.replace(/\s+/g, " ").trim()).filter((t) => t);
+  const blocks = [...document.body.querySelectorAll(".bb-result")]
+    .filter((b) => visible(b, b.getBoundingClientRect()))
+    .map((b) => b.innerText.replace(/\s+/g, " ").trim()).filter((t) => t);
+  return {wide, scrolled, tools, headings, sections, blocks, text: document.body.innerText, title: document.title};
 }
 """
 
@@ -364,6 +376,16 @@ def _excerpt(text, pattern):
     return re.sub(r"\s+", " ", text[max(0, match.start() - 30):match.end() + 30]).strip()
 
 
+def _repeats(texts, what):
+    """``"<what> '<start of its text>'"`` for every text met more than once."""
+    seen, out = set(), []
+    for text in texts:
+        if text in seen and not any(text[:60] in r for r in out):
+            out.append(f"{what} {text[:60]!r}")
+        seen.add(text)
+    return out
+
+
 def check_review(html_path, pdf_path, expected_title=None, page_geometry=REVIEW_PAGE):
     """Measure a review's kept HTML page and its PDF; see :class:`PrintReport`.
 
@@ -384,6 +406,7 @@ def check_review(html_path, pdf_path, expected_title=None, page_geometry=REVIEW_
         for kind, pattern in NOT_FOR_A_REVIEWER.items():
             if pattern.search(text):
                 report.unwanted_text.append((kind, where, _excerpt(text, pattern)))
+    report.repeated = _repeats(page["sections"], "section") + _repeats(page["blocks"], "result block")
     report.sparse_pages = [(n, f) for n, f in enumerate(printed["fill"][:-1], start=1) if f < QUARTER]
     return report
 
