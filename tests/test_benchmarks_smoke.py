@@ -26,7 +26,7 @@ FIGURES = (
     "derive_cold_s", "derive_cold_process_s", "derive_warm_s", "derive_warm_process_s",
     "derive_warm_preimported_s", "benchmark_run_s",
     "monte_carlo_exact_samples_per_s", "monte_carlo_closed_form_samples_per_s", "synthesis_s",
-    "panel_update_s", "panel_update_evaluate_s",
+    "panel_update_s", "panel_update_ms", "panel_update_cpu_ms", "panel_update_evaluate_s",
     "monte_carlo_peak_rss_mb", "monte_carlo_worst_case_samples_per_s",
     "monte_carlo_memory_samples", "monte_carlo_condition_points", "monte_carlo_streamed_peak_rss_mb",
     "monte_carlo_one_chunk_peak_rss_mb", "monte_carlo_streamed_vs_one_chunk_time",
@@ -81,3 +81,13 @@ def test_hand_written_references_agree_with_the_kit(report):
     assert report["closed_form_max_rel_diff"] < 1e-9
     assert report["exact_solve_max_rel_diff"] < 1e-6
     assert report["checks"]["exact_solve_kit_all_converged"]
+
+
+@pytest.mark.slow
+def test_browser_latency_is_a_goal_measured_only_in_the_full_run(report):
+    # The quick run starts no JupyterLab and no browser: the goal is listed, its value left open.
+    assert report["goals"]["panel_browser_update_ms"] == {"goal": "<= 150", "value": None, "met": None}
+    assert not any(key.startswith("panel_browser") for key in report)
+    assert "full mode only" in report["notes"]["panel_browser"]
+    # Its kernel-side companion is measured in every run, beside it in the same JSON.
+    assert report["goals"]["panel_update_ms"]["value"] == report["panel_update_ms"]

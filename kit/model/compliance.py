@@ -8,8 +8,9 @@ within its own limits (a zener above its knee, an op-amp inside its output
 swing, a reference current with headroom).
 
 The range is found on the exact solve: a scan over load voltage locates the
-edges, and Brent's method refines each one on the limiting margin, so the
-report names the part and the cause at each end.
+edges, and a bracketing secant search refines both on the limiting margin
+together (each round one vectorised solve), so the report names the part and
+the cause at each end.
 """
 
 from __future__ import annotations
@@ -17,7 +18,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
 
 from kit.errors import OperatingPointError
 from kit.model.solve import check_edge, solve_points
@@ -92,7 +92,7 @@ def find_compliance(model, values, *, edge="vce_sat", window=None):
     nominal = float(values["v_load"])
     grid = np.unique(np.append(grid, nominal))
     points = solve_points(model, values | {"v_load": grid})
-    worst, _ = points.worst_margin(edge)
+    worst, keys = points.worst_margin(edge)
     inside = worst >= 0
     if not inside.any():
         raise OperatingPointError(
@@ -103,8 +103,8 @@ def find_compliance(model, values, *, edge="vce_sat", window=None):
     runs = _runs(inside)
     at = int(np.searchsorted(grid, nominal))
     chosen = next((r for r in runs if r[0] <= at <= r[1]), max(runs, key=lambda r: r[1] - r[0]))
-    low = _refine(model, values, edge, grid, chosen[0], -1)
-    high = _refine(model, values, edge, grid, chosen[1], +1)
+    low, high = _refine_edges(model, values, edge, (grid, worst, keys, points),
+                              [(chosen[0], -1), (chosen[1], +1)])
     return Compliance(low, high, edge)
 
 
@@ -121,31 +121,97 @@ def _runs(mask):
     return runs
 
 
-def _refine(model, values, edge, grid, index, direction):
-    """Refine the edge between grid[index] (inside) and its outside neighbour."""
-    outside = index + direction
-    if outside < 0 or outside >= len(grid):
-        return Edge(float(grid[index]), None, None)
+def _refine_edges(model, values, edge, scan, ends):
+    """Refine each edge between ``grid[index]`` (inside) and its outside neighbour, all at once.
 
-    def margin(v_load):
-        points = solve_points(model, values | {"v_load": np.array([v_load])})
-        return points.worst_margin(edge)[0][0]
-
-    a, b = grid[index], grid[outside]
-    fb = margin(b)
+    ``scan`` is ``(grid, worst margin, its keys, points)`` of the scan; ``ends``
+    holds ``(index, direction)`` pairs.  Every round solves, in one vectorised
+    call for all edges, load voltages around three estimates of each edge (the
+    secant across the bracket and the lines through the two nearest points on
+    either side: the margin is near linear on one side of an edge even where it
+    bends on the other), each with points closer and closer either side, plus
+    the bracket's quarter points (so it at least quarters where the estimates
+    fail or the outside end did not solve).  An edge ends when its bracket is
+    narrower than a quarter of ``EDGE_TOLERANCE``: its voltage is the inside
+    end (a load set at the edge is accepted), its part and cause those limiting
+    at the outside end, just beyond.
+    """
+    grid, worst, keys, points = scan
+    edges, active = [None] * len(ends), []
+    for k, (index, direction) in enumerate(ends):
+        outside = index + direction
+        if outside < 0 or outside >= len(grid):
+            edges[k] = Edge(float(grid[index]), None, None)
+            continue
+        near = [j for j in (index - direction, index, outside, outside + direction) if 0 <= j < len(grid)]
+        active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j]) for j in near]))
+    done = []
     for _ in range(60):
-        # Shrink towards the inside point until the outside end has a converged solve.
-        if np.isfinite(fb):
+        done += [b for b in active if b.width <= EDGE_TOLERANCE / 4]
+        active = [b for b in active if b.width > EDGE_TOLERANCE / 4]
+        if not active:
             break
-        mid = 0.5 * (a + b)
-        fm = margin(mid)
-        if np.isfinite(fm) and fm >= 0:
-            a = mid
-        else:
-            b, fb = mid, fm
-    voltage = brentq(margin, a, b, xtol=EDGE_TOLERANCE) if np.isfinite(fb) else a
-    # Name the cause just outside the edge, where the limiting margin goes negative.
-    probe = solve_points(model, values | {"v_load": np.array([voltage + direction * 2 * EDGE_TOLERANCE])})
-    _, keys = probe.worst_margin(edge)
-    part, cause = keys[0]
-    return Edge(float(voltage), part, cause, probe.cause_text(part, cause))
+        trial = [b.trial_points() for b in active]
+        points = solve_points(model, values | {"v_load": np.concatenate(trial)})
+        margin, limits = points.worst_margin(edge)
+        at = 0
+        for bracket, v_load in zip(active, trial):
+            bracket.add(zip(v_load, margin[at:at + len(v_load)], limits[at:at + len(v_load)]))
+            at += len(v_load)
+    for bracket in done + active:
+        (a, _, _), (_, _, (part, cause)) = bracket.inside, bracket.outside
+        edges[bracket.edge] = Edge(float(a), part, cause, points.cause_text(part, cause))
+    return edges
+
+
+class _Bracket:
+    """The load voltages solved near one edge, ``(v_load, margin, limiting key)``, in search order."""
+
+    def __init__(self, edge, direction, samples):
+        self.edge, self.direction, self.samples = edge, direction, []
+        self.add(samples)
+
+    def add(self, samples):
+        # Sorted along the search direction, inside first; the bracket is the first
+        # inside -> outside change (the stretch that holds the nominal load voltage).
+        self.samples = sorted([*self.samples, *samples], key=lambda s: s[0] * self.direction)
+        first_out = next(j for j, s in enumerate(self.samples) if j > 0 and not _inside(s[1])
+                         and _inside(self.samples[j - 1][1]))
+        self.at = first_out - 1
+        self.samples = self.samples[max(self.at - 1, 0):first_out + 2]  # what the estimates use
+        self.at = min(self.at, 1)
+
+    @property
+    def inside(self):
+        return self.samples[self.at]
+
+    @property
+    def outside(self):
+        return self.samples[self.at + 1]
+
+    @property
+    def width(self):
+        return abs(self.outside[0] - self.inside[0])
+
+    def trial_points(self):
+        """Load voltages to solve next, strictly inside the bracket."""
+        (a, fa, _), (b, fb, _) = self.inside, self.outside
+        width = b - a
+        lines = [(self.inside, self.outside)]
+        if self.at > 0:
+            lines.append((self.samples[self.at - 1], self.inside))
+        if self.at + 2 < len(self.samples):
+            lines.append((self.outside, self.samples[self.at + 2]))
+        ladder = [abs(width) * 10.0 ** -k for k in range(2, 16, 2) if abs(width) * 10.0 ** -k > EDGE_TOLERANCE / 8]
+        steps = np.array([0.0, *ladder, EDGE_TOLERANCE / 8])
+        out = [a + width * np.array([0.25, 0.5, 0.75])]
+        for (x0, f0, _), (x1, f1, _) in lines:
+            if np.isfinite(f0) and np.isfinite(f1) and f0 != f1:
+                estimate = x0 - f0 * (x1 - x0) / (f1 - f0)
+                out += [estimate - steps, estimate + steps[1:]]
+        trial = np.unique(np.concatenate(out))
+        return trial[(trial - a) * (trial - b) < 0]
+
+
+def _inside(margin):
+    return bool(np.isfinite(margin) and margin >= 0)

@@ -282,12 +282,19 @@ def parameter_array(model, values, size=None):
     if missing:
         raise ParameterError("missing parameter", parameter=missing[0],
                              valid="all of " + ", ".join(model.parameter_names))
-    arrays = [np.asarray(values[n], dtype=float) for n in model.parameter_names]
-    shape = np.broadcast_shapes(*(a.shape for a in arrays), () if size is None else (size,))
+    # Most values are plain numbers: only the arrays need converting (this runs before every solve).
+    columns = [values[n] if isinstance(values[n], (int, float)) else np.asarray(values[n], dtype=float)
+               for n in model.parameter_names]
+    shape = np.broadcast_shapes(*(c.shape for c in columns if isinstance(c, np.ndarray)),
+                                () if size is None else (size,))
     if len(shape) > 1:
         raise ParameterError("parameter arrays must be one-dimensional", parameter="values")
     shape = shape or (1,)
-    p = np.stack([np.broadcast_to(a, shape) for a in arrays])
+    p = np.empty((len(columns),) + shape)
+    for row, column in zip(p, columns):
+        row[...] = column  # broadcasts; cheaper than broadcast_to + stack
+    if np.isfinite(p).all():  # the common case, checked at once (this runs before every solve)
+        return p
     for name, row in zip(model.parameter_names, p):
         if not np.all(np.isfinite(row) | (np.isposinf(row) & _may_be_infinite(name))):
             raise ParameterError("must be finite", parameter=name, value=float(row[~np.isfinite(row)][0]))

@@ -22,7 +22,7 @@ from kit.report import html as report_html
 from kit.report.evaluation import headline as headline_of
 from kit.analysis import eseries
 from kit.errors import DesignError, ParameterError
-from kit.panels import curves, inputs, plots, theme, views
+from kit.panels import curves, inputs, plots, sync, theme, views
 from kit.panels.ledger import ledger_html
 from kit.quantities import celsius_to_kelvin, format_quantity, kelvin_to_celsius, parse_quantity
 
@@ -39,8 +39,6 @@ class _State:
     evaluation: object
     data: object
     headline: dict
-    schematic: str
-    ledger: str
 
 
 class DesignPanel:
@@ -275,7 +273,7 @@ class DesignPanel:
     @property
     def ledger_html(self):
         """The derivation and ledger view as HTML with LaTeX."""
-        return self._state.ledger
+        return self.ledger.value
 
     def _ipython_display_(self):
         import os
@@ -390,12 +388,8 @@ class DesignPanel:
         headline = headline_of(evaluation)
         evaluated = time.perf_counter()
         data = curves.plot_data(design, evaluation, self.spec, settings)
-        swept = time.perf_counter()
-        schematic = views.schematic_html(design)
-        ledger = ledger_html(evaluation)
-        self._pending_timings = {"evaluate": evaluated - start, "sweeps": swept - evaluated,
-                                 "views": time.perf_counter() - swept}
-        return _State(design, evaluation, data, headline, schematic, ledger)
+        self._pending_timings = {"evaluate": evaluated - start, "sweeps": time.perf_counter() - evaluated}
+        return _State(design, evaluation, data, headline)
 
     def _commit(self, state):
         start = time.perf_counter()
@@ -406,17 +400,26 @@ class DesignPanel:
             if self._layout_key is None or key[:2] != self._layout_key[:2]:
                 self._build_tabs()
             self._layout_key = key
-        plots.fill(self.figures, self.sources, state.data)
-        self.title.value = views.title_html(state.design)
-        self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
-        self.schematic.value = state.schematic
-        self.ledger.value = state.ledger
-        self._show_values()
-        self._clear_message()
-        self.timings = dict(self._pending_timings, widgets=time.perf_counter() - start)
+        # One message per widget and one patch per figure, sent when the block ends.
+        with sync.batched(self.bokeh.values(), self._synced_widgets()):
+            plots.fill(self.figures, self.sources, state.data)
+            self.title.value = views.title_html(state.design)
+            self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
+            self._show_values()
+            self._clear_message()
+        sent = time.perf_counter()
+        # The drawing and the ledger are drawn after the numbers and plots have gone out
+        # (the browser shows those meanwhile); a closed tab holds them until it opens.
+        self.schematic.value = views.schematic_html(state.design)
+        self.ledger.value = ledger_html(state.evaluation)
+        self.timings = dict(self._pending_timings, views=time.perf_counter() - sent, widgets=sent - start)
         self.timings["total"] = sum(self.timings.values())
         for callback in self._listeners:
             callback(self)
+
+    def _synced_widgets(self):
+        return [self.title, self.headline, self.schematic, self.ledger, self.message_line,
+                *(f.text for f in self.fields.values()), *(e.widget for e in self.sliders.values())]
 
     # -- messages -------------------------------------------------------------------
     def _refuse(self, err, changes):
@@ -448,8 +451,6 @@ class DesignPanel:
     # curves, the sensitivities, the equations with their ledger, the drawing).  Each
     # band wraps, so a narrow notebook column reflows instead of cutting.
     def _build_widgets(self):
-        from jupyter_bokeh.widgets import BokehModel
-
         from kit.topologies import all_topologies
 
         self.title = widgets.HTML(layout=widgets.Layout(flex="1 1 320px"))
@@ -480,7 +481,7 @@ class DesignPanel:
             indent=False, layout=widgets.Layout(width="auto")), lambda value: self.configure(self_heating=value))
         # One BokehModel per figure: each patch is serialised against its own small
         # document, several times faster than against one document of all five.
-        self.bokeh = {name: BokehModel(fig) for name, fig in self.figures.items()}
+        self.bokeh = {name: sync.BatchedBokehModel(fig) for name, fig in self.figures.items()}
         self.settings_box = _wrap()
         head = widgets.Box([self.title, self.topology_choice.widget, self.polarity_choice.widget],
                            layout=_band_layout(align_items="center"))
@@ -491,6 +492,7 @@ class DesignPanel:
         ], layout=widgets.Layout(width="100%"))
         self.plots = widgets.VBox([self.bokeh[name] for name in plots.FIGURES])
         self.tabs = widgets.Tab(layout=widgets.Layout(width="100%"))
+        self.tabs.observe(self._show_tab, "selected_index")
         self.widget = widgets.VBox([widgets.HTML(_STYLE), self.top, _heading("How the numbers come about"),
                                     self.tabs, self.settings_box],
                                    layout=widgets.Layout(width="100%", max_width="1000px"))
@@ -517,6 +519,16 @@ class DesignPanel:
         self.tabs.titles = titles
         # The same view stays open across a switch; the gain view, gone with the bipolar parts, gives way to the first.
         self.tabs.selected_index = titles.index(before) if before in titles else 0
+        self._show_tab()
+
+    def _show_tab(self, change=None):
+        """Only the open tab's view sends its changes; the others send theirs when opened."""
+        index = self.tabs.selected_index
+        shown = self.tabs.children[index] if index is not None and index < len(self.tabs.children) else None
+        for model in self.bokeh.values():
+            model.hidden = model is not shown
+        for view in (self.ledger, self.schematic):
+            sync.hold_while_hidden(view, view is not shown)
 
     def _build_inputs(self):
         design = self.design

@@ -1,8 +1,9 @@
 """How long a panel takes to show a change, kernel side (for ``benchmarks/run.py``).
 
-One change = a value typed into the panel until every plot source and the
-headline numbers hold the new design's data; the browser's redraw is not
-counted.  Each change uses a different standard value, so no cache helps.
+One change = a value typed into the panel until every plot source, the
+headline numbers, the drawing and the ledger hold the new design's data and
+the widgets have sent what the browser shows; the browser's redraw is not
+counted (``benchmarks/panel_browser.py`` times that).  Each change uses a different standard value, so no cache helps.
 """
 
 from __future__ import annotations
@@ -24,13 +25,17 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
     ``value="v_load"`` the load voltage, stepped across compliance as its
     slider does (the compliance edges are then reused).  Phases:
     ``evaluate`` (:func:`kit.evaluate` and its headline), ``sweeps`` (the plot
-    columns), ``views`` (schematic, ledger HTML), ``widgets`` (sources, axis
-    texts and input widgets updated in place).
+    columns), ``widgets`` (sources, axis texts and input widgets updated in
+    place and sent), ``views`` (schematic and ledger HTML, made after the
+    numbers and plots went out; counted in the total all the same).
 
     Returns
     -------
     dict
-        ``panel_update_s`` and ``panel_update_<phase>_s`` (medians),
+        ``panel_update_s`` (and in ms ``panel_update_ms``) and
+        ``panel_update_<phase>_s`` (medians of wall time),
+        ``panel_update_cpu_ms`` (median processor time of the kernel process:
+        what the change costs when other jobs share the cores),
         ``panel_update_over_evaluate`` (median of total / evaluate per change),
         ``panel_updates`` (changes applied) and ``panel_points`` (points per curve).
 
@@ -55,23 +60,25 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
         name = design.topology.resistors[0]
         values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
         values = [v for v in values if v != design.values[name]]
-    totals, phases = [], {phase: [] for phase in PHASES}
+    totals, cpus, phases = [], [], {phase: [] for phase in PHASES}
     enabled = gc.isenabled()
     for value in values[:changes]:
         gc.disable()  # as timeit does: a collection mid-change is not the panel's cost
         try:
-            start = time.perf_counter()
+            start, cpu = time.perf_counter(), time.process_time()
             applied = panel.update(**{name: value})
-            elapsed = time.perf_counter() - start
+            elapsed, cpu = time.perf_counter() - start, time.process_time() - cpu
         finally:
             if enabled:
                 gc.enable()
         if not applied:
             continue
         totals.append(elapsed)
+        cpus.append(cpu)
         for phase in PHASES:
             phases[phase].append(panel.timings[phase])
     out = {"panel_update_s": statistics.median(totals), "panel_update_ms": 1e3 * statistics.median(totals),
+           "panel_update_cpu_ms": 1e3 * statistics.median(cpus),
            "panel_updates": len(totals), "panel_points": points}
     out.update({f"panel_update_{phase}_s": statistics.median(v) for phase, v in phases.items()})
     # What the panel adds to the kit's own evaluation, as a ratio measured in this run.
