@@ -372,3 +372,22 @@ def test_device_parameter_text_with_a_wrong_unit_names_the_part_parameter():
     with pytest.raises(ParameterError) as caught:
         kit.design("divider_source", devices={"Q1": {"i_s": "1e-14 V"}})
     assert caught.value.parameter == "Q1.i_s"
+
+
+def test_a_hand_formula_outside_its_own_domain_is_named_not_weighed_as_nan():
+    """Found by the fuzz run (1000 designs per topology): a Widlar with a resistor reference on a
+    0.63 V supply.  Widlar's relation I_REF = (V_CC - V_BE(on))/R_REF with V_BE(on) = 0.65 V
+    (common practice, no source) asks for the logarithm of a negative current there; the exact
+    solve still has a point (a few nA).  The ledger leaves the form out and says why, with no NaN
+    and no NumPy warning (warnings are errors here)."""
+    design = kit.design("widlar_resistor_reference", "npn", r_ref=3.62, r_e=166e6, n_area=1.77,
+                        v_supply=0.63, v_load=1.65, temp=280.3,
+                        devices={"Q2": {"v_a": math.inf, "beta_f": 3.17}})
+    ev = kit.evaluate(design)
+    assert 0 < ev.i_out < 1e-6
+    assert all(math.isfinite(e.value) and math.isfinite(e.error) for e in ev.ledger)
+    undefined = dict(ev.ledger_undefined)
+    assert any("Widlar" in label for label in undefined)
+    assert all("no real value" in why for why in undefined.values())
+    assert "no real value at this design point" in report_text(ev)
+    assert ev.to_dict()["ledger_undefined"]

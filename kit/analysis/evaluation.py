@@ -15,11 +15,10 @@ solution.  Reports (:mod:`kit.report`) render it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import math
+from dataclasses import dataclass, replace
 
 import numpy as np
-
-from dataclasses import replace
 
 from kit.analysis.thermal import RUNAWAY_CAUSE, RUNAWAY_TEMPERATURE, ThermalNetwork, heated_parts, stable_load_range
 from kit.errors import ConvergenceError, OperatingPointError, ParameterError
@@ -147,6 +146,7 @@ class Evaluation:
     self_heating: bool = True  # compliance judged with the junctions heated (runaway ends it)
     thermal_network: object = None  # kit.analysis.thermal.ThermalNetwork, None: one package each
     electrical_compliance: object = None  # the range before self-heating cut it (same when not cut)
+    ledger_undefined: tuple = ()  # (label, why) of closed forms with no real value here
 
     def derivative(self, name):
         """Exact dI_out/dp of flat parameter ``name``."""
@@ -174,6 +174,7 @@ class Evaluation:
             "devices": {name: p.to_dict() for name, p in self.parts.items()},
             "max_dissipation": {"part": part, "watts": watts, "v_load": at},
             "ledger": [e.to_dict() for e in self.ledger],
+            "ledger_undefined": [{"label": label, "why": why} for label, why in self.ledger_undefined],
             "node_voltages": dict(self.node_voltages),
             "thermal_runaway": self.thermal_runaway.to_dict() if self.thermal_runaway is not None else None,
             "self_heating": self.self_heating,
@@ -223,6 +224,8 @@ def _ledger(points, model, i_out, wanted):
     out = []
     for form in model.structure.closed_forms:
         value = float(values[form.key][0])
+        if not math.isfinite(value):
+            continue  # outside the form's own domain here: listed by _undefined_forms, not weighed
         di_dp = grads[form.key][:, 0] @ dq_dp
         gradient = dict(zip(names, (float(v) for v in di_dp)))
         out.append(LedgerEntry(
@@ -232,6 +235,18 @@ def _ledger(points, model, i_out, wanted):
             tempco=gradient["temp"] / value if value else 0.0,
         ))
     return tuple(out)
+
+
+def _undefined_forms(model, ledger):
+    """``(label, why)`` of each closed form with no real value at the point (left out of the ledger).
+
+    A hand formula can leave its own domain where the exact solve does not:
+    Widlar's relation with the supply below V_BE(on) asks for the logarithm of
+    a negative reference current.
+    """
+    weighed = {e.key for e in ledger}
+    return tuple((form.label, "no real value at this design point (outside the hand formula's own domain)")
+                 for form in model.structure.closed_forms if form.key not in weighed)
 
 
 def own_rail_loads(design, sinks, low, high):
@@ -377,12 +392,14 @@ def evaluate(design, *, edge="vce_sat", reuse=None, self_heating=True, network=N
         hottest = _hottest(model, values, v_sweep[inside], {n: w[inside] for n, w in power.items()}, network)
     with np.errstate(divide="ignore"):  # an ideal part (V_A = inf) gives an infinite small-signal form
         extras = model.extras(points.x, points.q)
+    ledger = _ledger(points, model, i_out, [s.parameter for s in sensitivities])
     return Evaluation(
         design=design, edge=edge, i_out=i_out, compliance=compliance, r_out=float(points.r_out[0]),
         r_out_forms={k: float(v[0]) for k, v in extras.items() if k.startswith("r_out")},
         parts=parts, derivatives=gradient, sensitivities=sensitivities,
         tempco=gradient["temp"] / i_out, tempco_budget=_tempco_budget(points, model, i_out),
-        ledger=_ledger(points, model, i_out, [s.parameter for s in sensitivities]),
+        ledger=ledger,
+        ledger_undefined=_undefined_forms(model, ledger),
         dissipation_sweep=(v_sweep, power), max_dissipation=(biggest, float(power[biggest][k]), float(v_sweep[k])),
         hottest=hottest,
         node_voltages=dict(zip(model.unknowns, (float(v) for v in points.x[:, 0]))), points=points,

@@ -55,7 +55,8 @@ def _limit_at_ideal(evaluate, q, *rest):
     finite_q = np.where(infinite, np.sign(q) * IDEAL_STAND_IN, q)
     with np.errstate(all="ignore"):
         limit = np.array(evaluate(*rest, finite_q), dtype=float)
-    limit = np.where(np.abs(limit) > UNBOUNDED, np.sign(limit) * np.inf, limit)
+    # copysign, not sign * inf: a settled limit of exactly 0 would make 0 * inf (NaN, a warning).
+    limit = np.where(np.abs(limit) > UNBOUNDED, np.copysign(np.inf, limit), limit)
     return np.where(np.isnan(out), limit, out)
 
 

@@ -139,6 +139,8 @@ def text(evaluation):
     lines.append("ledger (closed form vs exact)")
     for e in evaluation.ledger:
         lines.append(f"  {e.label:<48} {format_quantity(e.value, 'A', 4):>10}  error {e.error:+.3%}")
+    for label, why in evaluation.ledger_undefined:
+        lines.append(f"  {label:<48} {why}")
     for note in design.topology.notes:
         lines.append(f"note: {note}")
     return "\n".join(lines)
@@ -175,6 +177,9 @@ def html(evaluation):
         [[e.label, tables.Raw(f"$${e.latex}$$"), format_quantity(e.value, "A", 4), f"{e.error:+.3%}",
           format_quantity(e.tempco, "ppm/K"), "; ".join(e.assumptions)] for e in evaluation.ledger],
         numeric=(2, 3, 4))
+    if evaluation.ledger_undefined:
+        ledger += "".join(f"<p>{tables.escape(label)}: {tables.escape(why)}.</p>"
+                          for label, why in evaluation.ledger_undefined)
     body = (tables.section(title(design), head) + tables.section("Compliance", edges)
             + tables.section("Output resistance", forms) + tables.section("Parts", parts)
             + tables.section("Sensitivities (exact, implicit function theorem)", sens)
