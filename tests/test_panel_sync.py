@@ -59,7 +59,7 @@ def test_a_change_sends_one_patch_for_the_open_figure_and_none_for_closed_ones(p
         assert _patches(sent, panel.bokeh[name]) == []
     # The ledger and the drawing, closed, send nothing either; their values are the new design's.
     assert not [m for w, m in sent if w in (panel.ledger, panel.schematic)]
-    assert "2 kΩ" in panel.schematic.value
+    assert "2 kΩ" in panel.schematic_html
 
 
 def test_opening_a_view_sends_what_it_held_as_one_patch_with_the_newest_data(panel, sent):

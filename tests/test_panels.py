@@ -128,10 +128,10 @@ def test_typing_an_rkm_resistor_updates_numbers_plots_and_ledger(panel, base):
     assert panel.fields["r_e"].text.value == "2 kΩ"
     assert_plots_match_kit(panel, new)
     for entry in ev.ledger:
-        assert format_quantity(entry.value, "A", 5) in panel.ledger.value
-        assert f"{entry.error:+.3%}" in panel.ledger.value
-    assert "R_{E}" in panel.ledger.value and "$$" in panel.ledger.value
-    assert "2 kΩ" in panel.schematic.value
+        assert format_quantity(entry.value, "A", 5) in panel.ledger_html
+        assert f"{entry.error:+.3%}" in panel.ledger_html
+    assert "R_{E}" in panel.ledger_html and "$$" in panel.ledger_html
+    assert "2 kΩ" in panel.schematic_html
 
 
 def test_update_takes_text_and_numbers_through_the_same_path(panel, base):

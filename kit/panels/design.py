@@ -272,8 +272,15 @@ class DesignPanel:
 
     @property
     def ledger_html(self):
-        """The derivation and ledger view as HTML with LaTeX."""
+        """The derivation and ledger view as HTML with LaTeX (of the present design)."""
+        self._draw_views()
         return self.ledger.value
+
+    @property
+    def schematic_html(self):
+        """The circuit drawing with the present values, as HTML (SVG inside)."""
+        self._draw_views()
+        return self.schematic.value
 
     def _ipython_display_(self):
         import os
@@ -283,6 +290,7 @@ class DesignPanel:
         from kit.panels.notebook import load_bokeh
 
         load_bokeh()
+        self._draw_views()
         if os.environ.get("BIASBOOK_REVIEW") == "1":
             # Building a review: a printed page keeps no live widget, so show the
             # panel's present state as static tables and figures instead.
@@ -310,6 +318,7 @@ class DesignPanel:
             self.worst.refresh_drawings(force)
 
     def _repr_mimebundle_(self, **kwargs):
+        self._draw_views()
         return self.widget._repr_mimebundle_(**kwargs)
 
     # -- one way through: read, validate, compute, then show ----------------------
@@ -409,13 +418,26 @@ class DesignPanel:
             self._clear_message()
         sent = time.perf_counter()
         # The drawing and the ledger are drawn after the numbers and plots have gone out
-        # (the browser shows those meanwhile); a closed tab holds them until it opens.
-        self.schematic.value = views.schematic_html(state.design)
-        self.ledger.value = ledger_html(state.evaluation)
+        # (the browser shows those meanwhile), and only when their tab is open: a closed
+        # one draws the newest design when it opens (reading them through the API does too).
+        self._views_for = state
+        if self._open_view() in (self.ledger, self.schematic):
+            self._draw_views()
         self.timings = dict(self._pending_timings, views=time.perf_counter() - sent, widgets=sent - start)
         self.timings["total"] = sum(self.timings.values())
         for callback in self._listeners:
             callback(self)
+
+    def _draw_views(self):
+        """Draw the schematic and the ledger of the present design if they are behind."""
+        state, self._views_for = getattr(self, "_views_for", None), None
+        if state is not None:
+            self.schematic.value = views.schematic_html(state.design)
+            self.ledger.value = ledger_html(state.evaluation)
+
+    def _open_view(self):
+        index = self.tabs.selected_index
+        return self.tabs.children[index] if index is not None and index < len(self.tabs.children) else None
 
     def _synced_widgets(self):
         return [self.title, self.headline, self.schematic, self.ledger, self.message_line,
@@ -523,8 +545,9 @@ class DesignPanel:
 
     def _show_tab(self, change=None):
         """Only the open tab's view sends its changes; the others send theirs when opened."""
-        index = self.tabs.selected_index
-        shown = self.tabs.children[index] if index is not None and index < len(self.tabs.children) else None
+        shown = self._open_view()
+        if shown in (self.ledger, self.schematic):
+            self._draw_views()
         for model in self.bokeh.values():
             model.hidden = model is not shown
         for view in (self.ledger, self.schematic):
