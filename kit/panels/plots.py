@@ -26,8 +26,13 @@ def _empty_sources():
     return {name: ColumnDataSource(data={}) for name in SOURCES}
 
 
+AXIS_GUTTER = 78  # px: the y axis with its label and tick labels up to six characters
+
+
 def _curve_figure(height=theme.PLOT_HEIGHT, **kwargs):
-    fig = figure(width=theme.PLOT_WIDTH, height=height, tools=TOOLS, **kwargs)
+    # A fixed left gutter wide enough for any tick label: a new range whose labels are
+    # wider ("950" -> "1000") then repaints the plot once instead of laying it out again.
+    fig = figure(width=theme.PLOT_WIDTH, height=height, tools=TOOLS, min_border_left=AXIS_GUTTER, **kwargs)
     return theme.style_figure(fig)
 
 
