@@ -47,7 +47,7 @@ def test_check_exit_codes_follow_the_verdict(capsys):
     assert run(capsys, "check", str(PASSING))[0] == 0
     code, out, _ = run(capsys, "check", str(FAILING))
     assert code == 1
-    assert "spec NOT met" in out and "v_supply alone" in out
+    assert "spec NOT met" in out and "supply voltage alone" in out
     code, _, err = run(capsys, "check", str(NO_SPEC))
     assert code == 2 and "no [spec]" in err
 
