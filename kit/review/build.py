@@ -25,10 +25,17 @@ from __future__ import annotations
 import os
 import shutil
 import subprocess
+import sys
 import tempfile
 from pathlib import Path
 
 from kit.errors import DesignError
+
+# jsonschema, under nbformat, compiles a grammar for the optional "iri" string
+# format when it is imported (about 2 s of a review's 15); a notebook's schema
+# never uses that format, so the review's process goes without it.  Set only
+# if nothing imported the grammar yet.
+sys.modules.setdefault("rfc3987_syntax", None)
 from kit.review.forprint import PRINT_SETUP_TAG, for_print, with_print_setup
 from kit.review.page import REVIEW_PAGE
 from kit.review.pageone import page_one_html
