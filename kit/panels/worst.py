@@ -77,7 +77,8 @@ class WorstCaseView:
         self.result = None
         self.sources = {"histogram": ColumnDataSource(data={"left": [], "right": [], "top": [], "colour": [],
                                                             "low": [], "high": []}),
-                        "limits": ColumnDataSource(data={"x": [], "y1": [], "text": []}),
+                        "limits": ColumnDataSource(data={"x": [], "y1": [], "text": [], "align": [],
+                                                         "offset": []}),
                         "budget": ColumnDataSource(data={"name": [], "share": [], "text": [], "swing": []})}
         hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="pan,box_zoom,reset,save",
                       title="Monte Carlo: not run yet", x_axis_label="I_out", y_axis_label="samples")
@@ -89,8 +90,9 @@ class WorstCaseView:
         hist.add_tools(self.hist_hover)
         hist.segment(x0="x", x1="x", y0=0, y1="y1", source=self.sources["limits"], line_color=theme.LIMIT,
                      line_width=2, line_dash="dashed", legend_label="spec limits")
-        hist.add_layout(LabelSet(x="x", y="y1", text="text", source=self.sources["limits"], x_offset=3,
-                                 text_font_size="10px", text_color=theme.LIMIT))
+        # Each label inside its limit (the high one to its left), never past the plot's edge.
+        hist.add_layout(LabelSet(x="x", y="y1", text="text", source=self.sources["limits"], x_offset="offset",
+                                 text_align="align", text_font_size="10px", text_color=theme.LIMIT))
         theme.style_legend(theme.style_figure(hist))
         legend = hist.legend[0]
         hist.center.remove(legend)  # below: the limit labels sit in the plot's top corners
@@ -143,7 +145,8 @@ class WorstCaseView:
         lo, hi = self.spec.limits
         self.sources["histogram"].data = columns
         self.sources["limits"].data = {"x": [lo / scale, hi / scale], "y1": [top * 1.05] * 2,
-                                       "text": ["low limit", "high limit"]}
+                                       "text": ["low limit", "high limit"], "align": ["left", "right"],
+                                       "offset": [3, -3]}
         ranked = sorted(result.budget, key=lambda b: b.share)
         self.sources["budget"].data = {"name": [b.label for b in ranked], "share": [100 * b.share for b in ranked],
                                        "text": [format_quantity(b.swing, "A") for b in ranked],
