@@ -350,7 +350,7 @@ def _may_be_infinite(name):
     return name.endswith(".v_a") or name.startswith("p_rated_")
 
 
-def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
+def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS, retry=True):
     """Exact operating points for parameter values (arrays broadcast together).
 
     Parameters
@@ -361,6 +361,11 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     x0 : ndarray, optional
         Starting node voltages (n, N); default the declared start, else
         source stepping.
+    max_iterations : int
+        Newton steps per point (each point iterates on its own: one that
+        converges within a smaller cap ends exactly where it would with a larger).
+    retry : bool
+        Retry points whose declared start failed by source stepping.
 
     Returns
     -------
@@ -377,7 +382,7 @@ def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS):
     else:
         x = _source_stepping(model, q, np.zeros((n, size)))
     x, converged, iterations = _newton(model, x, q, max_iterations)
-    if model.started and x0 is None and not converged.all():
+    if retry and model.started and x0 is None and not converged.all():
         # A declared start that failed: try the generic continuation for those points.
         retry = np.flatnonzero(~converged)
         x_retry = _source_stepping(model, q[:, retry], np.zeros((n, retry.size)))
