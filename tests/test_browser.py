@@ -14,85 +14,31 @@ import json
 import os
 import re
 import shutil
-import signal
-import socket
-import subprocess
-import sys
 import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
 import kit
-from kit.quantities import format_quantity
 from kit.report.evaluation import headline
+
+from browsing import TOKEN, bench, lab_server, wait_idle
 
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
-TOKEN = "biasbook-browser-test"
 
 pytestmark = [pytest.mark.browser,
               pytest.mark.skipif(CHROMIUM is None, reason="needs Debian's chromium (dev.py test installs it)")]
 
 
-def _free_port():
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory):
     """A JupyterLab server on the repository's notebooks/ folder."""
-    port = _free_port()
-    config = tmp_path_factory.mktemp("jupyter-config")
-    # No pop-ups over the page: no news, no update checks.
-    (config / "labconfig").mkdir()
-    (config / "labconfig" / "page_config.json").write_text(json.dumps(
-        {"disabledExtensions": {"@jupyterlab/apputils-extension:announcements": True}}))
     # The repository's settings as `dev.py tour` gives them: an autosave during
     # the run strips the tracked tour instead of writing megabytes of Bokeh into it.
-    env = dict(os.environ, BOKEH_RESOURCES="inline", JUPYTER_CONFIG_DIR=str(config),
-               JUPYTER_CONFIG_PATH=str(ROOT / "tools" / "jupyter"))
-    log = open(tmp_path_factory.mktemp("lab") / "server.log", "w")
-    server = subprocess.Popen(
-        [sys.executable, "-m", "jupyterlab", "--allow-root", "--no-browser", "--ip=127.0.0.1",
-         f"--port={port}", "--port-retries=0", f"--IdentityProvider.token={TOKEN}",
-         f"--ServerApp.root_dir={ROOT / 'notebooks'}", "--LabApp.news_url=",
-         "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate"],
-        env=env, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
-    try:
-        for _ in range(240):
-            try:
-                urllib.request.urlopen(f"http://127.0.0.1:{port}/api/status?token={TOKEN}", timeout=1)
-                break
-            except OSError:
-                time.sleep(0.5)
-        else:
-            pytest.fail("JupyterLab did not start")
-        yield f"http://127.0.0.1:{port}"
-    finally:
-        os.killpg(server.pid, signal.SIGTERM)
-        try:
-            server.wait(30)
-        except subprocess.TimeoutExpired:
-            os.killpg(server.pid, signal.SIGKILL)
-        log.close()
-
-
-def _wait_idle(page, timeout=300):
-    """Until the kernel says Idle and no cell waits to run (prompt ``[*]``)."""
-    end = time.time() + timeout
-    while time.time() < end:
-        status = page.evaluate("() => Array.from(document.querySelectorAll("
-                               "'.jp-StatusBar-TextItem, .jp-StatusBar-Item')).map(e => e.innerText).join('|')")
-        prompts = page.evaluate("() => Array.from(document.querySelectorAll('.jp-InputPrompt'))"
-                                ".map(e => e.innerText).join('|')")
-        if "Idle" in status and "Busy" not in status and "*" not in prompts:
-            return
-        time.sleep(0.5)
-    raise AssertionError(f"the kernel did not go idle: {status}")
+    env = dict(os.environ, JUPYTER_CONFIG_PATH=str(ROOT / "tools" / "jupyter"))
+    with lab_server(ROOT / "notebooks", env, tmp_path_factory.mktemp("lab") / "server.log") as url:
+        yield url
 
 
 def _field_showing(page, text, timeout=120):
@@ -138,17 +84,17 @@ def test_tour_panel_moves_with_typed_values(lab):
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
             page.goto(f"{lab}/lab/tree/tour.ipynb?reset&token={TOKEN}")
-            _wait_idle(page)
+            wait_idle(page)
             page.click("text=Run")
             page.click("text=Run All Cells")
             time.sleep(3)
-            _wait_idle(page)
+            wait_idle(page)
             # The panel's text field for r_e shows the tour's 2.2 kΩ.
             r_e = _field_showing(page, "2.2 kΩ")
             r_e.fill("2k0")
             r_e.press("Enter")
             time.sleep(1)
-            _wait_idle(page)
+            wait_idle(page)
             design = kit.design("divider_source", "npn", r1="33k", r2="10k", r_e="2k0",
                                 v_supply="12 V", v_load="8 V")
             expected = headline(kit.evaluate(design))["I_out"]
@@ -174,7 +120,7 @@ def test_tour_panel_moves_with_typed_values(lab):
             for _ in range(5):
                 handle.press("ArrowRight")
                 time.sleep(0.5)
-            _wait_idle(page)
+            wait_idle(page)
             time.sleep(2)
             # The slider's readout moved (a widget round trip through the kernel), and the
             # panel redrew: its text is not what it was.
@@ -209,14 +155,14 @@ _OUTSIDE = """(viewport) => {
 
 def _open_notebook(page, lab, name):
     page.goto(f"{lab}/lab/tree/{name}?reset&token={TOKEN}")
-    _wait_idle(page)
+    wait_idle(page)
     # The file browser open beside the notebook, as a designer works.
     if not page.locator(".jp-FileBrowser").first.is_visible():
         page.locator("[data-id='filebrowser']").first.click()
     page.click("text=Run")
     page.click("text=Run All Cells")
     time.sleep(3)
-    _wait_idle(page)
+    wait_idle(page)
     panel = page.locator(".biasbook-panel").first
     panel.wait_for(timeout=120_000)
     return panel
@@ -347,16 +293,6 @@ def test_panel_fits_a_laptop_and_speaks_every_device(lab):
 
 # -- how fast a change shows ----------------------------------------------------------------------
 
-def _panel_browser():
-    """benchmarks/panel_browser.py (benchmarks/ is no package)."""
-    import importlib.util
-
-    spec = importlib.util.spec_from_file_location("panel_browser", ROOT / "benchmarks" / "panel_browser.py")
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 _TEMP_CURVE = """() => {
     for (const doc of (window.Bokeh ? window.Bokeh.documents : [])) {
         for (const m of doc._all_models.values()) {
@@ -381,15 +317,14 @@ def test_a_closed_view_catches_up_and_the_latency_measurement_runs(lab):
 
     from kit.analysis.evaluation import sweep
 
-    browser_bench = _panel_browser()
     errors = []
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=browser_bench.CHROMIUM_ARGS)
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=bench.CHROMIUM_ARGS)
         try:
             page = browser.new_page(viewport={"width": 1500, "height": 1400})
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
-            panel = browser_bench.open_panel(page, lab, "tour.ipynb", token=TOKEN)
+            panel = bench.open_panel(page, lab, "tour.ipynb", token=TOKEN)
             # A typed value while the load view is open: the temperature view, closed, sent nothing yet.
             r_e = _field_showing(page, "2.2 kΩ")
             r_e.fill("2k0")
@@ -414,7 +349,7 @@ def test_a_closed_view_catches_up_and_the_latency_measurement_runs(lab):
                 time.sleep(0.25)
             panel.locator(".lm-TabBar-tab").first.click()
 
-            figures = browser_bench.measure_changes(page, typed=3, slider_steps=3, warmup=1)
+            figures = bench.measure_changes(page, typed=3, slider_steps=3, warmup=1)
             assert figures["panel_browser_changes"] == 6
             for key, value in figures.items():
                 assert isinstance(value, (int, float)) and math.isfinite(value) and value > 0, (key, value)

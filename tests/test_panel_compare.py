@@ -14,16 +14,10 @@ from __future__ import annotations
 import csv
 import io
 import json
-import math
 import os
 import re
 import shutil
-import signal
-import socket
-import subprocess
-import sys
 import time
-import urllib.request
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
@@ -41,6 +35,8 @@ from kit.panels.compare import beta_sensitivity, headroom  # noqa: E402
 from kit.quantities import format_quantity, format_temperature  # noqa: E402
 from kit.report.evaluation import headline, resistance  # noqa: E402
 from kit.safety import NO_MATH_CLASS  # noqa: E402
+
+from browsing import TOKEN, lab_server, wait_idle  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
@@ -321,7 +317,6 @@ def test_search_starts_from_the_design_as_it_is_now():
 
 LAPTOP = {"width": 1280, "height": 800}
 SHOTS = ROOT / "artifacts" / "panel"
-TOKEN = "biasbook-compare-test"
 NOTEBOOK_CELL = """import kit
 from kit.analysis.spec import Spec
 from kit.panels import ComparePanel
@@ -385,52 +380,9 @@ def lab(tmp_path_factory):
     nbformat.write(notebook, folder / "compare.ipynb")
     notebook.cells = [nbformat.v4.new_code_cell(STRESS_CELL)]
     nbformat.write(notebook, folder / "stress.ipynb")
-    config = tmp_path_factory.mktemp("jupyter-config")
-    (config / "labconfig").mkdir()
-    (config / "labconfig" / "page_config.json").write_text(json.dumps(
-        {"disabledExtensions": {"@jupyterlab/apputils-extension:announcements": True}}))
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        port = s.getsockname()[1]
-    env = dict(os.environ, BOKEH_RESOURCES="inline", JUPYTER_CONFIG_DIR=str(config),
-               PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
-    log = open(tmp_path_factory.mktemp("lab") / "server.log", "w")
-    server = subprocess.Popen(
-        [sys.executable, "-m", "jupyterlab", "--allow-root", "--no-browser", "--ip=127.0.0.1",
-         f"--port={port}", "--port-retries=0", f"--IdentityProvider.token={TOKEN}",
-         f"--ServerApp.root_dir={folder}", "--LabApp.news_url=",
-         "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate"],
-        env=env, stdout=log, stderr=subprocess.STDOUT, start_new_session=True)
-    try:
-        for _ in range(240):
-            try:
-                urllib.request.urlopen(f"http://127.0.0.1:{port}/api/status?token={TOKEN}", timeout=1)
-                break
-            except OSError:
-                time.sleep(0.5)
-        else:
-            pytest.fail("JupyterLab did not start")
-        yield f"http://127.0.0.1:{port}"
-    finally:
-        os.killpg(server.pid, signal.SIGTERM)
-        try:
-            server.wait(30)
-        except subprocess.TimeoutExpired:
-            os.killpg(server.pid, signal.SIGKILL)
-        log.close()
-
-
-def _wait_idle(page, timeout=300):
-    end = time.time() + timeout
-    while time.time() < end:
-        status = page.evaluate("() => Array.from(document.querySelectorAll("
-                               "'.jp-StatusBar-TextItem, .jp-StatusBar-Item')).map(e => e.innerText).join('|')")
-        prompts = page.evaluate("() => Array.from(document.querySelectorAll('.jp-InputPrompt'))"
-                                ".map(e => e.innerText).join('|')")
-        if "Idle" in status and "Busy" not in status and "*" not in prompts:
-            return
-        time.sleep(0.5)
-    raise AssertionError("the kernel did not go idle")
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")]))
+    with lab_server(folder, env, tmp_path_factory.mktemp("lab") / "server.log") as url:
+        yield url
 
 
 def _scroll_to(page, selector_js):
@@ -458,13 +410,13 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
             page.goto(f"{lab}/lab/tree/compare.ipynb?reset&token={TOKEN}")
-            _wait_idle(page)
+            wait_idle(page)
             if not page.locator(".jp-FileBrowser").first.is_visible():
                 page.locator("[data-id='filebrowser']").first.click()
             page.click("text=Run")
             page.click("text=Run All Cells")
             time.sleep(3)
-            _wait_idle(page)
+            wait_idle(page)
             page.locator(".biasbook-compare").first.wait_for(timeout=180_000)
             time.sleep(2)
             assert page.locator(".jp-FileBrowser").first.is_visible()
@@ -561,13 +513,13 @@ def test_worst_case_tab_shows_stress_and_saves_svg_in_the_browser(lab):
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
             page.goto(f"{lab}/lab/tree/stress.ipynb?reset&token={TOKEN}")
-            _wait_idle(page)
+            wait_idle(page)
             if not page.locator(".jp-FileBrowser").first.is_visible():
                 page.locator("[data-id='filebrowser']").first.click()
             page.click("text=Run")
             page.click("text=Run All Cells")
             time.sleep(3)
-            _wait_idle(page)
+            wait_idle(page)
             panel = page.locator(".biasbook-panel").first
             panel.wait_for(timeout=180_000)
             panel.locator(".lm-TabBar-tab", has_text="worst case").first.click()
