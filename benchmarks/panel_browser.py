@@ -151,14 +151,24 @@ def wait_idle(page, timeout=300):
     raise AssertionError(f"the kernel did not go idle: {status}")
 
 
-def open_panel(page, url, name, token=TOKEN):
-    """Open notebook ``name``, run every cell, and return the panel's locator once it is drawn."""
+def run_notebook(page, url, name, token=TOKEN, file_browser=False):
+    """Open notebook ``name`` and run every cell until the kernel is idle.
+
+    With ``file_browser`` the file browser is open beside the notebook, as a designer works.
+    """
     page.goto(f"{url}/lab/tree/{name}?reset&token={token}")
     wait_idle(page)
+    if file_browser and not page.locator(".jp-FileBrowser").first.is_visible():
+        page.locator("[data-id='filebrowser']").first.click()
     page.click("text=Run")
     page.click("text=Run All Cells")
     time.sleep(3)
     wait_idle(page)
+
+
+def open_panel(page, url, name, token=TOKEN):
+    """Open notebook ``name``, run every cell, and return the panel's locator once it is drawn."""
+    run_notebook(page, url, name, token)
     panel = page.locator(".biasbook-panel").first
     panel.wait_for(timeout=120_000)
     page.locator(".biasbook-panel canvas").first.wait_for(timeout=120_000)

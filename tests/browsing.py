@@ -2,7 +2,8 @@
 
 ``benchmarks/panel_browser.py`` starts JupyterLab on 127.0.0.1 with a token
 (no news, no update checks, stopped by its process group) and waits for a
-notebook's kernel to go idle; the browser tests use the same code instead of
+notebook's kernel to go idle (and runs a notebook, launches Chromium with the
+same switches); the browser tests use the same code instead of
 copies.  benchmarks/ is no package, so the module is loaded from its file.
 """
 
@@ -22,4 +23,5 @@ def _load():
 
 
 bench = _load()
-lab_server, wait_idle, TOKEN = bench.lab_server, bench.wait_idle, bench.TOKEN
+lab_server, wait_idle, run_notebook = bench.lab_server, bench.wait_idle, bench.run_notebook
+TOKEN, CHROMIUM_ARGS = bench.TOKEN, bench.CHROMIUM_ARGS

@@ -22,7 +22,7 @@ import pytest
 import kit
 from kit.report.evaluation import headline
 
-from browsing import TOKEN, bench, lab_server, wait_idle
+from browsing import CHROMIUM_ARGS, TOKEN, bench, lab_server, run_notebook, wait_idle
 
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
@@ -76,19 +76,12 @@ def test_tour_panel_moves_with_typed_values(lab):
 
     errors = []
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
-            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS)
         try:
             page = browser.new_page(viewport={"width": 1500, "height": 2400})
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
-            page.goto(f"{lab}/lab/tree/tour.ipynb?reset&token={TOKEN}")
-            wait_idle(page)
-            page.click("text=Run")
-            page.click("text=Run All Cells")
-            time.sleep(3)
-            wait_idle(page)
+            run_notebook(page, lab, "tour.ipynb")
             # The panel's text field for r_e shows the tour's 2.2 kΩ.
             r_e = _field_showing(page, "2.2 kΩ")
             r_e.fill("2k0")
@@ -154,15 +147,7 @@ _OUTSIDE = """(viewport) => {
 
 
 def _open_notebook(page, lab, name):
-    page.goto(f"{lab}/lab/tree/{name}?reset&token={TOKEN}")
-    wait_idle(page)
-    # The file browser open beside the notebook, as a designer works.
-    if not page.locator(".jp-FileBrowser").first.is_visible():
-        page.locator("[data-id='filebrowser']").first.click()
-    page.click("text=Run")
-    page.click("text=Run All Cells")
-    time.sleep(3)
-    wait_idle(page)
+    run_notebook(page, lab, name, file_browser=True)  # the file browser open, as a designer works
     panel = page.locator(".biasbook-panel").first
     panel.wait_for(timeout=120_000)
     return panel
@@ -218,9 +203,7 @@ def test_panel_fits_a_laptop_and_speaks_every_device(lab):
     SHOTS.mkdir(parents=True, exist_ok=True)
     errors = []
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
-            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS)
         try:
             page = browser.new_page(viewport=LAPTOP, accept_downloads=True)
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)

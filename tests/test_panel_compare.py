@@ -36,7 +36,7 @@ from kit.quantities import format_quantity, format_temperature  # noqa: E402
 from kit.report.evaluation import headline, resistance  # noqa: E402
 from kit.safety import NO_MATH_CLASS  # noqa: E402
 
-from browsing import TOKEN, lab_server, wait_idle  # noqa: E402
+from browsing import CHROMIUM_ARGS, lab_server, run_notebook  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 CHROMIUM = shutil.which("chromium")
@@ -402,21 +402,12 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
     SHOTS.mkdir(parents=True, exist_ok=True)
     errors = []
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
-            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS)
         try:
             page = browser.new_page(viewport=LAPTOP, accept_downloads=True)
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
-            page.goto(f"{lab}/lab/tree/compare.ipynb?reset&token={TOKEN}")
-            wait_idle(page)
-            if not page.locator(".jp-FileBrowser").first.is_visible():
-                page.locator("[data-id='filebrowser']").first.click()
-            page.click("text=Run")
-            page.click("text=Run All Cells")
-            time.sleep(3)
-            wait_idle(page)
+            run_notebook(page, lab, "compare.ipynb", file_browser=True)
             page.locator(".biasbook-compare").first.wait_for(timeout=180_000)
             time.sleep(2)
             assert page.locator(".jp-FileBrowser").first.is_visible()
@@ -505,21 +496,12 @@ def test_worst_case_tab_shows_stress_and_saves_svg_in_the_browser(lab):
     SHOTS.mkdir(parents=True, exist_ok=True)
     errors = []
     with sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
-            "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True, args=CHROMIUM_ARGS)
         try:
             page = browser.new_page(viewport=LAPTOP, accept_downloads=True)
             page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
             page.on("pageerror", lambda e: errors.append(str(e)))
-            page.goto(f"{lab}/lab/tree/stress.ipynb?reset&token={TOKEN}")
-            wait_idle(page)
-            if not page.locator(".jp-FileBrowser").first.is_visible():
-                page.locator("[data-id='filebrowser']").first.click()
-            page.click("text=Run")
-            page.click("text=Run All Cells")
-            time.sleep(3)
-            wait_idle(page)
+            run_notebook(page, lab, "stress.ipynb", file_browser=True)
             panel = page.locator(".biasbook-panel").first
             panel.wait_for(timeout=180_000)
             panel.locator(".lm-TabBar-tab", has_text="worst case").first.click()
