@@ -306,15 +306,26 @@ def _secant(first, second):
 
 
 def _parabola_root(samples, a, b):
-    """The zero between ``a`` and ``b`` of the parabola through three ``(v_load, margin)`` samples, or None."""
-    x, f = np.array(samples, dtype=float).T
-    if not np.all(np.isfinite(f)) or len(np.unique(x)) < 3:
+    """The zero between ``a`` and ``b`` of the parabola through three ``(v_load, margin)`` samples, or None.
+
+    Examples
+    --------
+    >>> _parabola_root([(0.0, 4.0), (1.0, 1.0), (1.5, 0.25)], 1.5, 3.0)  # (2 - v)², touching 0 at 2
+    2.0
+    """
+    (x0, f0), (x1, f1), (x2, f2) = samples
+    with np.errstate(all="ignore"):  # divided differences; near-equal samples give no parabola
+        f01, f12 = (f1 - f0) / (x1 - x0), (f2 - f1) / (x2 - x1)
+        curvature = (f12 - f01) / (x2 - x0)
+        # f(v) = f0 + f01 (v - x0) + curvature (v - x0)(v - x1), written in powers of (v - a)
+        u0, u1 = x0 - a, x1 - a
+        coefficients = np.array([curvature, f01 - curvature * (u0 + u1), f0 - f01 * u0 + curvature * u0 * u1])
+    if not np.all(np.isfinite(coefficients)) or not np.any(coefficients[:2]):
         return None
-    with np.errstate(all="ignore"):
-        roots = np.roots(np.polyfit(x - a, f, 2))
+    roots = np.roots(coefficients)
     roots = roots[np.isreal(roots)].real + a
     roots = roots[(roots - a) * (roots - b) < 0]
-    return float(roots[0]) if roots.size else None
+    return float(roots[np.argmin(np.abs(roots - a))]) if roots.size else None
 
 
 def _inside(margin):
