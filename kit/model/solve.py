@@ -511,7 +511,10 @@ def _newton_direction(f, jac):
 
 def _newton_step(model, x, q):
     f, jac = model.newton_terms(x, q)
-    step = _newton_direction(f, jac)
+    # A nearly singular Jacobian (a wild iterate: a junction far in reverse) may give a step
+    # beyond the floats: such a point does not move this step and is judged by its residual.
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        step = _newton_direction(f, jac)
     step = np.where(np.isfinite(step), step, 0.0)
     # Limit the move of junctions that end up forward biased.
     before = model.limited_voltages(x, q)
