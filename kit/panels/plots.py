@@ -15,7 +15,7 @@ from bokeh.models import (ColumnDataSource, CustomAction, CustomJS, DataRange1d,
 from bokeh.plotting import figure
 
 from kit.panels import theme
-from kit.panels.export import add_svg_action
+from kit.panels.export import TIPS, add_svg_action, icon, style_png_button
 from kit.panels.curves import SOURCES
 
 FIGURES = ("load", "beta", "temp", "sensitivity", "tempco")
@@ -158,8 +158,7 @@ def add_csv_action(fig, filename, sources, columns, forms=None):
     used = {k for k, _, _ in columns}
     callback = CustomJS(args={"sources": {k: sources[k] for k in used}, "columns": [list(c) for c in columns],
                               "forms": forms, "filename": filename}, code=_CSV_JS)
-    fig.add_tools(CustomAction(icon="arrow_down_to_bar", description="Save this plot's numbers as CSV",
-                               callback=callback, name="csv"))
+    fig.add_tools(CustomAction(icon=icon("CSV"), description=TIPS["CSV"], callback=callback, name="csv"))
 
 
 def _add_csv_action(fig, name, sources):
@@ -168,15 +167,14 @@ def _add_csv_action(fig, name, sources):
 
 
 def name_save_tool(fig):
-    """Say on the plot's own save button that it writes PNG (beside the SVG one).
+    """Show on the plot's own save button that it writes PNG (beside the SVG and CSV ones).
 
     The hover stays on without a button of its own: a toolbar longer than the
     plot folds its last buttons (the exports) into a menu.
     """
+    style_png_button(fig)
     for tool in fig.tools:
-        if type(tool).__name__ == "SaveTool":
-            tool.description = "Save the figure as PNG"
-        elif type(tool).__name__ == "HoverTool":
+        if type(tool).__name__ == "HoverTool":
             tool.visible = False
 
 
