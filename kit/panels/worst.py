@@ -34,6 +34,8 @@ CSV_COLUMNS = {
                ("budget", "swing", "swing of I_out alone (A)")],
 }
 _CELL = "padding:2px 10px;border-bottom:1px solid #d8d8d8"
+_KEEP = _CELL + ";white-space:nowrap"
+_NUMBER = _KEEP + ";text-align:right;font-variant-numeric:tabular-nums"
 
 
 def _verdict(passed):
@@ -188,15 +190,16 @@ class WorstCaseView:
         rows = []
         for m in result.methods.values():
             extra = f", yield {m.detail['yield']:.2%}" if "yield" in m.detail else ""
-            rows.append(f'<tr><td style="{_CELL}">{display.escape(m.method)}</td>'
-                        f'<td style="{_CELL};text-align:right">{format_quantity(m.low, "A", 4)}</td>'
-                        f'<td style="{_CELL};text-align:right">{format_quantity(m.high, "A", 4)}</td>'
-                        f'<td style="{_CELL};text-align:right">{m.margin:+.2%}</td>'
-                        f'<td style="{_CELL}">{_verdict(m.passed)}{extra}</td>'
+            # A number and its unit on one line; only the "how" words wrap on a narrow screen.
+            rows.append(f'<tr><td style="{_KEEP}">{display.escape(m.method)}</td>'
+                        f'<td style="{_NUMBER}">{format_quantity(m.low, "A", 4)}</td>'
+                        f'<td style="{_NUMBER}">{format_quantity(m.high, "A", 4)}</td>'
+                        f'<td style="{_NUMBER}">{m.margin:+.2%}</td>'
+                        f'<td style="{_KEEP}">{_verdict(m.passed)}{extra}</td>'
                         f'<td style="{_CELL};color:#555">{display.escape(m.detail.get("how", ""))}</td></tr>')
         lo, hi = result.spec.limits
-        head = "".join(f'<th style="{_CELL};background:#eef2f5;text-align:left">{h}</th>'
-                       for h in ("method", "lowest", "highest", "margin to spec", "verdict", "how"))
+        head = "".join(f'<th style="{_KEEP};background:#eef2f5;text-align:left">{h}</th>'
+                       for h in ("method", "lowest", "highest", "margin", "verdict", "how"))
         reasons = "".join(f"<li>{display.escape(r)}</li>" for r in result.reasons())
         # Every verdict says over what it holds (record text escaped).
         over = "".join(f"<li>{display.escape(line)}</li>" for line in box_lines(result))
@@ -236,8 +239,8 @@ class SynthesisView:
                                      layout=widgets.Layout(width="220px"))
         self.button.on_click(lambda _: self.run())
         self.status = widgets.HTML(_status(
-            f"Tries {', '.join(self.topologies)} ({', '.join(self.polarities)}) starting from the design as it "
-            "is now; takes seconds per topology."))
+            f"Tries {'; '.join(_circuit(t) for t in self.topologies)} ({', '.join(p.upper() for p in self.polarities)}) "
+            "starting from the design as it is now; takes seconds per circuit."))
         self.rows = widgets.VBox()
         self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.rows])
 
@@ -260,7 +263,8 @@ class SynthesisView:
             self.load_buttons.append(button)
             rows.append(widgets.HBox([button, widgets.HTML(self._candidate_html(rank, candidate))]))
         for key, reasons in result.infeasible.items():
-            rows.append(widgets.HTML(_status(f"{key} cannot meet the spec: {'; '.join(reasons)}", error=True)))
+            rows.append(widgets.HTML(_status(f"{_circuit(key)} cannot meet the spec: {'; '.join(reasons)}",
+                                             error=True)))
         self.rows.children = rows
         self.status.value = _status(f"{_count(len(result.candidates), 'candidate')} in {result.series} values, "
                                     "ranked by extreme-value margin.")
@@ -275,6 +279,18 @@ class SynthesisView:
                 f'({d.polarity.upper()})</b> {_verdict(c.passed)} margin {c.margin:+.2%}; nominal '
                 f'{format_quantity(c.nominal, "A", 4)}, worst case {format_quantity(c.low, "A", 4)} … '
                 f'{format_quantity(c.high, "A", 4)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+
+
+def _circuit(key):
+    """A circuit's title for its key (``"basic_mirror"``, or ``"basic_mirror/npn"`` with its polarity)."""
+    from kit import topologies
+
+    name, _, polarity = key.partition("/")
+    try:
+        title = topologies.get(name).title
+    except DesignError:
+        return key
+    return f"{title} ({polarity.upper()})" if polarity else title
 
 
 def _count(n, noun):
