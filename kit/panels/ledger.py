@@ -18,14 +18,26 @@ from kit.quantities import format_quantity, format_temperature
 CELL = "padding:3px 10px;border-bottom:1px solid #d8d8d8;text-align:left;vertical-align:middle"
 HEAD = CELL + ";background:#eef2f5;font-weight:600"
 NUMBER = CELL + ";text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap"
+NOTE = CELL + ";color:#444;font-size:12px;padding-top:0"
 
 
-def _table(headers, rows, numeric=()):
+def _table(headers, rows, numeric=(), notes=None):
+    """An HTML table; ``notes[k]`` (HTML or None) goes on a full-width line under row ``k``.
+
+    What a simplification assumes is a sentence or two: under its row it reads
+    as a sentence instead of a column squeezed to a word per line on a laptop.
+    """
     head = "".join(f'<th style="{HEAD}">{display.escape(h)}</th>' for h in headers)
-    body = "".join(
-        "<tr>" + "".join(f'<td style="{NUMBER if k in numeric else CELL}">{cell}</td>'
-                         for k, cell in enumerate(row)) + "</tr>" for row in rows)
-    return f'<table style="border-collapse:collapse;margin:4px 0 10px">{head and "<tr>" + head + "</tr>"}{body}</table>'
+    body = []
+    for k, row in enumerate(rows):
+        note = notes[k] if notes else None
+        under = ";border-bottom:none" if note else ""
+        body.append("<tr>" + "".join(f'<td style="{(NUMBER if j in numeric else CELL) + under}">{cell}</td>'
+                                     for j, cell in enumerate(row)) + "</tr>")
+        if note:
+            body.append(f'<tr><td style="{CELL}"></td><td colspan="{len(row) - 1}" style="{NOTE}">{note}</td></tr>')
+    return (f'<table style="border-collapse:collapse;margin:4px 0 10px">{head and "<tr>" + head + "</tr>"}'
+            f'{"".join(body)}</table>')
 
 
 @lru_cache(maxsize=64)
@@ -59,14 +71,15 @@ def ledger_html(evaluation):
     top = design.topology
     exact = evaluation.i_out
     rows = [["<b>exact solve</b>", "the equations above, solved numerically",
-             format_quantity(exact, "A", 5), "—", format_quantity(evaluation.tempco, "ppm/K"), "none"]]
+             format_quantity(exact, "A", 5), "—", format_quantity(evaluation.tempco, "ppm/K")]]
+    notes = [None]
     for entry in evaluation.ledger:
         rows.append([display.escape(entry.label), f"$${entry.latex}$$", format_quantity(entry.value, "A", 5),
-                     f"{entry.error:+.3%}", format_quantity(entry.tempco, "ppm/K"),
-                     display.escape("; ".join(entry.assumptions))
-                     + f'<br><span style="color:#666;font-size:11px">{display.escape(entry.source)}</span>'])
-    ledger = _table(["simplification", "closed form for I_out", "value here", "error vs exact", "tempco",
-                     "what it assumes"], rows, numeric=(2, 3, 4))
+                     f"{entry.error:+.3%}", format_quantity(entry.tempco, "ppm/K")])
+        notes.append("assumes " + display.escape("; ".join(entry.assumptions))
+                     + f'<br><span style="color:#666;font-size:11px">{display.escape(entry.source)}</span>')
+    ledger = _table(["simplification", "closed form for I_out", "value here", "error vs exact", "tempco"],
+                    rows, numeric=(2, 3, 4), notes=notes)
     r_rows = [["exact, from dI_out/dV_load", format_quantity(evaluation.r_out, "Ω", 4), "—"]]
     for key, value in evaluation.r_out_forms.items():
         error = (value - evaluation.r_out) / evaluation.r_out if evaluation.r_out else float("nan")
