@@ -288,7 +288,7 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
                     key=lambda s: abs(s.normalised))
     columns["sensitivity"] = {
         "name": [s.parameter for s in ranked], "value": [s.normalised for s in ranked],
-        "text": [f"{s.normalised:+.3f}" for s in ranked],
+        "text": [signed_text(s.normalised) for s in ranked],
         # dI_out/dp in its own unit (A per the parameter's unit, composed and simplified)
         "derivative": [format_with_unit(s.derivative, per("A", s.unit)) for s in ranked],
         "at": [format_quantity(s.value, s.unit, 4) if s.unit else f"{s.value:.4g}" for s in ranked],
@@ -317,6 +317,19 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     for name in SOURCES:
         columns.setdefault(name, {})
     return PlotData(columns, labels, factors, scale)
+
+
+def signed_text(value):
+    """A bar's label: three decimals, or two digits with an exponent below 0.0005 (never "-0.000").
+
+    Examples
+    --------
+    >>> signed_text(-0.9721), signed_text(2.3e-5), signed_text(0.0)
+    ('-0.972', '+2.3e-05', '0')
+    """
+    if value == 0:
+        return "0"
+    return f"{value:+.3f}" if abs(value) >= 5e-4 else f"{value:+.1e}"
 
 
 def _band(bounds, low, high):
