@@ -168,6 +168,21 @@ def test_a_design_panel_opens_a_comparison_from_where_it_is():
     assert pair.update("A", i_ref="100u") and panel.design.values["i_ref"] == pytest.approx(90e-6)
 
 
+def test_legend_names_each_design_once_and_follows_a_switch():
+    # Two entries, one per design, each naming its circuit (the edges are said in the title):
+    # four entries ("A", "B", "A: compliance edges", ...) crowded the plot at 1280 px.
+    panel = ComparePanel(basic(), wilson())
+    for name, fig in panel.figures.items():
+        (legend,) = fig.legend
+        assert legend in fig.below  # under the plot, never over the curves
+        labels = [item.label.value for item in legend.items]
+        assert labels == ["A: Basic current mirror, NPN", "B: Wilson current mirror (three transistors), NPN"], name
+        assert "compliance edges" in fig.title.text if name == "load" else True
+    assert panel.switch("B", topology="cascode_mirror")
+    labels = [item.label.value for item in panel.figures["temp"].legend[0].items]
+    assert labels[1] == f"B: {kit.topologies.get('cascode_mirror').title}, NPN"
+
+
 def test_spread_figure_saves_as_svg_too():
     from kit.analysis.spread import spread
     from kit.panels.spread import spread_figure

@@ -282,7 +282,7 @@ class ComparePanel:
 
     # -- the overlaid curves ------------------------------------------------------------
     def _build_figures(self):
-        from bokeh.models import ColumnDataSource, DataRange1d, HoverTool
+        from bokeh.models import ColumnDataSource, DataRange1d, HoverTool, Legend, LegendItem
         from bokeh.plotting import figure
 
         self.sources = {}
@@ -299,32 +299,31 @@ class ComparePanel:
             fig = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT + 40,
                          tools="pan,box_zoom,reset,save", x_axis_label=x_label, **more)
             theme.style_figure(fig)
-            lines, edges = [], []
+            lines, edges, items = [], [], []
             for side in SIDES:
                 colour, dash = STYLE[side]
                 line = fig.line(x, "y", source=self.sources[f"{side}_{name}"], line_color=colour,
-                                line_dash=dash, line_width=2.5, legend_label=side)
+                                line_dash=dash, line_width=2.5)
                 line.name = side  # the hover says which design ("$name")
                 lines.append(line)
                 if name == "load":
+                    # No legend entry of their own: the title says dotted lines are the edges,
+                    # and each is drawn in its design's colour.
                     edges.append(fig.segment(x0="x", x1="x", y0="y0", y1="y1",
                                              source=self.sources[f"{side}_edges"], line_color=colour,
-                                             line_dash="dotted", line_width=1.5,
-                                             legend_label=f"{side}: compliance edges"))
+                                             line_dash="dotted", line_width=1.5))
+                point = fig.scatter("x", "y", source=self.sources[f"{side}_{name}_point"], size=8,
+                                    fill_color="white", line_color=colour, line_width=2)
+                # One entry per design, naming its circuit: curve and design point together.
+                items.append(LegendItem(label=side, renderers=[line, point]))
             if edges:
                 fig.y_range.renderers = edges
-            for side in SIDES:
-                fig.scatter("x", "y", source=self.sources[f"{side}_{name}_point"], size=8, fill_color="white",
-                            line_color=STYLE[side][0], line_width=2)
             hover = HoverTool(renderers=lines, mode="vline", tooltips=[("design", "$name")])
             fig.add_tools(hover)
             self.hovers[name] = hover
-            theme.style_legend(fig)
-            legend = fig.legend[0]
-            fig.center.remove(legend)  # below the plot, never over the curves
-            legend.ncols = 2
-            legend.location = "top_left"
-            fig.add_layout(legend, "below")
+            legend = Legend(items=items, location="top_left")
+            fig.add_layout(legend, "below")  # below the plot, never over the curves; one line per design
+            theme.style_legend(fig, "top_left")
             add_csv_action(fig, f"biasbook-compare-{name}.csv", self.sources, CSV_COLUMNS[name])
             add_svg_action(fig, f"biasbook-compare-{name}.svg")
             name_save_tool(fig)
@@ -355,8 +354,14 @@ class ComparePanel:
             c = evals[side].compliance
             self.sources[f"{side}_edges"].data = {"x": [c.low.voltage, c.high.voltage], "y0": [low - pad] * 2,
                                                   "y1": [high + pad] * 2}
+        from bokeh.core.properties import value
+
+        names = {side: legend_name(side, self.design(side)) for side in SIDES}
         for name, fig in self.figures.items():
             fig.title.text = PLOTS[name][2]
+            for item, side in zip(fig.legend[0].items, SIDES):
+                if getattr(item.label, "value", None) != names[side]:
+                    item.label = value(names[side])  # a bare string would name a data column
             fig.yaxis.axis_label = f"I_out ({unit})"
             self.hovers[name].tooltips = [("design", "$name"), X_TIPS[name], ("I_out", f"@y{{0.000}} {unit}")]
         self._show_tabs()
@@ -414,6 +419,11 @@ class ComparePanel:
 def _status(text, error=False):
     colour = theme.FAIL_COLOUR if error else "#444"
     return f'<span style="color:{colour};font-family:{theme.FONT};font-size:13px">{display.escape(text)}</span>'
+
+
+def legend_name(side, design):
+    """A design's legend entry: its letter and circuit (``"A: Wilson current mirror (three transistors), NPN"``)."""
+    return f"{side}: {design.topology.title}, {design.polarity.upper()}"
 
 
 def _name_html(side, design):
