@@ -19,7 +19,9 @@ from kit.panels.export import TIPS, add_svg_action, icon, style_png_button
 from kit.panels.curves import SOURCES
 
 FIGURES = ("load", "beta", "temp", "sensitivity", "tempco")
-TOOLS = "pan,box_zoom,wheel_zoom,reset,save"
+# No wheel zoom: in a notebook the wheel scrolls the page, and a seventh button folds
+# the exports into a menu on the load plot.
+TOOLS = "pan,box_zoom,reset,save"
 
 
 def _empty_sources():

@@ -82,7 +82,9 @@ class WorstCaseView:
                         "limits": ColumnDataSource(data={"x": [], "y1": [], "text": [], "align": [],
                                                          "offset": []}),
                         "budget": ColumnDataSource(data={"name": [], "share": [], "text": [], "swing": []})}
-        hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="pan,box_zoom,reset,save",
+        # Box zoom and reset only beside the exports: on a plot this short a longer toolbar
+        # folds its last buttons (the SVG one) into a menu.
+        hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="box_zoom,reset,save",
                       title="Monte Carlo: not run yet", x_axis_label="I_out", y_axis_label="samples")
         bars = hist.quad(left="left", right="right", bottom=0, top="top", source=self.sources["histogram"],
                          fill_color="colour", line_color="white",
@@ -94,11 +96,13 @@ class WorstCaseView:
                      line_width=2, line_dash="dashed", legend_label="spec limits")
         # Each label inside its limit (the high one to its left), never past the plot's edge.
         hist.add_layout(LabelSet(x="x", y="y1", text="text", source=self.sources["limits"], x_offset="offset",
-                                 text_align="align", text_font_size="10px", text_color=theme.LIMIT))
+                                 text_align="align", text_baseline="top", text_font_size="10px",
+                                 text_color=theme.LIMIT))  # hangs from the top of its line, inside the frame
         theme.style_legend(theme.style_figure(hist))
         legend = hist.legend[0]
         hist.center.remove(legend)  # below: the limit labels sit in the plot's top corners
         legend.orientation = "horizontal"
+        legend.spacing = 18  # side by side, the entries need air between them
         hist.add_layout(legend, "below")
         budget = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="save",
                         y_range=FactorRange(factors=[]), title="Error budget: each factor alone (exact solve)",
