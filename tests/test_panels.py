@@ -464,3 +464,28 @@ def test_panel_shares_heat_as_the_records_thermal_section_says():
     assert panel.evaluation.thermal_network is record.thermal
     # Another circuit's Q1 and Q2 are other transistors: the network stays with its own circuit.
     assert panel.switch("wilson_mirror") and panel.evaluation.thermal_network is None
+
+
+def test_ledger_rows_hold_the_numbers_and_the_closed_form_sits_under_them():
+    # At 1280 px a six-column ledger pushed value, error and tempco off the screen behind a
+    # wide closed form: each row now holds the numbers, the formula and assumptions go under it.
+    import re
+    from html import escape as html_escape
+    from pathlib import Path
+
+    from kit.panels.ledger import ledger_html
+    from kit.record import load_record
+
+    record = load_record(Path(__file__).resolve().parents[1] / "examples" / "spec-led-driver-passes.toml")
+    ev = kit.evaluate(record.design)
+    html = ledger_html(ev)
+    rows = re.findall(r"<tr>(.*?)</tr>", html, re.S)
+    for entry in ev.ledger:
+        (row,) = [r for r in rows if f">{html_escape(entry.label)}</td>" in r]
+        assert format_quantity(entry.value, "A", 5) in row
+        assert f"{entry.error:+.3%}" in row and format_quantity(entry.tempco, "ppm/K") in row
+        assert "$$" not in row  # the formula is not in the row of numbers ...
+        below = rows[rows.index(row) + 1]
+        assert "colspan" in below and entry.latex in below  # ... but on the line under it
+        assert "; ".join(entry.assumptions).split(" ")[0] in below
+    assert html.count("min-width:100%;overflow-x:auto") == len(ev.ledger)  # each formula scrolls in its box
