@@ -104,7 +104,7 @@ def _temp_figure(src):
 
 
 def _bar_figure(source, factors, tooltips):
-    fig = figure(width=theme.PLOT_WIDTH, height=theme.BAR_HEIGHT, tools="save,reset",
+    fig = figure(width=theme.PLOT_WIDTH, height=theme.BAR_HEIGHT, tools="reset,save",
                  y_range=FactorRange(factors=list(factors)), x_axis_label="", y_axis_label="")
     theme.style_figure(fig)
     bars = fig.hbar(y="name", right="value", left=0, height=0.65, source=source, fill_color="colour",
