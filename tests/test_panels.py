@@ -327,6 +327,15 @@ def test_synthesis_load_button_loads_the_candidate(spec_panel, base):
     result = panel.search.run()
     assert result.candidates
     candidate = result.candidates[0].design
+    # Each current keeps its unit on its line (it wrapped as "10.03 / mA" at 1280 px); the
+    # circuit is named by its title, not its registry key.
+    line = panel.search.rows.children[0].children[1].value
+    assert format_quantity(result.candidates[0].nominal, "A", 4).replace(" ", "\u00a0") in line
+    assert candidate.topology.title in line
+    from kit.panels.worst import SynthesisView
+
+    offer = SynthesisView(panel, panel.spec).status.value  # what the tab says before a search
+    assert f"Tries {candidate.topology.title} (NPN)" in offer and candidate.topology.key not in offer
     panel.search.load_buttons[0].click()
     assert panel.design == candidate and panel.message == ""
     assert panel.headline_text() == headline(kit.evaluate(candidate))

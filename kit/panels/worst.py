@@ -262,7 +262,8 @@ class SynthesisView:
         self.load_buttons = []
         rows = []
         for rank, candidate in enumerate(result.candidates, 1):
-            button = widgets.Button(description="load into the panel", layout=widgets.Layout(width="170px"))
+            button = widgets.Button(description="load into the panel",
+                                    layout=widgets.Layout(width="auto", min_width="170px", flex="0 0 auto"))
             button.on_click(lambda _, d=candidate.design: self.panel.load(d))
             self.load_buttons.append(button)
             rows.append(widgets.HBox([button, widgets.HTML(self._candidate_html(rank, candidate))]))
@@ -277,12 +278,17 @@ class SynthesisView:
     @staticmethod
     def _candidate_html(rank, c):
         d = c.design
-        values = ", ".join(f"{v.name} " + (format_quantity(d.values[v.name], v.unit, 4) if v.unit
-                                            else f"{d.values[v.name]:g}") for v in d.topology.values)
+        values = ", ".join(f"{v.name} " + (format_quantity(d.values[v.name], v.unit, 4).replace(" ", "\u00a0")
+                                            if v.unit else f"{d.values[v.name]:g}") for v in d.topology.values)
         return (f'<span style="font-family:{theme.FONT};font-size:13px"><b>{rank}. {display.escape(d.topology.title)} '
                 f'({d.polarity.upper()})</b> {_verdict(c.passed)} margin {c.margin:+.2%}; nominal '
-                f'{format_quantity(c.nominal, "A", 4)}, worst case {format_quantity(c.low, "A", 4)} … '
-                f'{format_quantity(c.high, "A", 4)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+                f'{_amperes(c.nominal)}, worst case {_amperes(c.low)} … '
+                f'{_amperes(c.high)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+
+
+def _amperes(value):
+    """A current with its unit kept on the same line (a no-break space between them)."""
+    return format_quantity(value, "A", 4).replace(" ", "\u00a0")
 
 
 def _circuit(key):
