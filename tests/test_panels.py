@@ -498,3 +498,21 @@ def test_ledger_rows_hold_the_numbers_and_the_closed_form_sits_under_them():
         assert "colspan" in below and entry.latex in below  # ... but on the line under it
         assert "; ".join(entry.assumptions).split(" ")[0] in below
     assert html.count("min-width:100%;overflow-x:auto") == len(ev.ledger)  # each formula scrolls in its box
+
+
+def test_load_legend_wraps_a_long_hand_formula_and_the_csv_keeps_it_whole():
+    # A ledger label of 90 characters made the two-column legend wider than the plot at 1280 px.
+    from pathlib import Path
+
+    from kit.panels.curves import LEGEND_LINE
+    from kit.record import load_record
+
+    record = load_record(Path(__file__).resolve().parents[1] / "examples" / "zener_diode_source-rtd-excitation.toml")
+    panel = DesignPanel(record.design)
+    forms = panel.sources["load_forms"].data
+    assert max(len(label) for label in forms["label"]) > LEGEND_LINE  # the case this is about
+    for label, shown in zip(forms["label"], forms["legend"]):
+        assert all(len(line) <= LEGEND_LINE for line in shown.split("\n")) or " " not in label
+        assert shown.replace("\n", " ") == label
+    header = panel.csv("load").splitlines()[0]
+    assert all(f"{label} (A)" in header for label in forms["label"])  # whole, one line

@@ -11,6 +11,7 @@ axes.  It imports no Bokeh, so benchmarks and tests can call it alone.
 
 from __future__ import annotations
 
+import textwrap
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -31,6 +32,8 @@ LOAD_HEADROOM = 0.12  # space above the curves for the edge labels
 DEFAULT_TEMPS = (233.15, 398.15)  # K: -40 … 125 °C, a common rated range (no source)
 LOAD_PAD = 0.08  # fraction of the compliance span drawn beyond each edge ...
 LOAD_PAD_LIMITS = (0.5, 2.0)  # V: ... at least and at most; deep saturation only squashes the plot
+
+LEGEND_LINE = 38  # characters per line of a hand formula's legend entry
 
 SOURCES = ("load", "load_forms", "load_outside", "load_edges", "load_point",
            "beta", "beta_point", "beta_band",
@@ -218,6 +221,8 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
         "xs": [v_axis] * len(form_ys), "ys": [y / factor for y in form_ys],
         "i_out": form_ys, "key": [s.key for s in simplifications],
         "label": [s.label for s in simplifications],
+        # Two legend columns fit under the plot only with lines this short; a long formula wraps.
+        "legend": [textwrap.fill(s.label, LEGEND_LINE, break_long_words=False) for s in simplifications],
         "colour": [theme.FORMS[k % len(theme.FORMS)] for k in range(len(form_ys))],
         "dash": [theme.DASHES[k % len(theme.DASHES)] for k in range(len(form_ys))]}
     # The plot's vertical range (set by the edge segments) follows the curves inside compliance

@@ -63,7 +63,7 @@ def _load_figure(src):
     fig.add_layout(LabelSet(x="x", y="y_text", text="text", source=src["load_edges"], x_offset="offset",
                             y_offset="lift", text_align="align", text_font_size="10px", text_color=theme.EDGE))
     fig.multi_line(xs="xs", ys="ys", source=src["load_forms"], line_color="colour", line_dash="dash",
-                   line_width=2, legend_field="label")
+                   line_width=2, legend_field="legend")
     exact = fig.line("v_load", "y", source=src["load"], line_color=theme.INK, line_width=3,
                      legend_label="exact solve")
     fig.add_tools(HoverTool(renderers=[exact], name="hover", mode="vline",
@@ -73,6 +73,7 @@ def _load_figure(src):
     legend = fig.legend[0]
     fig.center.remove(legend)  # below the plot: seven entries would hide the curves
     legend.ncols = 2
+    legend.spacing = 3  # a hand formula's entry may take two or three lines: keep entries apart
     legend.location = "top_left"
     fig.add_layout(legend, "below")
     return fig
