@@ -183,6 +183,15 @@ def test_legend_names_each_design_once_and_follows_a_switch():
     assert labels[1] == f"B: {kit.topologies.get('cascode_mirror').title}, NPN"
 
 
+def test_table_keeps_each_number_with_its_unit(both):
+    # A narrow column wrapped "T_j up to 25.3 / °C" at 1280 px: the space before a unit no longer breaks.
+    both.run_worst_case()
+    shown = both.table.value
+    assert "\u00a0°C" in shown and "\u00a0µA" in shown
+    assert not re.search(r"\d (?:[pnµmkM]?[AVWΩ]|°C|ppm/K)(?![A-Za-z])", shown)
+    assert "Q2 at" in shown or "Q1 at" in shown or "Q3 at" in shown  # words still break as words
+
+
 def test_spread_figure_saves_as_svg_too():
     from kit.analysis.spread import spread
     from kit.panels.spread import spread_figure

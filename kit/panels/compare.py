@@ -29,6 +29,7 @@ True
 from __future__ import annotations
 
 import math
+import re
 
 import ipywidgets as widgets
 import numpy as np
@@ -83,6 +84,23 @@ def headroom(evaluation):
     v = evaluation.design.values["v_load"]
     low, high = v - c.low.voltage, c.high.voltage - v
     return (low, "low edge") if low <= high else (high, "high edge")
+
+
+# A digit, a space, then a unit (SI prefix and A, V, W, Ω; °C; ppm/K; K; %), not a word.
+_NUMBER_UNIT = re.compile(r"(\d) (?=(?:[fpnµmkMG]?(?:A|V|W|Ω)|°C|ppm/K|K)(?![A-Za-z])|%)")
+
+
+def keep_units(text):
+    """``text`` with a no-break space between each number and the unit after it.
+
+    A narrow column then wraps between words, never as "25.3 / °C".
+
+    Examples
+    --------
+    >>> keep_units("Q2 at 11.9 V, T_j up to 25.3 °C") == "Q2 at 11.9\u00a0V, T_j up to 25.3\u00a0°C"
+    True
+    """
+    return _NUMBER_UNIT.sub("\\1\u00a0", text)
 
 
 def _relative(a, b):
@@ -272,10 +290,11 @@ class ComparePanel:
                        for h in ("", "A", "B", "B against A"))
         body = []
         for quantity, a, b, against in self.rows():
+            a, b, against = (display.escape(keep_units(t)) for t in (a, b, against))
             body.append(f'<tr><td style="{_CELL};color:#444">{display.escape(quantity)}</td>'
-                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{display.escape(a)}</td>'
-                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{display.escape(b)}</td>'
-                        f'<td style="{_CELL};color:#444;white-space:nowrap">{display.escape(against)}</td></tr>')
+                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{a}</td>'
+                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{b}</td>'
+                        f'<td style="{_CELL};color:#444;white-space:nowrap">{against}</td></tr>')
         self.table.value = (f'<div style="font-family:{theme.FONT};font-size:13px;line-height:1.3;overflow-x:auto">'
                             f'<table style="border-collapse:collapse;width:100%"><tr>{head}</tr>{"".join(body)}'
                             "</table></div>")
@@ -406,6 +425,9 @@ class ComparePanel:
         for side in SIDES:
             for box in (self.sides[side].values_box, self.sides[side].conditions_box):
                 box.layout.flex_flow = "column"
+            # The circuit list as wide as its column: a circuit's name is not cut after 30 letters.
+            choice = self.sides[side].topology_choice.widget
+            choice.layout.width, choice.layout.max_width = "100%", "420px"
         self.widget = widgets.VBox([
             _heading("Two designs side by side"), self.table,
             widgets.HBox([self.button, self.status]),
