@@ -516,3 +516,13 @@ def test_load_legend_wraps_a_long_hand_formula_and_the_csv_keeps_it_whole():
         assert shown.replace("\n", " ") == label
     header = panel.csv("load").splitlines()[0]
     assert all(f"{label} (A)" in header for label in forms["label"])  # whole, one line
+
+
+def test_curve_legends_sit_under_the_plots_never_over_a_curve():
+    # In the top-left corner the temperature legend hid the start of a falling curve
+    # (the LED driver's -26 ppm/K); every curve plot keeps its legend below its frame.
+    panel = DesignPanel(kit.design("divider_source"))
+    for name in ("load", "beta", "temp"):
+        fig = panel.figures[name]
+        (legend,) = fig.legend
+        assert legend in fig.below and legend not in fig.center, name

@@ -80,18 +80,18 @@ def _load_figure(src):
 
 
 def _beta_figure(src):
-    fig = _curve_figure()
+    fig = _curve_figure(theme.PLOT_HEIGHT + theme.LEGEND_ROWS)
     _band(fig, src["beta_band"], "spec range")
     line = fig.line("beta", "y", source=src["beta"], line_color=theme.INK, line_width=3, legend_label="exact solve")
     fig.add_tools(HoverTool(renderers=[line], name="hover", mode="vline",
                             tooltips=[("β_F", "@beta{0.0}"), ("I_out", "@y{0.000} A")]))
     _point(fig, src["beta_point"])
-    theme.style_legend(fig, "bottom_right")
+    _legend_below(fig)
     return fig
 
 
 def _temp_figure(src):
-    fig = _curve_figure()
+    fig = _curve_figure(theme.PLOT_HEIGHT + theme.LEGEND_ROWS)
     _band(fig, src["temp_band"], "spec range")
     line = fig.line("temp_c", "y", source=src["temp"], line_color=theme.INK, line_width=3,
                     legend_label="exact, junctions at ambient")
@@ -100,8 +100,18 @@ def _temp_figure(src):
     fig.line("temp_c", "y", source=src["temp_heated"], line_color=theme.HEATED, line_width=2,
              line_dash="dashed", legend_label="exact, with self-heating")
     _point(fig, src["temp_point"])
-    theme.style_legend(fig, "top_left")
+    _legend_below(fig)
     return fig
+
+
+def _legend_below(fig):
+    """The legend in two columns under the plot: in a corner it hid a falling curve's start."""
+    theme.style_legend(fig, "top_left")
+    legend = fig.legend[0]
+    fig.center.remove(legend)
+    legend.ncols = 2
+    legend.spacing = 3
+    fig.add_layout(legend, "below")
 
 
 def _bar_figure(source, factors, tooltips):
