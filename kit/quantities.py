@@ -13,6 +13,7 @@ import math
 import numbers
 import re
 from decimal import Decimal
+from functools import lru_cache
 
 import numpy as np
 from quantiphy import QuantiPhyError, Quantity
@@ -230,6 +231,14 @@ def format_quantity(value, unit, digits=3, *, allow_nan=False):
     number = _finite_or_missing(value, "value", allow_nan)
     if number is None:
         return MISSING
+    return _format_checked(number + 0.0, unit, digits)  # + 0.0: -0.0 and 0.0 print alike ("0 A")
+
+
+@lru_cache(maxsize=4096)
+def _format_checked(number, unit, digits):
+    # Checked input only.  Cached: a panel shows the same numbers again after
+    # most changes (a parameter's own value, an unchanged edge), and each
+    # render by quantiphy costs about 30 µs.
     unit = OHM if _canonical(unit) == OHM else unit
     if unit in _FIXED_SCALE:
         shown = "ppm/K" if unit == "1/K" else unit

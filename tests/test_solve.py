@@ -250,3 +250,43 @@ def test_lightly_saturated_hot_point_converges(reference, polarity):
     # from the declared start itself, not rescued by the source-stepping retry
     assert points.iterations[0] < MAX_ITERATIONS
     assert points.i_out[0] == pytest.approx(ours["i_out"], rel=1e-9)
+
+
+# -- the compliance scan's shortcuts change no number (internal consistency, no outside source) --------
+
+SCAN_CASES = [("divider_source", "npn"), ("improved_wilson_mirror", "pnp"), ("ptat_cell", "npn"),
+              ("opamp_bjt_source", "npn"), ("zener_diode_source", "npn"), ("mos_mirror", "nmos")]
+
+
+@pytest.mark.parametrize("key,polarity", SCAN_CASES)
+def test_scan_gives_the_design_point_as_solved_alone(key, polarity):
+    from kit.analysis.evaluation import model_of
+    from kit.model.compliance import compliance_and_point
+
+    design = kit.design(key, polarity)
+    model, values = model_of(design), design.parameters()
+    _, point = compliance_and_point(model, values)
+    alone = solve_points(model, values)
+    assert point is not None and point.size == 1 and bool(point.converged[0])
+    np.testing.assert_allclose(point.x, alone.x, rtol=1e-15, atol=0)
+    assert float(point.i_out[0]) == pytest.approx(float(alone.i_out[0]), rel=1e-14)
+
+
+@pytest.mark.parametrize("steps", [2, 4, None])  # None: the kit's own first pass
+@pytest.mark.parametrize("key,polarity", SCAN_CASES)
+def test_few_first_scan_steps_give_the_edges_of_a_full_scan(key, polarity, steps, monkeypatch):
+    # Points iterate independently: a point that converged within the first pass's few
+    # steps is where the full solve ends; those in or next to the stretch that did not
+    # are solved in full.  So the edges must be the same to the last bit, even when the
+    # first pass leaves most points unconverged (2 or 4 steps).
+    from kit.analysis.evaluation import model_of
+    from kit.model import compliance
+
+    design = kit.design(key, polarity)
+    model, values = model_of(design), design.parameters()
+    if steps is not None:
+        monkeypatch.setattr(compliance, "SCAN_FIRST_ITERATIONS", steps)
+    few = compliance.find_compliance(model, values)
+    monkeypatch.setattr(compliance, "SCAN_FIRST_ITERATIONS", MAX_ITERATIONS)
+    full = compliance.find_compliance(model, values)
+    assert few == full

@@ -23,7 +23,7 @@ import numpy as np
 from kit.analysis.thermal import RUNAWAY_CAUSE, RUNAWAY_TEMPERATURE, ThermalNetwork, heated_parts, stable_load_range
 from kit.errors import ConvergenceError, OperatingPointError, ParameterError
 from kit.model.compiled import compile_model
-from kit.model.compliance import Edge, find_compliance
+from kit.model.compliance import Edge, compliance_and_point
 from kit.model.solve import check_drift, check_edge, check_laws, solve_points
 
 DISSIPATION_POINTS = 101
@@ -311,15 +311,20 @@ def evaluate(design, *, edge="vce_sat", reuse=None, self_heating=True, network=N
     values = design.parameters()
     check_laws(model, values)  # device laws and resistors inside their domains
     check_drift(model, values)  # rails and reference currents keep their sign
-    points = solve_points(model, values)
     if network is not None and not isinstance(network, ThermalNetwork):
         raise ParameterError("must be a thermal network", parameter="network", value=type(network).__name__,
                              valid="kit.analysis.thermal.ThermalNetwork or None")
     same = _same_but_load(reuse, design, values, edge, self_heating, network)
+    points = None
     try:
-        electrical = same.electrical_compliance if same else find_compliance(model, values, edge=edge)
+        if same:
+            electrical = same.electrical_compliance
+        else:  # the compliance scan solves the design point among its own
+            electrical, points = compliance_and_point(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
+    if points is None:
+        points = solve_points(model, values)
     if same:
         compliance, thermal = same.compliance, same.thermal_runaway
     elif self_heating:

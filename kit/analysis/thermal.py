@@ -47,6 +47,8 @@ DERIVATIVE_STEP = 1e-2  # K, the finite step of dP/dT_j
 # heated this far while still climbing is held there: in thermal runaway if the loop
 # gain there is 1 or more, else at a steady state beyond the laws (``too_hot``).
 RUNAWAY_TEMPERATURE = 500.0  # K
+# Up to this many points (each heated part's step counted), dP/dT is solved beside the points.
+SLOPES_BESIDE_POINTS = 4096
 EDGE_STEPS = 15  # load voltages solved at once per round of narrowing a runaway edge
 EDGE_TOLERANCE = 1e-5  # of the load voltage (at least 1 V): the runaway edge's width
 
@@ -196,8 +198,12 @@ def _as_matrix(theta, size):
     return np.moveaxis(theta, -1, 0)
 
 
+def _rise_values(heated, rises):
+    return {f"{n}.t_rise": rises[i] for i, n in enumerate(heated)}
+
+
 def _solve_at(model, values, heated, rises, x0):
-    return solve_points(model, values | {f"{n}.t_rise": rises[i] for i, n in enumerate(heated)}, x0=x0)
+    return solve_points(model, values | _rise_values(heated, rises), x0=x0)
 
 
 def _power_slopes(model, values, heated, rises, points):
@@ -210,6 +216,32 @@ def _power_slopes(model, values, heated, rises, points):
         stepped = _solve_at(model, values, heated, moved, points.x)
         slopes[:, :, k] = ((_powers(stepped, heated) - base) / DERIVATIVE_STEP).T
     return slopes
+
+
+def _solve_rises(model, values, heated, rises, x0, slopes=False):
+    """``(points at rises, dP_i/dT_k (N, H, H) or None)``.
+
+    With ``slopes`` each junction's forward step (:data:`DERIVATIVE_STEP`) is
+    solved beside the points in the same vectorised call, every copy
+    starting from ``x0``: one call instead of one plus one per heated part.
+    The points at ``rises`` are what solving them alone gives either way
+    (each point iterates on its own).
+    """
+    if not slopes:
+        return _solve_at(model, values, heated, rises, x0), None
+    size, copies = rises.shape[1], len(heated) + 1
+    tiled = {k: np.tile(np.broadcast_to(v, (size,)), copies) if np.ndim(v) else v for k, v in values.items()}
+    steps = np.concatenate([rises] + [rises + DERIVATIVE_STEP * np.eye(len(heated))[:, [k]]
+                                      for k in range(len(heated))], axis=1)
+    start = None if x0 is None else np.tile(np.broadcast_to(x0, (len(model.unknowns), size)), copies)
+    solved = _solve_at(model, tiled, heated, steps, start)
+    points = solved.take(slice(0, size))
+    powers = _powers(solved, heated)
+    base = powers[:, :size]
+    slopes = np.empty((size, len(heated), len(heated)))
+    for k in range(len(heated)):
+        slopes[:, :, k] = ((powers[:, (k + 1) * size:(k + 2) * size] - base) / DERIVATIVE_STEP).T
+    return points, slopes
 
 
 def loop_gain(theta, slopes):
@@ -242,16 +274,22 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
         ``loop_gain`` (the electrothermal loop gain at the point found).
     """
     heated = heated_parts(model)
-    values = dict(values)
-    points = solve_points(model, values)
     if not heated:
+        points = solve_points(model, values)
         points.runaway = np.zeros(points.size, dtype=bool)
         points.too_hot = np.zeros(points.size, dtype=bool)
         points.loop_gain = np.zeros(points.size)
         return points
     network = network or ThermalNetwork()
+    size = np.broadcast_shapes(*(np.shape(v) for v in values.values()))
+    size = size[0] if size else 1
+    rises = np.zeros((len(heated), size))
+    # The Newton steps and the loop gain at the end need dP/dT.  For a few points it is
+    # solved with every step, beside them (a call costs more than its points); for many
+    # (a Monte Carlo run) only when needed, after them (then the points cost most).
+    beside = size * (len(heated) + 1) <= SLOPES_BESIDE_POINTS
+    points, slopes = _solve_rises(model, values, heated, rises, None, beside)
     theta = _as_matrix(network.matrix(heated, {n: values[f"{n}.theta_ja"] for n in heated}), points.size)
-    rises = np.zeros((len(heated), points.size))
     runaway = np.zeros(points.size, dtype=bool)
     capped = np.zeros(points.size, dtype=bool)
     gain = np.zeros(points.size)
@@ -266,7 +304,8 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
             new = target  # from cold, climbing to the coolest steady state
         else:
             # Newton: (I - Theta S) d = Theta P - r; a loop gain of 1 or more on the way up: no steady state.
-            slopes = _power_slopes(model, values, heated, rises, points)
+            if slopes is None:
+                slopes = _power_slopes(model, values | _rise_values(heated, rises), heated, rises, points)
             gain = loop_gain(theta, slopes)
             climbing = np.any(target > rises + tolerance, axis=0)
             runaway |= ~settled & climbing & (gain >= 1.0) & points.converged
@@ -279,12 +318,11 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
         ambient = np.broadcast_to(np.asarray(values["temp"], dtype=float), (points.size,))
         capped |= np.any(ambient + new > RUNAWAY_TEMPERATURE, axis=0) & ~runaway & ~settled
         rises = np.where(runaway | settled, rises, np.clip(new, 0.0, RUNAWAY_TEMPERATURE - ambient))
-        for i, n in enumerate(heated):
-            values[f"{n}.t_rise"] = rises[i]
-        points = solve_points(model, values, x0=points.x)
+        points, slopes = _solve_rises(model, values, heated, rises, points.x, beside)
     target = np.einsum("nij,jn->in", theta, _powers(points, heated))
     settled = (np.max(np.abs(target - rises), axis=0) < tolerance) & points.converged & ~runaway & ~capped
-    slopes = _power_slopes(model, values, heated, rises, points)
+    if slopes is None:
+        slopes = _power_slopes(model, values | _rise_values(heated, rises), heated, rises, points)
     gain = np.where(runaway, np.maximum(gain, 1.0), loop_gain(theta, slopes))
     # A steady state with a loop gain of 1 or more is the unstable one: no stable point here;
     # held at the laws' highest temperature, a loop gain of 1 or more is runaway too.

@@ -68,6 +68,13 @@ def _stack(values, shape):
     return out
 
 
+@lru_cache(maxsize=None)
+def _index_pairs(entries):
+    """``(rows, cols)`` index arrays of a tuple of index pairs (each pair appears once)."""
+    rows, cols = zip(*entries)
+    return np.array(rows, dtype=np.intp), np.array(cols, dtype=np.intp)
+
+
 class CompiledModel:
     """Numeric functions of one topology and polarity (see the module docstring)."""
 
@@ -90,11 +97,16 @@ class CompiledModel:
         self.operating_index = {n: j for j, n in enumerate(self.operating_names)}
         self.started = [self.unknowns.index(n) for n in manifest["started"]]
         self.has_valid = manifest["has_valid"]
+        self._pairs = {}
 
     def _sparse(self, entries, values, shape):
+        """A dense array of ``shape`` with ``values`` (K, N) at the ``entries`` (K index pairs), else 0."""
         out = np.zeros(shape)
-        for (a, b), value in zip(entries, values):
-            out[a, b] = value
+        if len(entries):
+            pairs = self._pairs.get(id(entries))  # the manifest's lists live as long as the model
+            if pairs is None:
+                pairs = self._pairs[id(entries)] = _index_pairs(tuple(map(tuple, entries)))
+            out[pairs] = values  # one assignment: this runs at every Newton step
         return out
 
     def params(self, p, part):

@@ -20,10 +20,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from kit.errors import OperatingPointError
-from kit.model.solve import check_edge, solve_points
+from kit.model.solve import check_edge, solve_points, worst_of
 
 SCAN_POINTS = 241
-SCAN_FIRST_ITERATIONS = 40  # Newton steps of the first scan (most points need fewer than 25)
+SCAN_FIRST_ITERATIONS = 12  # Newton steps of the first scan (inside compliance most points need fewer than 10)
 EDGE_TOLERANCE = 1e-6  # V
 
 
@@ -87,32 +87,84 @@ def find_compliance(model, values, *, edge="vce_sat", window=None):
     OperatingPointError
         If no load voltage keeps the source in compliance.
     """
+    return compliance_and_point(model, values, edge=edge, window=window)[0]
+
+
+def compliance_and_point(model, values, *, edge="vce_sat", window=None):
+    """``(compliance, design point)``: :func:`find_compliance` and the scan's own solve at ``values["v_load"]``.
+
+    The scan holds the nominal load voltage among its points, solved exactly
+    as :func:`kit.model.solve.solve_points` solves it alone (each point
+    iterates on its own); the second item is that point
+    (:class:`~kit.model.solve.OperatingPoints` of size 1), or None if it did
+    not converge within the scan's steps (solve it on its own then).
+    """
     check_edge(edge)
     window = window or search_window(model, values)
     grid = np.linspace(window[0], window[1], SCAN_POINTS)
     nominal = float(values["v_load"])
     grid = np.unique(np.append(grid, nominal))
     at = int(np.searchsorted(grid, nominal))
-    # First with few Newton steps: far outside (a sink's collector driven far below
-    # ground) a point can need hundreds, and it does not matter unless it borders the
-    # stretch that holds the nominal load voltage.  Points iterate independently, so
-    # what converged is exactly what the full solve gives; otherwise solve in full.
-    points = solve_points(model, values | {"v_load": grid}, max_iterations=SCAN_FIRST_ITERATIONS, retry=False)
-    worst, keys = points.worst_margin(edge)
-    chosen = _stretch(worst, at)
-    if chosen is None or not chosen[0] <= at <= chosen[1] \
-            or not points.converged[max(chosen[0] - 2, 0):chosen[1] + 3].all():
-        points = solve_points(model, values | {"v_load": grid})
-        worst, keys = points.worst_margin(edge)
-        chosen = _stretch(worst, at)
+    scan = _Scan(model, values, grid, edge)
+    chosen = scan.stretch(at)
     if chosen is None:
         raise OperatingPointError(
             "no load voltage keeps every part within its limits",
             parameter="v_supply", value=values["v_supply"],
             valid="a supply and bias that turn the circuit on")
-    low, high = _refine_edges(model, values, edge, (grid, worst, keys, points),
-                              [(chosen[0], -1), (chosen[1], +1)])
-    return Compliance(low, high, edge)
+    low, high = _refine_edges(model, values, edge, scan, [(chosen[0], -1), (chosen[1], +1)])
+    return Compliance(low, high, edge), scan.point(at)
+
+
+class _Scan:
+    """The scan along the load voltage: worst margin and its key at each point, as a full solve gives them.
+
+    First every point with few Newton steps: far outside (a sink's collector
+    driven far below ground) a point can need dozens, and it does not matter
+    unless it borders the stretch that holds the nominal load voltage.  Those
+    that do (or all, if no stretch holds it) and did not converge are solved
+    again in full.  Points iterate independently, so a point that converged
+    within the few steps is exactly what the full solve gives.
+    """
+
+    def __init__(self, model, values, grid, edge):
+        self.model, self.values, self.grid, self.edge = model, values, grid, edge
+        self.points = solve_points(model, values | {"v_load": grid}, max_iterations=SCAN_FIRST_ITERATIONS,
+                                   retry=False)
+        self.margin_keys, self.table = self.points.margin_table(edge)
+        self.worst, keys = worst_of(self.margin_keys, self.table)
+        self.keys = list(keys)
+        self.solved_in_full = np.zeros(grid.size, dtype=bool)
+        self.again = {}  # scan index -> (points solved in full, column)
+
+    def stretch(self, at):
+        """``(first, last)`` of the inside stretch holding ``at`` (else the widest), solved in full at and around it."""
+        while True:
+            chosen = _stretch(self.worst, at)
+            if chosen is None or not chosen[0] <= at <= chosen[1]:
+                near = np.ones(self.grid.size, dtype=bool)
+            else:
+                near = np.zeros(self.grid.size, dtype=bool)
+                near[max(chosen[0] - 2, 0):chosen[1] + 3] = True
+            redo = np.flatnonzero(near & ~self.points.converged & ~self.solved_in_full)
+            if not redo.size:
+                return chosen
+            points = solve_points(self.model, self.values | {"v_load": self.grid[redo]})
+            _, table = points.margin_table(self.edge)  # the same keys: they are the model's
+            worst, keys = worst_of(self.margin_keys, table)
+            self.table[:, redo] = table
+            self.worst[redo] = worst
+            for column, index in enumerate(redo):
+                self.keys[index] = keys[column]
+                self.again[index] = (points, column)
+            self.solved_in_full[redo] = True
+
+    def point(self, index):
+        """The solved point at scan ``index`` as its own OperatingPoints, or None if it did not converge."""
+        points, column = self.again.get(index, (self.points, index))
+        if not points.converged[column]:
+            return None
+        return points.take(slice(column, column + 1))
 
 
 def _stretch(worst, at):
@@ -139,27 +191,31 @@ def _runs(mask):
 def _refine_edges(model, values, edge, scan, ends):
     """Refine each edge between ``grid[index]`` (inside) and its outside neighbour, all at once.
 
-    ``scan`` is ``(grid, worst margin, its keys, points)`` of the scan; ``ends``
-    holds ``(index, direction)`` pairs.  Every round solves, in one vectorised
-    call for all edges, load voltages around three estimates of each edge (the
-    secant across the bracket and the lines through the two nearest points on
-    either side: the margin is near linear on one side of an edge even where it
-    bends on the other), each with points closer and closer either side, plus
+    ``scan`` is the :class:`_Scan`; ``ends`` holds ``(index, direction)``
+    pairs.  Every round solves, in one vectorised call for all edges, load
+    voltages around three estimates of each edge (the secant across the
+    bracket and the lines through the two nearest points on either side: the
+    margin is near linear on one side of an edge even where it bends on the
+    other; inside, the line follows the margin of the part and cause that
+    limit just outside, not the smallest margin, which may change hands
+    on the way), each with points closer and closer either side, plus
     the bracket's quarter points (so it at least quarters where the estimates
     fail or the outside end did not solve).  An edge ends when its bracket is
     narrower than a quarter of ``EDGE_TOLERANCE``: its voltage is the inside
     end (a load set at the edge is accepted), its part and cause those limiting
     at the outside end, just beyond.
     """
-    grid, worst, keys, points = scan
+    grid, worst, keys, points = scan.grid, scan.worst, scan.keys, scan.points
     edges, active = [None] * len(ends), []
     for k, (index, direction) in enumerate(ends):
         outside = index + direction
         if outside < 0 or outside >= len(grid):
             edges[k] = Edge(float(grid[index]), None, None)
             continue
-        near = [j for j in (index - direction, index, outside, outside + direction) if 0 <= j < len(grid)]
-        active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j]) for j in near]))
+        near = [j for j in (index - 2 * direction, index - direction, index, outside, outside + direction)
+                if 0 <= j < len(grid)]
+        active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j], _by_key(scan.margin_keys, scan.table[:, j]))
+                                              for j in near]))
     done = []
     for _ in range(60):
         done += [b for b in active if b.width <= EDGE_TOLERANCE / 4]
@@ -168,19 +224,28 @@ def _refine_edges(model, values, edge, scan, ends):
             break
         trial = [b.trial_points() for b in active]
         points = solve_points(model, values | {"v_load": np.concatenate(trial)})
-        margin, limits = points.worst_margin(edge)
+        margin_keys, table = points.margin_table(edge)
+        margin, limits = worst_of(margin_keys, table)
         at = 0
         for bracket, v_load in zip(active, trial):
-            bracket.add(zip(v_load, margin[at:at + len(v_load)], limits[at:at + len(v_load)]))
+            bracket.add([(v, margin[j], limits[j], _by_key(margin_keys, table[:, j]))
+                         for j, v in enumerate(v_load, start=at)])
             at += len(v_load)
     for bracket in done + active:
-        (a, _, _), (_, _, (part, cause)) = bracket.inside, bracket.outside
+        a, (part, cause) = bracket.inside[0], bracket.outside[2]
         edges[bracket.edge] = Edge(float(a), part, cause, points.cause_text(part, cause))
     return edges
 
 
+def _by_key(keys, column):
+    return dict(zip(keys, column.tolist()))
+
+
 class _Bracket:
-    """The load voltages solved near one edge, ``(v_load, margin, limiting key)``, in search order."""
+    """The load voltages solved near one edge, in search order.
+
+    Each sample is ``(v_load, smallest margin, its key, every margin by key)``.
+    """
 
     def __init__(self, edge, direction, samples):
         self.edge, self.direction, self.samples = edge, direction, []
@@ -193,8 +258,8 @@ class _Bracket:
         first_out = next(j for j, s in enumerate(self.samples) if j > 0 and not _inside(s[1])
                          and _inside(self.samples[j - 1][1]))
         self.at = first_out - 1
-        self.samples = self.samples[max(self.at - 1, 0):first_out + 2]  # what the estimates use
-        self.at = min(self.at, 1)
+        self.samples = self.samples[max(self.at - 2, 0):first_out + 2]  # what the estimates use
+        self.at = min(self.at, 2)
 
     @property
     def inside(self):
@@ -210,22 +275,57 @@ class _Bracket:
 
     def trial_points(self):
         """Load voltages to solve next, strictly inside the bracket."""
-        (a, fa, _), (b, fb, _) = self.inside, self.outside
+        a, b = self.inside[0], self.outside[0]
         width = b - a
-        lines = [(self.inside, self.outside)]
+        estimates = [_secant((a, self.inside[1]), (b, self.outside[1]))]
         if self.at > 0:
-            lines.append((self.samples[self.at - 1], self.inside))
+            # Inside: the margin that ends the range, followed up to the edge.
+            limiting = self.outside[2]
+            behind = [(s[0], s[3].get(limiting, s[1])) for s in self.samples[:self.at + 1]]
+            estimates.append(_secant(*behind[-2:]))
+            if len(behind) == 3:  # and its curvature: a saturation margin bends gently
+                estimates.append(_parabola_root(behind, a, b))
         if self.at + 2 < len(self.samples):
-            lines.append((self.outside, self.samples[self.at + 2]))
+            estimates.append(_secant((b, self.outside[1]), self.samples[self.at + 2][:2]))
         ladder = [abs(width) * 10.0 ** -k for k in range(2, 16, 2) if abs(width) * 10.0 ** -k > EDGE_TOLERANCE / 8]
         steps = np.array([0.0, *ladder, EDGE_TOLERANCE / 8])
         out = [a + width * np.array([0.25, 0.5, 0.75])]
-        for (x0, f0, _), (x1, f1, _) in lines:
-            if np.isfinite(f0) and np.isfinite(f1) and f0 != f1:
-                estimate = x0 - f0 * (x1 - x0) / (f1 - f0)
+        for estimate in estimates:
+            if estimate is not None:
                 out += [estimate - steps, estimate + steps[1:]]
         trial = np.unique(np.concatenate(out))
         return trial[(trial - a) * (trial - b) < 0]
+
+
+def _secant(first, second):
+    """Where the line through two ``(v_load, margin)`` samples crosses zero, or None."""
+    (x0, f0), (x1, f1) = first, second
+    if np.isfinite(f0) and np.isfinite(f1) and f0 != f1:
+        return x0 - f0 * (x1 - x0) / (f1 - f0)
+    return None
+
+
+def _parabola_root(samples, a, b):
+    """The zero between ``a`` and ``b`` of the parabola through three ``(v_load, margin)`` samples, or None.
+
+    Examples
+    --------
+    >>> _parabola_root([(0.0, 4.0), (1.0, 1.0), (1.5, 0.25)], 1.5, 3.0)  # (2 - v)², touching 0 at 2
+    2.0
+    """
+    (x0, f0), (x1, f1), (x2, f2) = samples
+    with np.errstate(all="ignore"):  # divided differences; near-equal samples give no parabola
+        f01, f12 = (f1 - f0) / (x1 - x0), (f2 - f1) / (x2 - x1)
+        curvature = (f12 - f01) / (x2 - x0)
+        # f(v) = f0 + f01 (v - x0) + curvature (v - x0)(v - x1), written in powers of (v - a)
+        u0, u1 = x0 - a, x1 - a
+        coefficients = np.array([curvature, f01 - curvature * (u0 + u1), f0 - f01 * u0 + curvature * u0 * u1])
+    if not np.all(np.isfinite(coefficients)) or not np.any(coefficients[:2]):
+        return None
+    roots = np.roots(coefficients)
+    roots = roots[np.isreal(roots)].real + a
+    roots = roots[(roots - a) * (roots - b) < 0]
+    return float(roots[np.argmin(np.abs(roots - a))]) if roots.size else None
 
 
 def _inside(margin):

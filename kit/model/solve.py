@@ -23,7 +23,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
@@ -76,6 +76,24 @@ class OperatingPoints:
     @property
     def size(self):
         return self.x.shape[1]
+
+    def take(self, pick):
+        """The points ``pick`` (a slice or an index array) as OperatingPoints of their own.
+
+        Their own copies of ``p, q, x``, ``converged`` and ``iterations``;
+        everything derived is computed afresh from them.
+
+        Examples
+        --------
+        >>> import kit
+        >>> from kit.analysis.evaluation import sweep
+        >>> pts = sweep(kit.design("divider_source"), "v_load", [4.0, 8.0, 9.0])
+        >>> two = pts.take(slice(1, 3))
+        >>> two.size, float(two.i_out[0]) == float(pts.i_out[1])
+        (2, True)
+        """
+        return OperatingPoints(self.model, self.p[:, pick].copy(), self.q[:, pick].copy(), self.x[:, pick].copy(),
+                               self.converged[pick].copy(), self.iterations[pick].copy())
 
     @cached_property
     def i_out(self):
@@ -138,13 +156,18 @@ class OperatingPoints:
         """``parameter -> (law in words, margin)`` of one part's laws at these points (> 0 inside)."""
         return part.kind.domain(self.junctions[part.name], self.model.operating_of(part, self.q))
 
+    def margin_table(self, edge="vce_sat"):
+        """``(keys, table)``: the keys of :meth:`margins` in order and their margins stacked, (K, N)."""
+        margins = self.margins(edge)
+        keys = list(margins)
+        table = np.empty((len(keys), self.size))
+        for row, key in zip(table, keys):
+            row[...] = margins[key]  # broadcasts a scalar margin; cheaper than broadcast_to + stack
+        return keys, table
+
     def worst_margin(self, edge="vce_sat"):
         """Smallest margin at each point and its ``(part, cause)`` key."""
-        table = self.margins(edge)
-        keys = list(table)
-        stack = np.stack([np.broadcast_to(table[k], (self.size,)) for k in keys])
-        worst = np.argmin(stack, axis=0)
-        return stack[worst, np.arange(stack.shape[1])], [keys[i] for i in worst]
+        return worst_of(*self.margin_table(edge))
 
     def cause_text(self, part, cause):
         """How the report words ``cause`` of ``part``."""
@@ -193,6 +216,12 @@ class OperatingPoints:
                 f"the exact solve did not converge at {bad.size} of {self.size} points "
                 f"(first: point {bad[0]})", parameter=what)
         return self
+
+
+def worst_of(keys, table):
+    """``(smallest margin, its key)`` at each point of a :meth:`OperatingPoints.margin_table`."""
+    worst = table.argmin(axis=0)
+    return table[worst, np.arange(table.shape[1])], [keys[i] for i in worst]
 
 
 def check_laws(model, values):
@@ -293,7 +322,11 @@ def parameter_array(model, values, size=None):
     p = np.empty((len(columns),) + shape)
     for row, column in zip(p, columns):
         row[...] = column  # broadcasts; cheaper than broadcast_to + stack
-    if np.isfinite(p).all():  # the common case, checked at once (this runs before every solve)
+    finite = np.isfinite(p)
+    if finite.all():  # the common case, checked at once (this runs before every solve)
+        return p
+    # An ideal part (V_A = +inf) or an unrated resistor: +inf where allowed, checked at once too.
+    if (finite | (np.isposinf(p) & _infinite_allowed(model)[:, None])).all():
         return p
     for name, row in zip(model.parameter_names, p):
         if not np.all(np.isfinite(row) | (np.isposinf(row) & _may_be_infinite(name))):
@@ -348,6 +381,12 @@ def check_drift(model, values):
 def _may_be_infinite(name):
     # An ideal Early voltage, an unrated resistor.
     return name.endswith(".v_a") or name.startswith("p_rated_")
+
+
+@lru_cache(maxsize=None)
+def _infinite_allowed(model):
+    """Boolean row mask of the parameters that may be +inf (see :func:`_may_be_infinite`)."""
+    return np.array([_may_be_infinite(name) for name in model.parameter_names], dtype=bool)
 
 
 def solve_points(model, values, *, x0=None, max_iterations=MAX_ITERATIONS, retry=True):
@@ -420,13 +459,13 @@ def _newton(model, x, q, max_iterations):
         every = pending.size == size  # no copies while every point is still going
         xs, qs = (x, q) if every else (x[:, pending], q[:, pending])
         step = _newton_step(model, xs, qs)
-        done = np.all(np.abs(step) <= STEP_TOLERANCE * np.abs(xs) + 1e-14, axis=0)
+        done = (np.abs(step) <= STEP_TOLERANCE * np.abs(xs) + 1e-14).all(axis=0)
         updated = xs + step
         if every:
             x = updated
         else:
             x[:, pending] = updated
-        finite = np.all(np.isfinite(updated), axis=0)
+        finite = np.isfinite(updated).all(axis=0)
         iterations[pending] = iteration
         converged[pending[done & finite]] = True
         pending = pending[~done & finite]
@@ -441,24 +480,48 @@ def _confirmed(model, x, q):
     scale = model.scales(x, q)
     # Rounding of the node voltages themselves: a few ulps of the largest
     # voltage times each node's conductances (a tiny drop under a high rail).
-    rounding = 8 * np.finfo(float).eps * np.max(np.abs(x), axis=0) * np.sum(np.abs(jac), axis=1)
+    rounding = 8 * np.finfo(float).eps * np.abs(x).max(axis=0) * np.abs(jac).sum(axis=1)
     # The absolute floor (1 fA) covers a node whose currents are tiny but whose
     # voltage is large (a cut-off device at a high supply).
-    return np.all(np.abs(f) <= 1e-9 * scale + rounding + RESIDUAL_FLOOR, axis=0)
+    return (np.abs(f) <= 1e-9 * scale + rounding + RESIDUAL_FLOOR).all(axis=0)
+
+
+def _newton_direction(f, jac):
+    """The full Newton step ``-J⁻¹ F`` (n, N) from ``F`` (n, N) and ``J`` (n, n, N).
+
+    One and two unknowns (most single-transistor sources) are solved in
+    closed form on the point axis, as :func:`_batched_solve` does, without
+    moving axes; larger systems (or a singular one) go through it.
+    """
+    n = f.shape[0]
+    if n == 1:
+        det = jac[0, 0]
+        if (det != 0).all():
+            return -(f / det)
+    elif n == 2:
+        a, b, c, d = jac[0, 0], jac[0, 1], jac[1, 0], jac[1, 1]
+        det = a * d - b * c
+        if (det != 0).all():
+            step = np.empty_like(f)
+            step[0] = (d / det) * f[0] + (-b / det) * f[1]
+            step[1] = (-c / det) * f[0] + (a / det) * f[1]
+            return np.negative(step, out=step)
+    return -_batched_solve(np.moveaxis(jac, -1, 0), f.T[..., None])[..., 0].T
 
 
 def _newton_step(model, x, q):
     f, jac = model.newton_terms(x, q)
-    jac = np.moveaxis(jac, -1, 0)
-    step = -_batched_solve(jac, np.moveaxis(f, -1, 0)[..., None])[..., 0].T
+    step = _newton_direction(f, jac)
     step = np.where(np.isfinite(step), step, 0.0)
     # Limit the move of junctions that end up forward biased.
     before = model.limited_voltages(x, q)
     after = model.limited_voltages(x + step, q)
     rise = after - before
     limited = (after > 0.3) & (rise > JUNCTION_STEP)
-    fraction = np.min(np.where(limited, JUNCTION_STEP / np.where(limited, rise, 1.0), 1.0), axis=0,
-                      initial=1.0)
-    largest = np.max(np.abs(step), axis=0)
+    if limited.any():
+        fraction = np.where(limited, JUNCTION_STEP / np.where(limited, rise, 1.0), 1.0).min(axis=0, initial=1.0)
+    else:  # the common case near the solution: no junction limited
+        fraction = 1.0
+    largest = np.abs(step).max(axis=0, initial=0.0)
     fraction = np.minimum(fraction, NODE_STEP / np.maximum(largest, NODE_STEP))
     return step * fraction

@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from kit.errors import ParameterError
 from kit.analysis.temperature import temperature_sweep
 from kit.analysis.evaluation import sweep
 from kit.quantities import format_quantity, kelvin_to_celsius
@@ -39,6 +40,8 @@ SOURCES = ("load", "load_forms", "load_outside", "load_edges", "load_point",
            "beta", "beta_point", "beta_band",
            "temp", "temp_heated", "temp_point", "temp_band",
            "sensitivity", "tempco")
+VIEWS = ("load", "beta", "temp", "sensitivity", "tempco")  # one plot each
+VIEW_SOURCES = {view: tuple(s for s in SOURCES if s.split("_")[0] == view) for view in VIEWS}
 
 
 @dataclass(frozen=True)
@@ -162,8 +165,8 @@ def _extent(*arrays):
     return low - pad, high + pad
 
 
-def plot_data(design, evaluation, spec=None, settings=Settings()):
-    """Columns for every panel source, from one batched exact sweep.
+def plot_data(design, evaluation, spec=None, settings=Settings(), views=VIEWS):
+    """Columns for the panel's sources, from one batched exact sweep.
 
     Parameters
     ----------
@@ -173,6 +176,10 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     spec : kit.analysis.spec.Spec, optional
         Gives the gain and temperature ranges.
     settings : Settings
+    views : iterable of str
+        The plots to make (of :data:`VIEWS`); default all.  Only their
+        sources (:data:`VIEW_SOURCES`), axis texts and categories are in the
+        result, and only their curves are solved.
 
     Returns
     -------
@@ -186,6 +193,11 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     >>> len(data.columns["load"]["i_out"]), data.scale[1]
     (20, 'µA')
     """
+    views = set(views)
+    unknown = views - set(VIEWS)
+    if unknown:
+        raise ParameterError("unknown plot view", parameter="views", value=sorted(unknown)[0],
+                             valid=", ".join(VIEWS))
     n = settings.points
     params = design.parameters()
     factor, unit = scale = theme.current_scale(evaluation.i_out)
@@ -193,25 +205,52 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     t_low, t_high, t_spec = temp_range(design, spec)
     t_axis = np.linspace(t_low, t_high, n)
     shown, varied = swept_gains(design, settings)
-    blocks = 3 if shown else 2
-    # One solve for all curves: block 0 sweeps the load, block 1 the gain, the last the temperature.
-    v_column = np.concatenate([v_axis, np.full((blocks - 1) * n, params["v_load"])])
-    overrides = {"temp": np.concatenate([np.full((blocks - 1) * n, params["temp"]), t_axis])}
+    # One solve for all curves asked for: a block of n points sweeps the load, one the gain,
+    # one the temperature (each point solves on its own: a block is the same alone or together).
+    blocks = [name for name in ("load", "beta", "temp") if name in views and (name != "beta" or shown)]
+    at = {name: slice(k * n, (k + 1) * n) for k, name in enumerate(blocks)}
+    size = len(blocks) * n
+    v_column = np.full(size, float(params["v_load"]))
+    temp_column = np.full(size, float(params["temp"]))
+    overrides = {"temp": temp_column}
+    if "load" in at:
+        v_column[at["load"]] = v_axis
+    if "temp" in at:
+        temp_column[at["temp"]] = t_axis
     if shown:
         b_low, b_high, b_spec = beta_range(design, spec, shown)
         b_axis = np.linspace(b_low, b_high, n)
         ratio = b_axis / params[f"{shown}.beta_f"]
         for name in gain_transistors(design):
             nominal = params[f"{name}.beta_f"]
-            column = np.full(blocks * n, nominal)
-            if name in varied:
-                column[n:2 * n] = nominal * ratio  # moved in proportion to the one on the axis
+            column = np.full(size, nominal)
+            if name in varied and "beta" in at:
+                column[at["beta"]] = nominal * ratio  # moved in proportion to the one on the axis
             overrides[f"{name}.beta_f"] = column
-    points = sweep(design, "v_load", v_column, **overrides)
-    load, temp = slice(0, n), slice((blocks - 1) * n, blocks * n)
+    points = sweep(design, "v_load", v_column, **overrides) if blocks else None
     columns, labels, factors = {}, {}, {}
+    if "load" in views:
+        _load_columns(columns, labels, design, evaluation, points, at["load"], v_axis, scale)
+    if "beta" in views:
+        _beta_columns(columns, labels, design, evaluation, points, at.get("beta"), shown, varied,
+                      (b_axis, b_spec) if shown else None, scale)
+    if "temp" in views:
+        _temp_columns(columns, labels, design, evaluation, points, at["temp"], t_axis, (t_low, t_high, t_spec),
+                      settings, scale)
+    if "sensitivity" in views:
+        _sensitivity_columns(columns, labels, factors, evaluation)
+    if "tempco" in views:
+        _tempco_columns(columns, labels, factors, evaluation)
+    for view in views:
+        for name in VIEW_SOURCES[view]:
+            columns.setdefault(name, {})
+    return PlotData(columns, labels, factors, scale)
 
-    # 1. load voltage, with every closed form of the ledger
+
+def _load_columns(columns, labels, design, evaluation, points, load, v_axis, scale):
+    """1. load voltage, with every closed form of the ledger."""
+    params = design.parameters()
+    factor, unit = scale
     i_load = _exact(points, load)
     forms = points.model.closed_forms(points.q)
     simplifications = design.structure.closed_forms
@@ -249,9 +288,14 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     labels["load"] = {"title": "Output current across compliance and beyond its edges",
                       "x": "load voltage V_load (V)", "y": f"I_out ({unit})"}
 
-    # 2. forward gain
+
+def _beta_columns(columns, labels, design, evaluation, points, block, shown, varied, axis, scale):
+    """2. forward gain (empty without a bipolar transistor)."""
+    params = design.parameters()
+    factor, unit = scale
     if shown:
-        i_beta = _exact(points, slice(n, 2 * n))
+        b_axis, b_spec = axis
+        i_beta = _exact(points, block)
         columns["beta"] = {"beta": b_axis, "i_out": i_beta, "y": i_beta / factor}
         columns["beta_point"] = {"x": [params[f"{shown}.beta_f"]], "y": [evaluation.i_out / factor],
                                  "i_out": [evaluation.i_out]}
@@ -269,7 +313,11 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     b_low_y, b_high_y = _extent(columns["beta"]["y"])
     columns["beta_band"] = _band(band, b_low_y, b_high_y)
 
-    # 3. temperature
+
+def _temp_columns(columns, labels, design, evaluation, points, temp, t_axis, t_range, settings, scale):
+    """3. temperature, with the self-heated curve when asked for."""
+    factor, unit = scale
+    t_low, t_high, t_spec = t_range
     i_temp = _exact(points, temp)
     t_celsius = kelvin_to_celsius(t_axis)
     columns["temp"] = {"temp_c": t_celsius, "temp": t_axis, "i_out": i_temp, "y": i_temp / factor}
@@ -288,7 +336,9 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     labels["temp"] = {"title": "Output current against temperature" + (" (spec range shaded)" if t_spec else ""),
                       "x": "temperature (°C)" + heated_end, "y": f"I_out ({unit})"}
 
-    # 4. normalised sensitivities, largest on top
+
+def _sensitivity_columns(columns, labels, factors, evaluation):
+    """4. normalised sensitivities, largest on top."""
     ranked = sorted((s for s in evaluation.sensitivities if s.parameter != "temp"),
                     key=lambda s: abs(s.normalised))
     columns["sensitivity"] = {
@@ -304,7 +354,9 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     labels["sensitivity"] = {"title": "Normalised sensitivities S = (p / I_out) · dI_out/dp (exact)",
                              "x": "S (dimensionless: % change of I_out per % change of p)", "y": "parameter p"}
 
-    # 5. tempco budget, total at the bottom
+
+def _tempco_columns(columns, labels, factors, evaluation):
+    """5. tempco budget, total at the bottom."""
     # Summed per mechanism: matched parts' opposite terms cancel instead of drawing ±140 000 ppm/K bars.
     budget = sorted(((f"{m} ({p})" if p else m, v) for m, p, v in tempco_by_mechanism(evaluation.tempco_budget)),
                     key=lambda item: abs(item[1]))
@@ -319,9 +371,6 @@ def plot_data(design, evaluation, spec=None, settings=Settings()):
     factors["tempco"] = names
     labels["tempco"] = {"title": "Tempco budget by mechanism",
                         "x": "contribution to (1/I_out) dI_out/dT (ppm/K)", "y": "mechanism"}
-    for name in SOURCES:
-        columns.setdefault(name, {})
-    return PlotData(columns, labels, factors, scale)
 
 
 def signed_text(value):

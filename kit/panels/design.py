@@ -3,8 +3,10 @@
 :class:`DesignPanel` is built from the topology's value specs, so it serves
 any registered topology.  A change — typed, stepped, slid, or passed to
 :meth:`DesignPanel.update` by a script — goes one way: read and validate,
-build the new design, evaluate it with the kit, compute every plot column,
-and only when all of that succeeded show it.  A refused change leaves the
+build the new design, evaluate it with the kit, compute the open plot's
+columns, and only when all of that succeeded show it.  A plot in a closed
+tab is made from the same design when it is opened (or read through
+:attr:`DesignPanel.sources` or :attr:`DesignPanel.plot_data`).  A refused change leaves the
 design, the numbers and the plots as they were and says why in the message
 line.
 """
@@ -12,7 +14,7 @@ line.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import ipywidgets as widgets
 
@@ -31,14 +33,19 @@ BETA_SLIDER = (10.0, 2000.0)
 SUPPLY_SLIDER = (0.25, 2.5)  # multiples of the supply the panel opened with
 
 
-@dataclass(frozen=True)
+@dataclass
 class _State:
-    """Everything one design point shows; computed in full before anything is displayed."""
+    """Everything one design point shows; computed before anything is displayed.
+
+    ``data`` holds the plots in ``views`` (the open one after a change); the
+    others are made from this state when they are opened or read.
+    """
 
     design: object
     evaluation: object
     data: object
     headline: dict
+    views: set = field(default_factory=lambda: set(curves.VIEWS))
 
 
 class DesignPanel:
@@ -104,7 +111,7 @@ class DesignPanel:
         self._layout_key = None
         self._state = state = self._compute(design, self.settings)
         # Filled before the BokehModels wrap them: a model's first drawing is what it was built with.
-        self.figures, self.sources = plots.build(state.data)
+        self.figures, self._sources = plots.build(state.data)
         self._build_widgets()
         self._drawn = state  # what the BokehModels were built with
         self.worst = self.search = None
@@ -127,8 +134,15 @@ class DesignPanel:
 
     @property
     def plot_data(self):
-        """The :class:`kit.panels.curves.PlotData` the plots show now (columns, axis texts, current scale)."""
+        """The :class:`kit.panels.curves.PlotData` of the present design, every plot (columns, axis texts, current scale)."""
+        self._complete_views()
         return self._state.data
+
+    @property
+    def sources(self):
+        """Source name -> Bokeh ColumnDataSource, each holding the present design."""
+        self._complete_views()
+        return self._sources
 
     def headline_text(self):
         """Label -> text of the headline numbers, as :meth:`kit.report.evaluation.headline` gives them."""
@@ -311,6 +325,7 @@ class DesignPanel:
         before any view existed reach no view.
         """
         if force or self._drawn is not self._state:
+            self._complete_views()  # a whole figure goes out: each must hold the present design
             for name, model in self.bokeh.items():
                 model.update_from_model(self.figures[name])
             self._drawn = self._state
@@ -332,7 +347,8 @@ class DesignPanel:
                 self._clear_message()
                 self._show_values()
                 return True
-            state = self._compute(design, settings, reuse=self._state.evaluation if hasattr(self, "_state") else None)
+            state = self._compute(design, settings, reuse=self._state.evaluation if hasattr(self, "_state") else None,
+                                  views=self._open_plots())
         except DesignError as err:
             self._refuse(err, changes)
             return False
@@ -390,15 +406,39 @@ class DesignPanel:
             if self.worst is not None:
                 self.worst.spec = self.spec
 
-    def _compute(self, design, settings, reuse=None):
+    def _compute(self, design, settings, reuse=None, views=curves.VIEWS):
         start = time.perf_counter()
         # A load-voltage step keeps the compliance edges: the kit reuses them when nothing else changed.
         evaluation = kit.evaluate(design, reuse=reuse, network=self.network_for(design))
         headline = headline_of(evaluation)
         evaluated = time.perf_counter()
-        data = curves.plot_data(design, evaluation, self.spec, settings)
+        data = curves.plot_data(design, evaluation, self.spec, settings, views=views)
         self._pending_timings = {"evaluate": evaluated - start, "sweeps": time.perf_counter() - evaluated}
-        return _State(design, evaluation, data, headline)
+        return _State(design, evaluation, data, headline, set(views))
+
+    def _open_plots(self):
+        """The plot views to make with a change: the open tab's, if it holds a plot."""
+        shown = self._open_view()
+        return tuple(name for name, model in self.bokeh.items() if model is shown)
+
+    def _complete_views(self, views=curves.VIEWS):
+        """Make the plots in ``views`` that the present state does not hold yet, and fill their sources.
+
+        A closed view's changes are held until its tab opens (:mod:`kit.panels.sync`).
+        """
+        state = self._state
+        missing = [view for view in views if view not in state.views]
+        if not missing:
+            return
+        data = curves.plot_data(state.design, state.evaluation, self.spec, self.settings, views=missing)
+        state.data.columns.update(data.columns)
+        state.data.labels.update(data.labels)
+        state.data.factors.update(data.factors)
+        state.views.update(missing)  # the same design point, more of it made
+        if not hasattr(self, "bokeh"):  # still being built
+            return
+        with sync.batched([self.bokeh[view] for view in missing if view in self.bokeh]):
+            plots.fill(self.figures, {name: self._sources[name] for name in data.columns}, data)
 
     def _commit(self, state):
         start = time.perf_counter()
@@ -411,7 +451,7 @@ class DesignPanel:
             self._layout_key = key
         # One message per widget and one patch per figure, sent when the block ends.
         with sync.batched(self.bokeh.values(), self._synced_widgets()):
-            plots.fill(self.figures, self.sources, state.data)
+            plots.fill(self.figures, {name: self._sources[name] for name in state.data.columns}, state.data)
             self.title.value = views.title_html(state.design)
             self.headline.value = views.headline_html(state.evaluation, state.headline, self.spec)
             self._show_values()
@@ -544,10 +584,11 @@ class DesignPanel:
         self._show_tab()
 
     def _show_tab(self, change=None):
-        """Only the open tab's view sends its changes; the others send theirs when opened."""
+        """Only the open tab's view sends its changes; the others are made and send theirs when opened."""
         shown = self._open_view()
         if shown in (self.ledger, self.schematic):
             self._draw_views()
+        self._complete_views(self._open_plots())
         for model in self.bokeh.values():
             model.hidden = model is not shown
         for view in (self.ledger, self.schematic):

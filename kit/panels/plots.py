@@ -252,9 +252,11 @@ def fill(figures, sources, data):
             source.data = {key: _binary(value) for key, value in columns.items()}
     for name, texts in data.labels.items():
         fig = figures[name]
-        fig.title.text = texts["title"]
-        fig.xaxis.axis_label = texts["x"]
-        fig.yaxis.axis_label = texts["y"]
+        # Set only what changed: setting a Bokeh property costs its validation even when equal.
+        _set(fig.title, "text", texts["title"])
+        for axes, text in ((fig.xaxis, texts["x"]), (fig.yaxis, texts["y"])):
+            for axis in axes:
+                _set(axis, "axis_label", text)
     for name, factors in data.factors.items():
         if list(figures[name].y_range.factors) != list(factors):
             figures[name].y_range.factors = list(factors)
@@ -268,7 +270,12 @@ def fill(figures, sources, data):
         for legend in fig.legend:
             for item in legend.items:
                 # An empty curve (no spec band, no self-heating) keeps no legend entry.
-                item.visible = any(_size(r.data_source) for r in item.renderers)
+                _set(item, "visible", any(_size(r.data_source) for r in item.renderers))
+
+
+def _set(model, attr, value):
+    if getattr(model, attr) != value:
+        setattr(model, attr, value)
 
 
 def _same(old, new):

@@ -11,7 +11,7 @@ import math
 
 from kit.quantities import format_quantity, format_temperature
 from kit.report import tables
-from kit.report.units import per
+from kit.report.units import format_with_unit, per
 
 
 def title(design):
@@ -76,7 +76,8 @@ def _value(evaluation, s):
 def _derivative(s):
     # A current over a current (a mirror's ratio) keeps its A/A rather than reading as a bare number.
     unit = per("A", "K" if s.parameter == "temp" else s.unit) or (f"A/{s.unit}" if s.unit else "")
-    return format_quantity(s.derivative, unit) if unit else f"{s.derivative:.4g}"
+    # A unit with a power gets no prefix: "-415 mV²" would read as (mV)², a million times too small.
+    return format_with_unit(s.derivative, unit, 3) if unit else f"{s.derivative:.4g}"
 
 
 def _normalised(s):
