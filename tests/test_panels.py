@@ -482,7 +482,7 @@ def test_ledger_rows_hold_the_numbers_and_the_closed_form_sits_under_them():
     from html import escape as html_escape
     from pathlib import Path
 
-    from kit.panels.ledger import ledger_html
+    from kit.panels.ledger import error_text, ledger_html
     from kit.record import load_record
 
     record = load_record(Path(__file__).resolve().parents[1] / "examples" / "spec-led-driver-passes.toml")
@@ -492,7 +492,8 @@ def test_ledger_rows_hold_the_numbers_and_the_closed_form_sits_under_them():
     for entry in ev.ledger:
         (row,) = [r for r in rows if f">{html_escape(entry.label)}</td>" in r]
         assert format_quantity(entry.value, "A", 5) in row
-        assert f"{entry.error:+.3%}" in row and format_quantity(entry.tempco, "ppm/K") in row
+        assert error_text(entry.error) in row and format_quantity(entry.tempco, "ppm/K") in row
+        assert "-0.000%" not in row and "+0.000%" not in row  # a tiny error keeps its digits
         assert "$$" not in row  # the formula is not in the row of numbers ...
         below = rows[rows.index(row) + 1]
         assert "colspan" in below and entry.latex in below  # ... but on the line under it

@@ -47,6 +47,19 @@ def _table(headers, rows, numeric=(), notes=None):
             f'{"".join(body)}</table>')
 
 
+def error_text(error):
+    """A relative error in percent: three decimals, or two digits and an exponent below 0.0005 %.
+
+    Examples
+    --------
+    >>> error_text(0.02027), error_text(-2.1e-7), error_text(0.0)
+    ('+2.027%', '-2.1e-05 %', '0%')
+    """
+    if error == 0:
+        return "0%"
+    return f"{error:+.3%}" if abs(error) >= 5e-6 else f"{100 * error:+.1e} %"
+
+
 @lru_cache(maxsize=64)
 def _equations_html(topology, polarity):
     """The exact equations of one topology and polarity (they do not depend on values)."""
@@ -81,7 +94,7 @@ def ledger_html(evaluation):
              format_quantity(evaluation.tempco, "ppm/K")]]
     notes = [None]
     for entry in evaluation.ledger:
-        rows.append([display.escape(entry.label), format_quantity(entry.value, "A", 5), f"{entry.error:+.3%}",
+        rows.append([display.escape(entry.label), format_quantity(entry.value, "A", 5), error_text(entry.error),
                      format_quantity(entry.tempco, "ppm/K")])
         notes.append(f'<div style="{FITS}">$${entry.latex}$$</div>'
                      "assumes " + display.escape("; ".join(entry.assumptions))
