@@ -527,3 +527,10 @@ def test_curve_legends_sit_under_the_plots_never_over_a_curve():
         fig = panel.figures[name]
         (legend,) = fig.legend
         assert legend in fig.below and legend not in fig.center, name
+
+
+def test_tempco_bars_list_matched_parts_in_schematic_order():
+    # The cascode mirror listed "current gain β_F (Q4, Q1, Q2, Q3)".
+    panel = DesignPanel(kit.design("cascode_mirror", i_ref="200u", v_supply="12 V", v_load="1.6 V"))
+    grouped = [n for n in panel.sources["tempco"].data["name"] if "," in n]
+    assert grouped and all("(Q1, Q2, Q3, Q4)" in n for n in grouped), grouped

@@ -11,6 +11,7 @@ axes.  It imports no Bokeh, so benchmarks and tests can call it alone.
 
 from __future__ import annotations
 
+import re
 import textwrap
 from dataclasses import dataclass, field
 
@@ -358,7 +359,8 @@ def _sensitivity_columns(columns, labels, factors, evaluation):
 def _tempco_columns(columns, labels, factors, evaluation):
     """5. tempco budget, total at the bottom."""
     # Summed per mechanism: matched parts' opposite terms cancel instead of drawing ±140 000 ppm/K bars.
-    budget = sorted(((f"{m} ({p})" if p else m, v) for m, p, v in tempco_by_mechanism(evaluation.tempco_budget)),
+    budget = sorted(((f"{m} ({part_list(p)})" if p else m, v)
+                     for m, p, v in tempco_by_mechanism(evaluation.tempco_budget)),
                     key=lambda item: abs(item[1]))
     names = ["total (exact)"] + [label for label, _ in budget]
     ppm = [evaluation.tempco * 1e6] + [value * 1e6 for _, value in budget]
@@ -371,6 +373,20 @@ def _tempco_columns(columns, labels, factors, evaluation):
     factors["tempco"] = names
     labels["tempco"] = {"title": "Tempco budget by mechanism",
                         "x": "contribution to (1/I_out) dI_out/dT (ppm/K)", "y": "mechanism"}
+
+
+def part_list(parts):
+    """``"Q1, Q2, Q3, Q4"`` from ``"Q4, Q1, Q2, Q3"``: parts in the order a schematic numbers them.
+
+    Examples
+    --------
+    >>> part_list("Q4, Q10, Q1, D2")
+    'D2, Q1, Q4, Q10'
+    """
+    def key(name):
+        return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", name)]
+
+    return ", ".join(sorted(parts.split(", "), key=key))
 
 
 def signed_text(value):
