@@ -20,6 +20,7 @@ from pathlib import Path
 import pytest
 
 import kit
+from kit.panels.export import TIPS
 from kit.report.evaluation import headline
 
 from browsing import CHROMIUM_ARGS, TOKEN, bench, lab_server, run_notebook, wait_idle
@@ -239,7 +240,7 @@ def test_panel_fits_a_laptop_and_speaks_every_device(lab):
                 text = _hover_text(page, panel)
                 assert all(re.search(w, text) for w in words), (title, text)
                 with page.expect_download() as download:
-                    panel.locator(".bk-tool-icon-arrow-down-to-bar:visible").first.click()
+                    panel.locator(f'[title="{TIPS["CSV"]}"]:visible').first.click()
                 csv_text = Path(download.value.path()).read_text()
                 rows = csv_text.strip().splitlines()
                 assert len(rows) > 2 and ("(" in rows[0] or "parameter" in rows[0]), (title, rows[:2])

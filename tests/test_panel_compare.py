@@ -32,6 +32,7 @@ from kit.analysis.synthesis import synthesize  # noqa: E402
 from kit.analysis.worstcase import worst_case  # noqa: E402
 from kit.panels import ComparePanel, DesignPanel  # noqa: E402
 from kit.panels.compare import beta_sensitivity, headroom  # noqa: E402
+from kit.panels.export import TIPS  # noqa: E402
 from kit.quantities import format_quantity, format_temperature  # noqa: E402
 from kit.report.evaluation import headline, resistance  # noqa: E402
 from kit.safety import NO_MATH_CLASS  # noqa: E402
@@ -167,12 +168,36 @@ def test_a_design_panel_opens_a_comparison_from_where_it_is():
     assert pair.update("A", i_ref="100u") and panel.design.values["i_ref"] == pytest.approx(90e-6)
 
 
+def test_legend_names_each_design_once_and_follows_a_switch():
+    # Two entries, one per design, each naming its circuit (the edges are said in the title):
+    # four entries ("A", "B", "A: compliance edges", ...) crowded the plot at 1280 px.
+    panel = ComparePanel(basic(), wilson())
+    for name, fig in panel.figures.items():
+        (legend,) = fig.legend
+        assert legend in fig.below  # under the plot, never over the curves
+        labels = [item.label.value for item in legend.items]
+        assert labels == ["A: Basic current mirror, NPN", "B: Wilson current mirror (three transistors), NPN"], name
+        assert "compliance edges" in fig.title.text if name == "load" else True
+    assert panel.switch("B", topology="cascode_mirror")
+    labels = [item.label.value for item in panel.figures["temp"].legend[0].items]
+    assert labels[1] == f"B: {kit.topologies.get('cascode_mirror').title}, NPN"
+
+
+def test_table_keeps_each_number_with_its_unit(both):
+    # A narrow column wrapped "T_j up to 25.3 / °C" at 1280 px: the space before a unit no longer breaks.
+    both.run_worst_case()
+    shown = both.table.value
+    assert "\u00a0°C" in shown and "\u00a0µA" in shown
+    assert not re.search(r"\d (?:[pnµmkM]?[AVWΩ]|°C|ppm/K)(?![A-Za-z])", shown)
+    assert "Q2 at" in shown or "Q1 at" in shown or "Q3 at" in shown  # words still break as words
+
+
 def test_spread_figure_saves_as_svg_too():
     from kit.analysis.spread import spread
     from kit.panels.spread import spread_figure
 
     fig = spread_figure(spread(basic(), beta=(80, 300)))
-    assert {t.description for t in fig.tools} >= {"Save the figure as SVG", "Save the figure as PNG"}
+    assert {t.description for t in fig.tools} >= {TIPS["SVG"], TIPS["PNG"]}
 
 
 def test_overlaid_plots_export_csv(both):
@@ -220,9 +245,10 @@ def test_every_plot_saves_as_svg_offline(spec_panel):
         assert root.tag == "{http://www.w3.org/2000/svg}svg"
         assert "I_out" in text or "Q1" in text  # the axis or factor words are drawn as text
     for fig in list(spec_panel.figures.values()) + list(spec_panel.worst.figures.values()):
-        descriptions = {t.description for t in fig.tools if t.name in ("svg", "csv")} | \
-            {t.description for t in fig.tools if type(t).__name__ == "SaveTool"}
-        assert {"Save the figure as SVG", "Save the figure as PNG"} <= descriptions
+        exports = [t for t in fig.tools if t.name in ("svg", "csv") or type(t).__name__ == "SaveTool"]
+        assert {t.description for t in exports} == {TIPS["SVG"], TIPS["PNG"], TIPS["CSV"]}
+        # Each export has an icon of its own: PNG and CSV no longer look alike.
+        assert len({t.icon for t in exports}) == 3 and all(t.icon.startswith("data:image/svg+xml") for t in exports)
 
 
 def test_worst_case_plots_export_their_numbers(spec_panel):
@@ -391,7 +417,8 @@ def _scroll_to(page, selector_js):
 
 
 def _compare_text(page):
-    return page.evaluate("() => document.querySelector('.biasbook-compare').innerText")
+    """The comparison's text as read; a number's no-break space before its unit read as a space."""
+    return page.evaluate("() => document.querySelector('.biasbook-compare').innerText").replace("\u00a0", " ")
 
 
 @pytest.mark.browser
@@ -430,7 +457,7 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
             field.press("Enter")
             expected = headline(kit.evaluate(wilson(i_ref="120u")))["I_out"]
             page.wait_for_function(f"() => document.querySelector('.biasbook-compare').innerText"
-                                   f".includes({json.dumps(expected)})", timeout=60_000)
+                                   f".replace(/\\u00a0/g, ' ').includes({json.dumps(expected)})", timeout=60_000)
 
             # The worst case of both against the spec, on request.
             panel.locator("button", has_text="check both against the spec").click()
@@ -459,7 +486,7 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
                     break
             assert re.search(r"design:\s*[AB]", tip) and re.search(r"I_out:\s*[\d.]+ µA", tip) \
                 and re.search(r"V_load:\s*[-\d.]+ V", tip), tip
-            button = page.evaluate(_BUTTON, "Save the figure as SVG")
+            button = page.evaluate(_BUTTON, TIPS["SVG"])
             assert "x" in button, button
             with page.expect_download() as download:
                 page.mouse.click(button["x"], button["y"])
@@ -467,7 +494,7 @@ def test_comparison_fits_a_laptop_and_answers_in_the_browser(lab):
             root = ET.fromstring(svg)
             assert root.tag == "{http://www.w3.org/2000/svg}svg" and "I_out" in svg
             with page.expect_download() as download:
-                panel.locator(".bk-tool-icon-arrow-down-to-bar:visible").first.click()
+                panel.locator(f'[title="{TIPS["CSV"]}"]:visible').first.click()
             head = Path(download.value.path()).read_text().splitlines()[0]
             assert head == "V_load A (V),I_out A (A),V_load B (V),I_out B (A)"
 
@@ -521,11 +548,11 @@ def test_worst_case_tab_shows_stress_and_saves_svg_in_the_browser(lab):
                              "> :not(.lm-mod-hidden) .bk-Figure, .biasbook-panel .widget-tab-contents "
                              "> :not(.lm-mod-hidden) .jupyter-widgets.bk-root')")
             page.evaluate("() => window.scrollBy(0, -120)")
-            button = page.evaluate(_BUTTON, "Save the figure as SVG")
+            button = page.evaluate(_BUTTON, TIPS["SVG"])
             if "x" not in button:  # below the fold: bring the plots up
                 page.mouse.wheel(0, 300)
                 time.sleep(1)
-                button = page.evaluate(_BUTTON, "Save the figure as SVG")
+                button = page.evaluate(_BUTTON, TIPS["SVG"])
             assert "x" in button, button
             with page.expect_download() as download:
                 page.mouse.click(button["x"], button["y"])
@@ -533,7 +560,7 @@ def test_worst_case_tab_shows_stress_and_saves_svg_in_the_browser(lab):
             assert ET.fromstring(svg).tag == "{http://www.w3.org/2000/svg}svg"
             assert "Monte Carlo" in svg or "Error budget" in svg  # the plot's own title, drawn as text
             # ... and its numbers as CSV, from the same toolbar.
-            button = page.evaluate(_BUTTON, "Save this plot's numbers as CSV")
+            button = page.evaluate(_BUTTON, TIPS["CSV"])
             assert "x" in button, button
             with page.expect_download() as download:
                 page.mouse.click(button["x"], button["y"])

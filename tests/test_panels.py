@@ -327,6 +327,15 @@ def test_synthesis_load_button_loads_the_candidate(spec_panel, base):
     result = panel.search.run()
     assert result.candidates
     candidate = result.candidates[0].design
+    # Each current keeps its unit on its line (it wrapped as "10.03 / mA" at 1280 px); the
+    # circuit is named by its title, not its registry key.
+    line = panel.search.rows.children[0].children[1].value
+    assert format_quantity(result.candidates[0].nominal, "A", 4).replace(" ", "\u00a0") in line
+    assert candidate.topology.title in line
+    from kit.panels.worst import SynthesisView
+
+    offer = SynthesisView(panel, panel.spec).status.value  # what the tab says before a search
+    assert f"Tries {candidate.topology.title} (NPN)" in offer and candidate.topology.key not in offer
     panel.search.load_buttons[0].click()
     assert panel.design == candidate and panel.message == ""
     assert panel.headline_text() == headline(kit.evaluate(candidate))
@@ -464,3 +473,64 @@ def test_panel_shares_heat_as_the_records_thermal_section_says():
     assert panel.evaluation.thermal_network is record.thermal
     # Another circuit's Q1 and Q2 are other transistors: the network stays with its own circuit.
     assert panel.switch("wilson_mirror") and panel.evaluation.thermal_network is None
+
+
+def test_ledger_rows_hold_the_numbers_and_the_closed_form_sits_under_them():
+    # At 1280 px a six-column ledger pushed value, error and tempco off the screen behind a
+    # wide closed form: each row now holds the numbers, the formula and assumptions go under it.
+    import re
+    from html import escape as html_escape
+    from pathlib import Path
+
+    from kit.panels.ledger import error_text, ledger_html
+    from kit.record import load_record
+
+    record = load_record(Path(__file__).resolve().parents[1] / "examples" / "spec-led-driver-passes.toml")
+    ev = kit.evaluate(record.design)
+    html = ledger_html(ev)
+    rows = re.findall(r"<tr>(.*?)</tr>", html, re.S)
+    for entry in ev.ledger:
+        (row,) = [r for r in rows if f">{html_escape(entry.label)}</td>" in r]
+        assert format_quantity(entry.value, "A", 5) in row
+        assert error_text(entry.error) in row and format_quantity(entry.tempco, "ppm/K") in row
+        assert "-0.000%" not in row and "+0.000%" not in row  # a tiny error keeps its digits
+        assert "$$" not in row  # the formula is not in the row of numbers ...
+        below = rows[rows.index(row) + 1]
+        assert "colspan" in below and entry.latex in below  # ... but on the line under it
+        assert "; ".join(entry.assumptions).split(" ")[0] in below
+    assert html.count("min-width:100%;overflow-x:auto") == len(ev.ledger)  # each formula scrolls in its box
+
+
+def test_load_legend_wraps_a_long_hand_formula_and_the_csv_keeps_it_whole():
+    # A ledger label of 90 characters made the two-column legend wider than the plot at 1280 px.
+    from pathlib import Path
+
+    from kit.panels.curves import LEGEND_LINE
+    from kit.record import load_record
+
+    record = load_record(Path(__file__).resolve().parents[1] / "examples" / "zener_diode_source-rtd-excitation.toml")
+    panel = DesignPanel(record.design)
+    forms = panel.sources["load_forms"].data
+    assert max(len(label) for label in forms["label"]) > LEGEND_LINE  # the case this is about
+    for label, shown in zip(forms["label"], forms["legend"]):
+        assert all(len(line) <= LEGEND_LINE for line in shown.split("\n")) or " " not in label
+        assert shown.replace("\n", " ") == label
+    header = panel.csv("load").splitlines()[0]
+    assert all(f"{label} (A)" in header for label in forms["label"])  # whole, one line
+
+
+def test_curve_legends_sit_under_the_plots_never_over_a_curve():
+    # In the top-left corner the temperature legend hid the start of a falling curve
+    # (the LED driver's -26 ppm/K); every curve plot keeps its legend below its frame.
+    panel = DesignPanel(kit.design("divider_source"))
+    for name in ("load", "beta", "temp"):
+        fig = panel.figures[name]
+        (legend,) = fig.legend
+        assert legend in fig.below and legend not in fig.center, name
+
+
+def test_tempco_bars_list_matched_parts_in_schematic_order():
+    # The cascode mirror listed "current gain β_F (Q4, Q1, Q2, Q3)".
+    panel = DesignPanel(kit.design("cascode_mirror", i_ref="200u", v_supply="12 V", v_load="1.6 V"))
+    grouped = [n for n in panel.sources["tempco"].data["name"] if "," in n]
+    assert grouped and all("(Q1, Q2, Q3, Q4)" in n for n in grouped), grouped

@@ -29,6 +29,7 @@ True
 from __future__ import annotations
 
 import math
+import re
 
 import ipywidgets as widgets
 import numpy as np
@@ -83,6 +84,23 @@ def headroom(evaluation):
     v = evaluation.design.values["v_load"]
     low, high = v - c.low.voltage, c.high.voltage - v
     return (low, "low edge") if low <= high else (high, "high edge")
+
+
+# A digit, a space, then a unit (SI prefix and A, V, W, Ω; °C; ppm/K; K; %), not a word.
+_NUMBER_UNIT = re.compile(r"(\d) (?=(?:[fpnµmkMG]?(?:A|V|W|Ω)|°C|ppm/K|K)(?![A-Za-z])|%)")
+
+
+def keep_units(text):
+    """``text`` with a no-break space between each number and the unit after it.
+
+    A narrow column then wraps between words, never as "25.3 / °C".
+
+    Examples
+    --------
+    >>> keep_units("Q2 at 11.9 V, T_j up to 25.3 °C") == "Q2 at 11.9\u00a0V, T_j up to 25.3\u00a0°C"
+    True
+    """
+    return _NUMBER_UNIT.sub("\\1\u00a0", text)
 
 
 def _relative(a, b):
@@ -272,17 +290,18 @@ class ComparePanel:
                        for h in ("", "A", "B", "B against A"))
         body = []
         for quantity, a, b, against in self.rows():
+            a, b, against = (display.escape(keep_units(t)) for t in (a, b, against))
             body.append(f'<tr><td style="{_CELL};color:#444">{display.escape(quantity)}</td>'
-                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{display.escape(a)}</td>'
-                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{display.escape(b)}</td>'
-                        f'<td style="{_CELL};color:#444;white-space:nowrap">{display.escape(against)}</td></tr>')
+                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{a}</td>'
+                        f'<td style="{_CELL};font-variant-numeric:tabular-nums">{b}</td>'
+                        f'<td style="{_CELL};color:#444;white-space:nowrap">{against}</td></tr>')
         self.table.value = (f'<div style="font-family:{theme.FONT};font-size:13px;line-height:1.3;overflow-x:auto">'
                             f'<table style="border-collapse:collapse;width:100%"><tr>{head}</tr>{"".join(body)}'
                             "</table></div>")
 
     # -- the overlaid curves ------------------------------------------------------------
     def _build_figures(self):
-        from bokeh.models import ColumnDataSource, DataRange1d, HoverTool
+        from bokeh.models import ColumnDataSource, DataRange1d, HoverTool, Legend, LegendItem
         from bokeh.plotting import figure
 
         self.sources = {}
@@ -299,32 +318,31 @@ class ComparePanel:
             fig = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT + 40,
                          tools="pan,box_zoom,reset,save", x_axis_label=x_label, **more)
             theme.style_figure(fig)
-            lines, edges = [], []
+            lines, edges, items = [], [], []
             for side in SIDES:
                 colour, dash = STYLE[side]
                 line = fig.line(x, "y", source=self.sources[f"{side}_{name}"], line_color=colour,
-                                line_dash=dash, line_width=2.5, legend_label=side)
+                                line_dash=dash, line_width=2.5)
                 line.name = side  # the hover says which design ("$name")
                 lines.append(line)
                 if name == "load":
+                    # No legend entry of their own: the title says dotted lines are the edges,
+                    # and each is drawn in its design's colour.
                     edges.append(fig.segment(x0="x", x1="x", y0="y0", y1="y1",
                                              source=self.sources[f"{side}_edges"], line_color=colour,
-                                             line_dash="dotted", line_width=1.5,
-                                             legend_label=f"{side}: compliance edges"))
+                                             line_dash="dotted", line_width=1.5))
+                point = fig.scatter("x", "y", source=self.sources[f"{side}_{name}_point"], size=8,
+                                    fill_color="white", line_color=colour, line_width=2)
+                # One entry per design, naming its circuit: curve and design point together.
+                items.append(LegendItem(label=side, renderers=[line, point]))
             if edges:
                 fig.y_range.renderers = edges
-            for side in SIDES:
-                fig.scatter("x", "y", source=self.sources[f"{side}_{name}_point"], size=8, fill_color="white",
-                            line_color=STYLE[side][0], line_width=2)
             hover = HoverTool(renderers=lines, mode="vline", tooltips=[("design", "$name")])
             fig.add_tools(hover)
             self.hovers[name] = hover
-            theme.style_legend(fig)
-            legend = fig.legend[0]
-            fig.center.remove(legend)  # below the plot, never over the curves
-            legend.ncols = 2
-            legend.location = "top_left"
-            fig.add_layout(legend, "below")
+            legend = Legend(items=items, location="top_left")
+            fig.add_layout(legend, "below")  # below the plot, never over the curves; one line per design
+            theme.style_legend(fig, "top_left")
             add_csv_action(fig, f"biasbook-compare-{name}.csv", self.sources, CSV_COLUMNS[name])
             add_svg_action(fig, f"biasbook-compare-{name}.svg")
             name_save_tool(fig)
@@ -355,8 +373,14 @@ class ComparePanel:
             c = evals[side].compliance
             self.sources[f"{side}_edges"].data = {"x": [c.low.voltage, c.high.voltage], "y0": [low - pad] * 2,
                                                   "y1": [high + pad] * 2}
+        from bokeh.core.properties import value
+
+        names = {side: legend_name(side, self.design(side)) for side in SIDES}
         for name, fig in self.figures.items():
             fig.title.text = PLOTS[name][2]
+            for item, side in zip(fig.legend[0].items, SIDES):
+                if getattr(item.label, "value", None) != names[side]:
+                    item.label = value(names[side])  # a bare string would name a data column
             fig.yaxis.axis_label = f"I_out ({unit})"
             self.hovers[name].tooltips = [("design", "$name"), X_TIPS[name], ("I_out", f"@y{{0.000}} {unit}")]
         self._show_tabs()
@@ -401,6 +425,9 @@ class ComparePanel:
         for side in SIDES:
             for box in (self.sides[side].values_box, self.sides[side].conditions_box):
                 box.layout.flex_flow = "column"
+            # The circuit list as wide as its column: a circuit's name is not cut after 30 letters.
+            choice = self.sides[side].topology_choice.widget
+            choice.layout.width, choice.layout.max_width = "100%", "420px"
         self.widget = widgets.VBox([
             _heading("Two designs side by side"), self.table,
             widgets.HBox([self.button, self.status]),
@@ -414,6 +441,11 @@ class ComparePanel:
 def _status(text, error=False):
     colour = theme.FAIL_COLOUR if error else "#444"
     return f'<span style="color:{colour};font-family:{theme.FONT};font-size:13px">{display.escape(text)}</span>'
+
+
+def legend_name(side, design):
+    """A design's legend entry: its letter and circuit (``"A: Wilson current mirror (three transistors), NPN"``)."""
+    return f"{side}: {design.topology.title}, {design.polarity.upper()}"
 
 
 def _name_html(side, design):

@@ -11,6 +11,8 @@ axes.  It imports no Bokeh, so benchmarks and tests can call it alone.
 
 from __future__ import annotations
 
+import re
+import textwrap
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -32,6 +34,8 @@ LOAD_HEADROOM = 0.12  # space above the curves for the edge labels
 DEFAULT_TEMPS = (233.15, 398.15)  # K: -40 … 125 °C, a common rated range (no source)
 LOAD_PAD = 0.08  # fraction of the compliance span drawn beyond each edge ...
 LOAD_PAD_LIMITS = (0.5, 2.0)  # V: ... at least and at most; deep saturation only squashes the plot
+
+LEGEND_LINE = 38  # characters per line of a hand formula's legend entry
 
 SOURCES = ("load", "load_forms", "load_outside", "load_edges", "load_point",
            "beta", "beta_point", "beta_band",
@@ -257,6 +261,8 @@ def _load_columns(columns, labels, design, evaluation, points, load, v_axis, sca
         "xs": [v_axis] * len(form_ys), "ys": [y / factor for y in form_ys],
         "i_out": form_ys, "key": [s.key for s in simplifications],
         "label": [s.label for s in simplifications],
+        # Two legend columns fit under the plot only with lines this short; a long formula wraps.
+        "legend": [textwrap.fill(s.label, LEGEND_LINE, break_long_words=False) for s in simplifications],
         "colour": [theme.FORMS[k % len(theme.FORMS)] for k in range(len(form_ys))],
         "dash": [theme.DASHES[k % len(theme.DASHES)] for k in range(len(form_ys))]}
     # The plot's vertical range (set by the edge segments) follows the curves inside compliance
@@ -338,7 +344,7 @@ def _sensitivity_columns(columns, labels, factors, evaluation):
                     key=lambda s: abs(s.normalised))
     columns["sensitivity"] = {
         "name": [s.parameter for s in ranked], "value": [s.normalised for s in ranked],
-        "text": [f"{s.normalised:+.3f}" for s in ranked],
+        "text": [signed_text(s.normalised) for s in ranked],
         # dI_out/dp in its own unit (A per the parameter's unit, composed and simplified)
         "derivative": [format_with_unit(s.derivative, per("A", s.unit)) for s in ranked],
         "at": [format_quantity(s.value, s.unit, 4) if s.unit else f"{s.value:.4g}" for s in ranked],
@@ -353,7 +359,8 @@ def _sensitivity_columns(columns, labels, factors, evaluation):
 def _tempco_columns(columns, labels, factors, evaluation):
     """5. tempco budget, total at the bottom."""
     # Summed per mechanism: matched parts' opposite terms cancel instead of drawing ±140 000 ppm/K bars.
-    budget = sorted(((f"{m} ({p})" if p else m, v) for m, p, v in tempco_by_mechanism(evaluation.tempco_budget)),
+    budget = sorted(((f"{m} ({part_list(p)})" if p else m, v)
+                     for m, p, v in tempco_by_mechanism(evaluation.tempco_budget)),
                     key=lambda item: abs(item[1]))
     names = ["total (exact)"] + [label for label, _ in budget]
     ppm = [evaluation.tempco * 1e6] + [value * 1e6 for _, value in budget]
@@ -366,6 +373,33 @@ def _tempco_columns(columns, labels, factors, evaluation):
     factors["tempco"] = names
     labels["tempco"] = {"title": "Tempco budget by mechanism",
                         "x": "contribution to (1/I_out) dI_out/dT (ppm/K)", "y": "mechanism"}
+
+
+def part_list(parts):
+    """``"Q1, Q2, Q3, Q4"`` from ``"Q4, Q1, Q2, Q3"``: parts in the order a schematic numbers them.
+
+    Examples
+    --------
+    >>> part_list("Q4, Q10, Q1, D2")
+    'D2, Q1, Q4, Q10'
+    """
+    def key(name):
+        return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", name)]
+
+    return ", ".join(sorted(parts.split(", "), key=key))
+
+
+def signed_text(value):
+    """A bar's label: three decimals, or two digits with an exponent below 0.0005 (never "-0.000").
+
+    Examples
+    --------
+    >>> signed_text(-0.9721), signed_text(2.3e-5), signed_text(0.0)
+    ('-0.972', '+2.3e-05', '0')
+    """
+    if value == 0:
+        return "0"
+    return f"{value:+.3f}" if abs(value) >= 5e-4 else f"{value:+.1e}"
 
 
 def _band(bounds, low, high):

@@ -524,7 +524,7 @@ class DesignPanel:
         self.conditions_box = _wrap()
         self.topology_choice = inputs.Echo(widgets.Dropdown(
             options=[(t.title, t.key) for t in all_topologies()], value=self.design.topology.key,
-            description="circuit", style={"description_width": "52px"}, layout=widgets.Layout(width="300px")),
+            description="circuit", style={"description_width": "52px"}, layout=widgets.Layout(width="auto", max_width="100%")),
             lambda key: self.switch(topology=key))
         self.polarity_choice = inputs.Echo(widgets.ToggleButtons(
             options=list(self.design.topology.polarities), value=self.design.polarity,

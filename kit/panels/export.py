@@ -19,8 +19,8 @@ Examples
 >>> fig = figure(width=200, height=150)
 >>> _ = fig.line([0, 1], [0, 1])
 >>> add_svg_action(fig, "plot.svg")
->>> [t.description for t in fig.tools if t.name == "svg"]
-['Save the figure as SVG']
+>>> [t.description for t in fig.tools if t.name == "svg"] == [TIPS["SVG"]]
+True
 """
 
 from __future__ import annotations
@@ -34,12 +34,54 @@ from pathlib import Path
 
 from kit.errors import DesignError
 
-# A small icon of our own: the letters SVG on a page.
-_ICON = ("data:image/svg+xml;base64," + base64.b64encode(
-    b'<svg xmlns="http://www.w3.org/2000/svg" width="24" height="24" viewBox="0 0 24 24">'
-    b'<rect x="1.5" y="4.5" width="21" height="15" rx="2" fill="none" stroke="#555" stroke-width="1.5"/>'
-    b'<text x="12" y="15.5" font-family="Helvetica,Arial,sans-serif" font-size="8.5" font-weight="700" '
-    b'text-anchor="middle" fill="#555">SVG</text></svg>').decode())
+# The three exports' toolbar icons, drawn here: a glyph for what the file holds above
+# the format's letters, so the buttons differ at a glance and by name.
+#   PNG  a block of pixels (a picture made of dots)
+#   SVG  a curve with its two end handles (a drawing that scales)
+#   CSV  a small table of rows and columns (the numbers)
+_INK = "#4a4a4a"
+_GLYPHS = {
+    "PNG": ('<g fill="%s">' % _INK + "".join(
+        f'<rect x="{3 + 4.6 * c}" y="{0.5 + 3.6 * r}" width="3.6" height="3"/>'
+        for r in range(3) for c in range(4) if c >= 2 - r or (r + c) % 2 == 0) + "</g>"),
+    "SVG": (f'<path d="M4.5 9.5 C 8 -1, 15 12, 19.5 2.5" fill="none" stroke="{_INK}" stroke-width="1.8"/>'
+            f'<rect x="2.5" y="7.7" width="4" height="4" fill="white" stroke="{_INK}" stroke-width="1.3"/>'
+            f'<rect x="17.5" y="0.7" width="4" height="4" fill="white" stroke="{_INK}" stroke-width="1.3"/>'),
+    "CSV": (f'<g fill="none" stroke="{_INK}" stroke-width="1.4"><rect x="3" y="0.9" width="18" height="10.4"/>'
+            '<path d="M3 4.4 H21 M3 7.8 H21 M10 0.9 V11.3"/></g>'),
+}
+
+
+def icon(kind):
+    """The toolbar icon of export ``kind`` (``"PNG"``, ``"SVG"``, ``"CSV"``) as a data URL.
+
+    Examples
+    --------
+    >>> icon("CSV").startswith("data:image/svg+xml;base64,")
+    True
+    >>> icon("PNG") != icon("CSV")
+    True
+    """
+    text = (f'<svg xmlns="http://www.w3.org/2000/svg" width="24" height="24" viewBox="0 0 24 24">{_GLYPHS[kind]}'
+            '<text x="12" y="23.2" font-family="Helvetica,Arial,sans-serif" font-size="11" font-weight="700" '
+            f'text-anchor="middle" textLength="23.5" lengthAdjust="spacingAndGlyphs" fill="{_INK}">{kind}</text>'
+            '</svg>')
+    return "data:image/svg+xml;base64," + base64.b64encode(text.encode()).decode()
+
+
+# What each export button says when the pointer rests on it.
+TIPS = {"PNG": "PNG: a picture of this plot (pixels; for slides and mail)",
+        "SVG": "SVG: this plot as a drawing that scales (for reports and print)",
+        "CSV": "CSV: the numbers this plot shows, as a table (SI units)"}
+
+
+def style_png_button(fig):
+    """Give the figure's own save button (which writes PNG) our PNG icon and words."""
+    for tool in fig.tools:
+        if type(tool).__name__ == "SaveTool":
+            tool.icon = icon("PNG")
+            tool.description = TIPS["PNG"]
+
 
 # Finds the plot's view (in a notebook the figure is the root of its own small
 # document) and asks it for an SVG drawing of itself.
@@ -85,7 +127,7 @@ def add_svg_action(fig, filename):
     """Add a toolbar button that saves ``fig`` as SVG under ``filename`` (runs in the browser)."""
     from bokeh.models import CustomAction, CustomJS
 
-    fig.add_tools(CustomAction(icon=_ICON, description="Save the figure as SVG", name="svg",
+    fig.add_tools(CustomAction(icon=icon("SVG"), description=TIPS["SVG"], name="svg",
                                callback=CustomJS(args={"plot": fig, "filename": filename}, code=_SAVE_JS)))
 
 

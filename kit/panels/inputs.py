@@ -75,10 +75,12 @@ class ValueField:
     def __init__(self, spec, on_text, on_step=None):
         self.spec = spec
         unit = f" ({spec.unit})" if spec.unit else ""
+        hint = " (a tolerance may follow: 4k7 5%)" if on_step else ""
+        if spec.unit == "1/K":  # the field shows ppm/K; a bare number would be read per kelvin
+            hint = " (write it with its unit: 20 ppm/K; a bare 20 would mean 20 per kelvin)"
         self.text = widgets.Text(
             value="", description=f"{spec.name}{unit}", continuous_update=False,
-            tooltip=spec.description + (" (a tolerance may follow: 4k7 5%)" if on_step else ""),
-            placeholder=spec.unit or "number",
+            tooltip=spec.description + hint, placeholder="ppm/K" if spec.unit == "1/K" else spec.unit or "number",
             style={"description_width": LABEL_WIDTH}, layout=widgets.Layout(width="250px"))
         self.echo = Echo(self.text, lambda text: on_text(spec.name, text))
         parts = [self.text]

@@ -18,14 +18,46 @@ from kit.quantities import format_quantity, format_temperature
 CELL = "padding:3px 10px;border-bottom:1px solid #d8d8d8;text-align:left;vertical-align:middle"
 HEAD = CELL + ";background:#eef2f5;font-weight:600"
 NUMBER = CELL + ";text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap"
+NOTE = CELL + ";color:#444;font-size:12px;padding-top:0"
+# Takes the width it is given and adds none of its own (width 0, at least all there is): a
+# long formula scrolls inside its own box instead of pushing the numbers off a laptop screen.
+FITS = "width:0;min-width:100%;overflow-x:auto"
+# The math widget sizes its content box to the content; this one fills the view instead,
+# so the equations and the formula cells above have a width to fit into.
+_FILL = "<style>.widget-htmlmath-content:has(> .biasbook-ledger){flex:1 1 0;min-width:0}</style>"
 
 
-def _table(headers, rows, numeric=()):
+def _table(headers, rows, numeric=(), notes=None):
+    """An HTML table; ``notes[k]`` (HTML or None) goes on a full-width line under row ``k``.
+
+    A closed form and what it assumes are wide: under the row of numbers they
+    read whole, instead of squeezing a column to a word per line or pushing
+    the numbers past the right edge of a laptop screen.
+    """
     head = "".join(f'<th style="{HEAD}">{display.escape(h)}</th>' for h in headers)
-    body = "".join(
-        "<tr>" + "".join(f'<td style="{NUMBER if k in numeric else CELL}">{cell}</td>'
-                         for k, cell in enumerate(row)) + "</tr>" for row in rows)
-    return f'<table style="border-collapse:collapse;margin:4px 0 10px">{head and "<tr>" + head + "</tr>"}{body}</table>'
+    body = []
+    for k, row in enumerate(rows):
+        note = notes[k] if notes else None
+        under = ";border-bottom:none" if note else ""
+        body.append("<tr>" + "".join(f'<td style="{(NUMBER if j in numeric else CELL) + under}">{cell}</td>'
+                                     for j, cell in enumerate(row)) + "</tr>")
+        if note:
+            body.append(f'<tr><td colspan="{len(row)}" style="{NOTE}">{note}</td></tr>')
+    return (f'<table style="border-collapse:collapse;margin:4px 0 10px">{head and "<tr>" + head + "</tr>"}'
+            f'{"".join(body)}</table>')
+
+
+def error_text(error):
+    """A relative error in percent: three decimals, or two digits and an exponent below 0.0005 %.
+
+    Examples
+    --------
+    >>> error_text(0.02027), error_text(-2.1e-7), error_text(0.0)
+    ('+2.027%', '-2.1e-05 %', '0%')
+    """
+    if error == 0:
+        return "0%"
+    return f"{error:+.3%}" if abs(error) >= 5e-6 else f"{100 * error:+.1e} %"
 
 
 @lru_cache(maxsize=64)
@@ -35,7 +67,7 @@ def _equations_html(topology, polarity):
 
     der = derivation(topologies.get(topology), polarity)
     unknowns = ", ".join(der.unknowns_latex)
-    lines = "".join(f"<div>$${r}$$</div>" for r in [*der.residuals_latex, *der.laws_latex])
+    lines = "".join(f'<div style="overflow-x:auto">$${r}$$</div>' for r in [*der.residuals_latex, *der.laws_latex])
     return (f"<p>Unknown node voltages ${unknowns}$. One current balance per unknown node, "
             "with the full large-signal device laws:</p>" + lines
             + "<p>The exact sensitivities are those of the solved point, by implicit differentiation "
@@ -58,15 +90,17 @@ def ledger_html(evaluation):
     design = evaluation.design
     top = design.topology
     exact = evaluation.i_out
-    rows = [["<b>exact solve</b>", "the equations above, solved numerically",
-             format_quantity(exact, "A", 5), "—", format_quantity(evaluation.tempco, "ppm/K"), "none"]]
+    rows = [["<b>exact solve</b> (the equations above, solved numerically)", format_quantity(exact, "A", 5), "—",
+             format_quantity(evaluation.tempco, "ppm/K")]]
+    notes = [None]
     for entry in evaluation.ledger:
-        rows.append([display.escape(entry.label), f"$${entry.latex}$$", format_quantity(entry.value, "A", 5),
-                     f"{entry.error:+.3%}", format_quantity(entry.tempco, "ppm/K"),
-                     display.escape("; ".join(entry.assumptions))
-                     + f'<br><span style="color:#666;font-size:11px">{display.escape(entry.source)}</span>'])
-    ledger = _table(["simplification", "closed form for I_out", "value here", "error vs exact", "tempco",
-                     "what it assumes"], rows, numeric=(2, 3, 4))
+        rows.append([display.escape(entry.label), format_quantity(entry.value, "A", 5), error_text(entry.error),
+                     format_quantity(entry.tempco, "ppm/K")])
+        notes.append(f'<div style="{FITS}">$${entry.latex}$$</div>'
+                     "assumes " + display.escape("; ".join(entry.assumptions))
+                     + f'<br><span style="color:#666;font-size:11px">{display.escape(entry.source)}</span>')
+    ledger = _table(["simplification and its closed form for I_out", "value here", "error vs exact", "tempco"],
+                    rows, numeric=(1, 2, 3), notes=notes)
     r_rows = [["exact, from dI_out/dV_load", format_quantity(evaluation.r_out, "Ω", 4), "—"]]
     for key, value in evaluation.r_out_forms.items():
         error = (value - evaluation.r_out) / evaluation.r_out if evaluation.r_out else float("nan")
@@ -75,7 +109,7 @@ def ledger_html(evaluation):
     point = (f"{format_temperature(design.temp)}, "
              + ", ".join(f"{v.name} = {format_quantity(design.values[v.name], v.unit, 4) if v.unit else design.values[v.name]}"
                          for v in top.values))
-    return (f'<div style="font-family:Helvetica,Arial,sans-serif;font-size:13px;max-width:72em">'
+    return (_FILL + '<div class="biasbook-ledger" style="font-family:Helvetica,Arial,sans-serif;font-size:13px">'
             f'<h4 style="margin:6px 0">{display.escape(top.title)} ({design.polarity.upper()}): exact equations</h4>'
             + _equations_html(top.key, design.polarity)
             + f'<h4 style="margin:10px 0 4px">Ledger at the present point</h4>'

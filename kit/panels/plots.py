@@ -15,11 +15,13 @@ from bokeh.models import (ColumnDataSource, CustomAction, CustomJS, DataRange1d,
 from bokeh.plotting import figure
 
 from kit.panels import theme
-from kit.panels.export import add_svg_action
+from kit.panels.export import TIPS, add_svg_action, icon, style_png_button
 from kit.panels.curves import SOURCES
 
 FIGURES = ("load", "beta", "temp", "sensitivity", "tempco")
-TOOLS = "pan,box_zoom,wheel_zoom,reset,save"
+# No wheel zoom: in a notebook the wheel scrolls the page, and a seventh button folds
+# the exports into a menu on the load plot.
+TOOLS = "pan,box_zoom,reset,save"
 
 
 def _empty_sources():
@@ -61,7 +63,7 @@ def _load_figure(src):
     fig.add_layout(LabelSet(x="x", y="y_text", text="text", source=src["load_edges"], x_offset="offset",
                             y_offset="lift", text_align="align", text_font_size="10px", text_color=theme.EDGE))
     fig.multi_line(xs="xs", ys="ys", source=src["load_forms"], line_color="colour", line_dash="dash",
-                   line_width=2, legend_field="label")
+                   line_width=2, legend_field="legend")
     exact = fig.line("v_load", "y", source=src["load"], line_color=theme.INK, line_width=3,
                      legend_label="exact solve")
     fig.add_tools(HoverTool(renderers=[exact], name="hover", mode="vline",
@@ -71,24 +73,25 @@ def _load_figure(src):
     legend = fig.legend[0]
     fig.center.remove(legend)  # below the plot: seven entries would hide the curves
     legend.ncols = 2
+    legend.spacing = 3  # a hand formula's entry may take two or three lines: keep entries apart
     legend.location = "top_left"
     fig.add_layout(legend, "below")
     return fig
 
 
 def _beta_figure(src):
-    fig = _curve_figure()
+    fig = _curve_figure(theme.PLOT_HEIGHT + theme.LEGEND_ROWS)
     _band(fig, src["beta_band"], "spec range")
     line = fig.line("beta", "y", source=src["beta"], line_color=theme.INK, line_width=3, legend_label="exact solve")
     fig.add_tools(HoverTool(renderers=[line], name="hover", mode="vline",
                             tooltips=[("β_F", "@beta{0.0}"), ("I_out", "@y{0.000} A")]))
     _point(fig, src["beta_point"])
-    theme.style_legend(fig, "bottom_right")
+    _legend_below(fig)
     return fig
 
 
 def _temp_figure(src):
-    fig = _curve_figure()
+    fig = _curve_figure(theme.PLOT_HEIGHT + theme.LEGEND_ROWS)
     _band(fig, src["temp_band"], "spec range")
     line = fig.line("temp_c", "y", source=src["temp"], line_color=theme.INK, line_width=3,
                     legend_label="exact, junctions at ambient")
@@ -97,12 +100,22 @@ def _temp_figure(src):
     fig.line("temp_c", "y", source=src["temp_heated"], line_color=theme.HEATED, line_width=2,
              line_dash="dashed", legend_label="exact, with self-heating")
     _point(fig, src["temp_point"])
-    theme.style_legend(fig, "top_left")
+    _legend_below(fig)
     return fig
 
 
+def _legend_below(fig):
+    """The legend in two columns under the plot: in a corner it hid a falling curve's start."""
+    theme.style_legend(fig, "top_left")
+    legend = fig.legend[0]
+    fig.center.remove(legend)
+    legend.ncols = 2
+    legend.spacing = 3
+    fig.add_layout(legend, "below")
+
+
 def _bar_figure(source, factors, tooltips):
-    fig = figure(width=theme.PLOT_WIDTH, height=theme.BAR_HEIGHT, tools="save,reset",
+    fig = figure(width=theme.PLOT_WIDTH, height=theme.BAR_HEIGHT, tools="reset,save",
                  y_range=FactorRange(factors=list(factors)), x_axis_label="", y_axis_label="")
     theme.style_figure(fig)
     bars = fig.hbar(y="name", right="value", left=0, height=0.65, source=source, fill_color="colour",
@@ -158,8 +171,7 @@ def add_csv_action(fig, filename, sources, columns, forms=None):
     used = {k for k, _, _ in columns}
     callback = CustomJS(args={"sources": {k: sources[k] for k in used}, "columns": [list(c) for c in columns],
                               "forms": forms, "filename": filename}, code=_CSV_JS)
-    fig.add_tools(CustomAction(icon="arrow_down_to_bar", description="Save this plot's numbers as CSV",
-                               callback=callback, name="csv"))
+    fig.add_tools(CustomAction(icon=icon("CSV"), description=TIPS["CSV"], callback=callback, name="csv"))
 
 
 def _add_csv_action(fig, name, sources):
@@ -168,15 +180,14 @@ def _add_csv_action(fig, name, sources):
 
 
 def name_save_tool(fig):
-    """Say on the plot's own save button that it writes PNG (beside the SVG one).
+    """Show on the plot's own save button that it writes PNG (beside the SVG and CSV ones).
 
     The hover stays on without a button of its own: a toolbar longer than the
     plot folds its last buttons (the exports) into a menu.
     """
+    style_png_button(fig)
     for tool in fig.tools:
-        if type(tool).__name__ == "SaveTool":
-            tool.description = "Save the figure as PNG"
-        elif type(tool).__name__ == "HoverTool":
+        if type(tool).__name__ == "HoverTool":
             tool.visible = False
 
 

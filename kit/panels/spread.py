@@ -20,7 +20,7 @@ from bokeh.models import Span
 from bokeh.plotting import figure
 
 from kit.panels import theme
-from kit.panels.export import add_svg_action
+from kit.panels.export import add_svg_action, style_png_button
 
 CURVES = (("low", "β low", theme.FORMS[0], "dashed"),
           ("nominal", "β nominal", theme.INK, "solid"),
@@ -52,9 +52,7 @@ def spread_figure(result, *, width=theme.PLOT_WIDTH + 60, height=theme.PLOT_HEIG
     # beside the plot, not over the curves
     fig.add_layout(fig.legend[0], "right")
     add_svg_action(fig, "biasbook-spread.svg")
-    for tool in fig.tools:
-        if type(tool).__name__ == "SaveTool":
-            tool.description = "Save the figure as PNG"
+    style_png_button(fig)
     return fig
 
 

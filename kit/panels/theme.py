@@ -27,6 +27,7 @@ FONT = "Helvetica, Arial, sans-serif"
 PLOT_WIDTH = 560
 PLOT_HEIGHT = 300
 LOAD_HEIGHT = 400  # the load plot carries its legend below
+LEGEND_ROWS = 50  # px added to a plot that carries a two-row legend below its frame
 BAR_HEIGHT = 300
 
 _PREFIXES = {0: "", -3: "m", -6: "µ", -9: "n", -12: "p", -15: "f"}

@@ -34,6 +34,8 @@ CSV_COLUMNS = {
                ("budget", "swing", "swing of I_out alone (A)")],
 }
 _CELL = "padding:2px 10px;border-bottom:1px solid #d8d8d8"
+_KEEP = _CELL + ";white-space:nowrap"
+_NUMBER = _KEEP + ";text-align:right;font-variant-numeric:tabular-nums"
 
 
 def _verdict(passed):
@@ -80,7 +82,9 @@ class WorstCaseView:
                         "limits": ColumnDataSource(data={"x": [], "y1": [], "text": [], "align": [],
                                                          "offset": []}),
                         "budget": ColumnDataSource(data={"name": [], "share": [], "text": [], "swing": []})}
-        hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="pan,box_zoom,reset,save",
+        # Box zoom and reset only beside the exports: on a plot this short a longer toolbar
+        # folds its last buttons (the SVG one) into a menu.
+        hist = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="box_zoom,reset,save",
                       title="Monte Carlo: not run yet", x_axis_label="I_out", y_axis_label="samples")
         bars = hist.quad(left="left", right="right", bottom=0, top="top", source=self.sources["histogram"],
                          fill_color="colour", line_color="white",
@@ -92,11 +96,13 @@ class WorstCaseView:
                      line_width=2, line_dash="dashed", legend_label="spec limits")
         # Each label inside its limit (the high one to its left), never past the plot's edge.
         hist.add_layout(LabelSet(x="x", y="y1", text="text", source=self.sources["limits"], x_offset="offset",
-                                 text_align="align", text_font_size="10px", text_color=theme.LIMIT))
+                                 text_align="align", text_baseline="top", text_font_size="10px",
+                                 text_color=theme.LIMIT))  # hangs from the top of its line, inside the frame
         theme.style_legend(theme.style_figure(hist))
         legend = hist.legend[0]
         hist.center.remove(legend)  # below: the limit labels sit in the plot's top corners
         legend.orientation = "horizontal"
+        legend.spacing = 18  # side by side, the entries need air between them
         hist.add_layout(legend, "below")
         budget = figure(width=theme.PLOT_WIDTH, height=theme.PLOT_HEIGHT, tools="save",
                         y_range=FactorRange(factors=[]), title="Error budget: each factor alone (exact solve)",
@@ -188,15 +194,16 @@ class WorstCaseView:
         rows = []
         for m in result.methods.values():
             extra = f", yield {m.detail['yield']:.2%}" if "yield" in m.detail else ""
-            rows.append(f'<tr><td style="{_CELL}">{display.escape(m.method)}</td>'
-                        f'<td style="{_CELL};text-align:right">{format_quantity(m.low, "A", 4)}</td>'
-                        f'<td style="{_CELL};text-align:right">{format_quantity(m.high, "A", 4)}</td>'
-                        f'<td style="{_CELL};text-align:right">{m.margin:+.2%}</td>'
-                        f'<td style="{_CELL}">{_verdict(m.passed)}{extra}</td>'
+            # A number and its unit on one line; only the "how" words wrap on a narrow screen.
+            rows.append(f'<tr><td style="{_KEEP}">{display.escape(m.method)}</td>'
+                        f'<td style="{_NUMBER}">{format_quantity(m.low, "A", 4)}</td>'
+                        f'<td style="{_NUMBER}">{format_quantity(m.high, "A", 4)}</td>'
+                        f'<td style="{_NUMBER}">{m.margin:+.2%}</td>'
+                        f'<td style="{_KEEP}">{_verdict(m.passed)}{extra}</td>'
                         f'<td style="{_CELL};color:#555">{display.escape(m.detail.get("how", ""))}</td></tr>')
         lo, hi = result.spec.limits
-        head = "".join(f'<th style="{_CELL};background:#eef2f5;text-align:left">{h}</th>'
-                       for h in ("method", "lowest", "highest", "margin to spec", "verdict", "how"))
+        head = "".join(f'<th style="{_KEEP};background:#eef2f5;text-align:left">{h}</th>'
+                       for h in ("method", "lowest", "highest", "margin", "verdict", "how"))
         reasons = "".join(f"<li>{display.escape(r)}</li>" for r in result.reasons())
         # Every verdict says over what it holds (record text escaped).
         over = "".join(f"<li>{display.escape(line)}</li>" for line in box_lines(result))
@@ -236,8 +243,8 @@ class SynthesisView:
                                      layout=widgets.Layout(width="220px"))
         self.button.on_click(lambda _: self.run())
         self.status = widgets.HTML(_status(
-            f"Tries {', '.join(self.topologies)} ({', '.join(self.polarities)}) starting from the design as it "
-            "is now; takes seconds per topology."))
+            f"Tries {'; '.join(_circuit(t) for t in self.topologies)} ({', '.join(p.upper() for p in self.polarities)}) "
+            "starting from the design as it is now; takes seconds per circuit."))
         self.rows = widgets.VBox()
         self.widget = widgets.VBox([widgets.HBox([self.button, self.status]), self.rows])
 
@@ -255,12 +262,14 @@ class SynthesisView:
         self.load_buttons = []
         rows = []
         for rank, candidate in enumerate(result.candidates, 1):
-            button = widgets.Button(description="load into the panel", layout=widgets.Layout(width="170px"))
+            button = widgets.Button(description="load into the panel",
+                                    layout=widgets.Layout(width="auto", min_width="170px", flex="0 0 auto"))
             button.on_click(lambda _, d=candidate.design: self.panel.load(d))
             self.load_buttons.append(button)
             rows.append(widgets.HBox([button, widgets.HTML(self._candidate_html(rank, candidate))]))
         for key, reasons in result.infeasible.items():
-            rows.append(widgets.HTML(_status(f"{key} cannot meet the spec: {'; '.join(reasons)}", error=True)))
+            rows.append(widgets.HTML(_status(f"{_circuit(key)} cannot meet the spec: {'; '.join(reasons)}",
+                                             error=True)))
         self.rows.children = rows
         self.status.value = _status(f"{_count(len(result.candidates), 'candidate')} in {result.series} values, "
                                     "ranked by extreme-value margin.")
@@ -269,12 +278,29 @@ class SynthesisView:
     @staticmethod
     def _candidate_html(rank, c):
         d = c.design
-        values = ", ".join(f"{v.name} " + (format_quantity(d.values[v.name], v.unit, 4) if v.unit
-                                            else f"{d.values[v.name]:g}") for v in d.topology.values)
+        values = ", ".join(f"{v.name} " + (format_quantity(d.values[v.name], v.unit, 4).replace(" ", "\u00a0")
+                                            if v.unit else f"{d.values[v.name]:g}") for v in d.topology.values)
         return (f'<span style="font-family:{theme.FONT};font-size:13px"><b>{rank}. {display.escape(d.topology.title)} '
                 f'({d.polarity.upper()})</b> {_verdict(c.passed)} margin {c.margin:+.2%}; nominal '
-                f'{format_quantity(c.nominal, "A", 4)}, worst case {format_quantity(c.low, "A", 4)} … '
-                f'{format_quantity(c.high, "A", 4)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+                f'{_amperes(c.nominal)}, worst case {_amperes(c.low)} … '
+                f'{_amperes(c.high)}<br><span style="color:#555">{display.escape(values)}</span></span>')
+
+
+def _amperes(value):
+    """A current with its unit kept on the same line (a no-break space between them)."""
+    return format_quantity(value, "A", 4).replace(" ", "\u00a0")
+
+
+def _circuit(key):
+    """A circuit's title for its key (``"basic_mirror"``, or ``"basic_mirror/npn"`` with its polarity)."""
+    from kit import topologies
+
+    name, _, polarity = key.partition("/")
+    try:
+        title = topologies.get(name).title
+    except DesignError:
+        return key
+    return f"{title} ({polarity.upper()})" if polarity else title
 
 
 def _count(n, noun):
