@@ -265,7 +265,7 @@ def test_scan_gives_the_design_point_as_solved_alone(key, polarity):
 
     design = kit.design(key, polarity)
     model, values = model_of(design), design.parameters()
-    _, point = compliance_and_point(model, values)
+    _, point, _ = compliance_and_point(model, values)
     alone = solve_points(model, values)
     assert point is not None and point.size == 1 and bool(point.converged[0])
     np.testing.assert_allclose(point.x, alone.x, rtol=1e-15, atol=0)

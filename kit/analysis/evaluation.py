@@ -315,12 +315,12 @@ def evaluate(design, *, edge="vce_sat", reuse=None, self_heating=True, network=N
         raise ParameterError("must be a thermal network", parameter="network", value=type(network).__name__,
                              valid="kit.analysis.thermal.ThermalNetwork or None")
     same = _same_but_load(reuse, design, values, edge, self_heating, network)
-    points = None
+    points = cold = None
     try:
         if same:
             electrical = same.electrical_compliance
         else:  # the compliance scan solves the design point among its own
-            electrical, points = compliance_and_point(model, values, edge=edge)
+            electrical, points, cold = compliance_and_point(model, values, edge=edge)
     except OperatingPointError as err:
         raise _supply_error(model, values, design, edge) from err
     if points is None:
@@ -328,7 +328,7 @@ def evaluate(design, *, edge="vce_sat", reuse=None, self_heating=True, network=N
     if same:
         compliance, thermal = same.compliance, same.thermal_runaway
     elif self_heating:
-        compliance, thermal = _thermal_limits(model, values, electrical, network)
+        compliance, thermal = _thermal_limits(model, values, electrical, network, cold)
     else:
         compliance, thermal = electrical, None
     v_load = values["v_load"]
@@ -412,7 +412,7 @@ def evaluate(design, *, edge="vce_sat", reuse=None, self_heating=True, network=N
         electrical_compliance=electrical)
 
 
-def _thermal_limits(model, values, electrical, network):
+def _thermal_limits(model, values, electrical, network, cold=None):
     """``(compliance, threshold)``: the electrical range cut where self-heating runs away, and the cut.
 
     The evaluation holds the junctions at the design temperature; this asks
@@ -420,12 +420,14 @@ def _thermal_limits(model, values, electrical, network):
     electrothermal point (:func:`kit.analysis.thermal.stable_load_range`).
     An end where it has none is a compliance edge of its own, named
     after the hottest part there; ``threshold`` is None when nothing is cut.
+    ``cold`` is the compliance scan (load voltages, points at no rise): the
+    self-heated iteration starts from the powers it found.
     """
     if not heated_parts(model):
         return electrical, None
     span = (electrical.low.voltage, electrical.high.voltage)
     try:
-        low, high = stable_load_range(model, values, span, network)
+        low, high = stable_load_range(model, values, span, network, cold=cold)
     except ConvergenceError:  # no load voltage has a stable point: nothing is in compliance
         from kit.analysis.thermal import runaway_error, solve_self_heated
 

@@ -230,7 +230,8 @@ def _solve_rises(model, values, heated, rises, x0, slopes=False):
     if not slopes:
         return _solve_at(model, values, heated, rises, x0), None
     size, copies = rises.shape[1], len(heated) + 1
-    tiled = {k: np.tile(np.broadcast_to(v, (size,)), copies) if np.ndim(v) else v for k, v in values.items()}
+    tiled = {k: v if isinstance(v, (float, int)) or np.ndim(v) == 0 else np.tile(np.broadcast_to(v, (size,)), copies)
+             for k, v in values.items()}
     steps = np.concatenate([rises] + [rises + DERIVATIVE_STEP * np.eye(len(heated))[:, [k]]
                                       for k in range(len(heated))], axis=1)
     start = None if x0 is None else np.tile(np.broadcast_to(x0, (len(model.unknowns), size)), copies)
@@ -249,7 +250,7 @@ def loop_gain(theta, slopes):
     return np.max(np.linalg.eigvals(theta @ slopes).real, axis=-1)
 
 
-def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
+def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE, cold_powers=None):
     """Exact operating points with every heated part at its electrothermal steady state.
 
     Parameters
@@ -262,6 +263,10 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
         Mutual resistances and heatsinks; default: each part alone.
     tolerance : float
         K: a rise is settled when one more step moves it less than this.
+    cold_powers : ndarray, optional
+        Each heated part's power with no rise (H, N), if already known (a
+        scan at the ambient): the iteration starts from the rises they give,
+        its first step, instead of solving the cold points first.
 
     Returns
     -------
@@ -283,13 +288,17 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
     network = network or ThermalNetwork()
     size = np.broadcast_shapes(*(np.shape(v) for v in values.values()))
     size = size[0] if size else 1
+    theta = _as_matrix(network.matrix(heated, {n: values[f"{n}.theta_ja"] for n in heated}), size)
+    ambient = np.broadcast_to(np.asarray(values["temp"], dtype=float), (size,))
     rises = np.zeros((len(heated), size))
+    if cold_powers is not None:  # the first step from cold, known without a solve
+        rises = np.clip(np.einsum("nij,jn->in", theta, np.maximum(cold_powers, 0.0)), 0.0,
+                        RUNAWAY_TEMPERATURE - ambient)
     # The Newton steps and the loop gain at the end need dP/dT.  For a few points it is
     # solved with every step, beside them (a call costs more than its points); for many
     # (a Monte Carlo run) only when needed, after them (then the points cost most).
     beside = size * (len(heated) + 1) <= SLOPES_BESIDE_POINTS
     points, slopes = _solve_rises(model, values, heated, rises, None, beside)
-    theta = _as_matrix(network.matrix(heated, {n: values[f"{n}.theta_ja"] for n in heated}), points.size)
     runaway = np.zeros(points.size, dtype=bool)
     capped = np.zeros(points.size, dtype=bool)
     gain = np.zeros(points.size)
@@ -315,7 +324,6 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE):
             if np.any(live):
                 delta[:, live] = np.linalg.solve(jac[live], (target - rises)[:, live].T[..., None])[..., 0].T
             new = rises + delta
-        ambient = np.broadcast_to(np.asarray(values["temp"], dtype=float), (points.size,))
         capped |= np.any(ambient + new > RUNAWAY_TEMPERATURE, axis=0) & ~runaway & ~settled
         rises = np.where(runaway | settled, rises, np.clip(new, 0.0, RUNAWAY_TEMPERATURE - ambient))
         points, slopes = _solve_rises(model, values, heated, rises, points.x, beside)
@@ -522,7 +530,7 @@ def runaway_threshold(model, values, v_range, network=None, points=65):
     return _edge(model, values, grid[last], grid[first], float(solved.loop_gain[last]), network, (lo, hi), side)
 
 
-def stable_load_range(model, values, v_range, network=None, points=65):
+def stable_load_range(model, values, v_range, network=None, points=65, cold=None):
     """The stretch of load voltages with a stable electrothermal point around the design's own.
 
     The load voltage is stepped across ``v_range`` (with the design's own
@@ -558,8 +566,16 @@ def stable_load_range(model, values, v_range, network=None, points=65):
     lo, hi = float(v_range[0]), float(v_range[1])
     nominal = float(np.clip(values["v_load"], lo, hi))
     grid = np.unique(np.append(np.linspace(lo, hi, points), nominal))
+    powers = None
+    if cold is not None:  # the parts' powers with no rise, read between the scan's load voltages
+        v_cold, cold_points = cold
+        known = cold_points.converged
+        if np.count_nonzero(known) >= 2:
+            heated = heated_parts(model)
+            powers = np.array([np.interp(grid, v_cold[known], p[known]) for p in _powers(cold_points, heated)])
     # Which steps are stable needs no micro-kelvin rises; the edges are narrowed at full precision.
-    solved = solve_self_heated(model, values | {"v_load": grid}, network, tolerance=SCAN_RISE_TOLERANCE)
+    solved = solve_self_heated(model, values | {"v_load": grid}, network, tolerance=SCAN_RISE_TOLERANCE,
+                               cold_powers=powers)
     bad = _unstable(solved)
     if not np.any(bad):
         return None, None

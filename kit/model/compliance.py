@@ -15,6 +15,7 @@ the cause at each end.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -91,13 +92,15 @@ def find_compliance(model, values, *, edge="vce_sat", window=None):
 
 
 def compliance_and_point(model, values, *, edge="vce_sat", window=None):
-    """``(compliance, design point)``: :func:`find_compliance` and the scan's own solve at ``values["v_load"]``.
+    """``(compliance, design point, scan)``: :func:`find_compliance` with what its scan solved.
 
     The scan holds the nominal load voltage among its points, solved exactly
     as :func:`kit.model.solve.solve_points` solves it alone (each point
     iterates on its own); the second item is that point
     (:class:`~kit.model.solve.OperatingPoints` of size 1), or None if it did
-    not converge within the scan's steps (solve it on its own then).
+    not converge within the scan's steps (solve it on its own then).  The
+    third is ``(load voltages, OperatingPoints)`` of the scan's first pass
+    (a point that did not converge there is marked so).
     """
     check_edge(edge)
     window = window or search_window(model, values)
@@ -113,7 +116,7 @@ def compliance_and_point(model, values, *, edge="vce_sat", window=None):
             parameter="v_supply", value=values["v_supply"],
             valid="a supply and bias that turn the circuit on")
     low, high = _refine_edges(model, values, edge, scan, [(chosen[0], -1), (chosen[1], +1)])
-    return Compliance(low, high, edge), scan.point(at)
+    return Compliance(low, high, edge), scan.point(at), (grid, scan.points)
 
 
 class _Scan:
@@ -214,8 +217,8 @@ def _refine_edges(model, values, edge, scan, ends):
             continue
         near = [j for j in (index - 2 * direction, index - direction, index, outside, outside + direction)
                 if 0 <= j < len(grid)]
-        active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j], _by_key(scan.margin_keys, scan.table[:, j]))
-                                              for j in near]))
+        by_key = _MarginsByKey(scan.margin_keys, scan.table)
+        active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j], by_key.at(j)) for j in near]))
     done = []
     for _ in range(60):
         done += [b for b in active if b.width <= EDGE_TOLERANCE / 4]
@@ -226,10 +229,10 @@ def _refine_edges(model, values, edge, scan, ends):
         points = solve_points(model, values | {"v_load": np.concatenate(trial)})
         margin_keys, table = points.margin_table(edge)
         margin, limits = worst_of(margin_keys, table)
+        by_key = _MarginsByKey(margin_keys, table)
         at = 0
         for bracket, v_load in zip(active, trial):
-            bracket.add([(v, margin[j], limits[j], _by_key(margin_keys, table[:, j]))
-                         for j, v in enumerate(v_load, start=at)])
+            bracket.add([(v, margin[j], limits[j], by_key.at(j)) for j, v in enumerate(v_load, start=at)])
             at += len(v_load)
     for bracket in done + active:
         a, (part, cause) = bracket.inside[0], bracket.outside[2]
@@ -237,14 +240,21 @@ def _refine_edges(model, values, edge, scan, ends):
     return edges
 
 
-def _by_key(keys, column):
-    return dict(zip(keys, column.tolist()))
+class _MarginsByKey:
+    """Every margin of a solve, looked up by ``(part, cause)`` at one of its points (built only when asked)."""
+
+    def __init__(self, keys, table):
+        self.index, self.table = {key: row for row, key in enumerate(keys)}, table
+
+    def at(self, point):
+        return lambda key, default: float(self.table[self.index[key], point]) if key in self.index else default
 
 
 class _Bracket:
     """The load voltages solved near one edge, in search order.
 
-    Each sample is ``(v_load, smallest margin, its key, every margin by key)``.
+    Each sample is ``(v_load, smallest margin, its key, margin of a key)``; the
+    last is a function ``(key, default) -> margin`` at that load voltage.
     """
 
     def __init__(self, edge, direction, samples):
@@ -281,7 +291,7 @@ class _Bracket:
         if self.at > 0:
             # Inside: the margin that ends the range, followed up to the edge.
             limiting = self.outside[2]
-            behind = [(s[0], s[3].get(limiting, s[1])) for s in self.samples[:self.at + 1]]
+            behind = [(s[0], s[3](limiting, s[1])) for s in self.samples[:self.at + 1]]
             estimates.append(_secant(*behind[-2:]))
             if len(behind) == 3:  # and its curvature: a saturation margin bends gently
                 estimates.append(_parabola_root(behind, a, b))
@@ -320,12 +330,20 @@ def _parabola_root(samples, a, b):
         # f(v) = f0 + f01 (v - x0) + curvature (v - x0)(v - x1), written in powers of (v - a)
         u0, u1 = x0 - a, x1 - a
         coefficients = np.array([curvature, f01 - curvature * (u0 + u1), f0 - f01 * u0 + curvature * u0 * u1])
-    if not np.all(np.isfinite(coefficients)) or not np.any(coefficients[:2]):
+    c2, c1, c0 = coefficients
+    if not np.all(np.isfinite(coefficients)) or (c2 == 0 and c1 == 0):
         return None
-    roots = np.roots(coefficients)
-    roots = roots[np.isreal(roots)].real + a
-    roots = roots[(roots - a) * (roots - b) < 0]
-    return float(roots[np.argmin(np.abs(roots - a))]) if roots.size else None
+    if c2 == 0:
+        roots = [-c0 / c1]
+    else:
+        discriminant = c1 * c1 - 4 * c2 * c0
+        if discriminant < 0:
+            return None
+        # The numerically stable pair: no cancellation between c1 and the root of the discriminant.
+        q = -0.5 * (c1 + math.copysign(math.sqrt(discriminant), c1))
+        roots = [q / c2] + ([c0 / q] if q != 0 else [])
+    between = [v for v in (r + a for r in roots) if (v - a) * (v - b) < 0]
+    return float(min(between, key=lambda v: abs(v - a))) if between else None
 
 
 def _inside(margin):

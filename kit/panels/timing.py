@@ -15,15 +15,20 @@ import time
 import numpy as np
 
 PHASES = ("evaluate", "sweeps", "views", "widgets")
+# Changes made, not timed, before the timed ones: a kernel the designer has been typing into
+# (the first changes of a fresh process pay for first-time allocations, up to half again).
+WARMUP = 5
 
 
-def measure_update(topology="divider_source", polarity="npn", changes=20, points=200, series="E24", value=None):
+def measure_update(topology="divider_source", polarity="npn", changes=20, points=200, series="E24", value=None,
+                   warmup=WARMUP):
     """Median seconds of ``changes`` panel updates, in total and by phase.
 
     The value changed is the topology's first resistor, stepped through its
     standard values around the default (a new design each time); with
     ``value="v_load"`` the load voltage, stepped across compliance as its
-    slider does (the compliance edges are then reused).  Phases:
+    slider does (the compliance edges are then reused).  ``warmup`` other
+    values are applied first, untimed.  Phases:
     ``evaluate`` (:func:`kit.evaluate` and its headline), ``sweeps`` (the open
     plot's columns), ``widgets`` (sources, axis texts and input widgets
     updated in place and sent), ``views`` (schematic and ledger HTML when
@@ -58,11 +63,18 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
     if value == "v_load":
         name = "v_load"
         low, high = panel.sliders["v_load"].widget.min, panel.sliders["v_load"].widget.max
-        values = [float(v) for v in np.linspace(low, high, changes + 2)[1:-1]]
+        steps = np.linspace(low, high, changes + 2)[1:-1]
+        values = [float(v) for v in steps]
+        warm = [float(v) for v in (steps[:-1] + steps[1:])[:warmup] / 2]  # between the timed steps
     else:
         name = design.topology.resistors[0]
-        values = [float(v) for v in neighbours(design.values[name], series, count=changes // 2 + 1)]
+        values = [float(v) for v in neighbours(design.values[name], series, count=(changes + warmup) // 2 + 2)]
         values = [v for v in values if v != design.values[name]]
+        # The warm-up values from the far ends of the list, each change timed on a value of its own.
+        warm, values = values[:warmup // 2] + values[len(values) - (warmup - warmup // 2):], \
+            values[warmup // 2:len(values) - (warmup - warmup // 2)]
+    for value in warm:
+        panel.update(**{name: value})
     totals, cpus, everything, phases = [], [], [], {phase: [] for phase in PHASES}
     enabled = gc.isenabled()
     for value in values[:changes]:
