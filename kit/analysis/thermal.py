@@ -314,7 +314,7 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE, col
         else:
             # Newton: (I - Theta S) d = Theta P - r; a loop gain of 1 or more on the way up: no steady state.
             if slopes is None:
-                slopes = _power_slopes(model, values | _rise_values(heated, rises), heated, rises, points)
+                slopes = _power_slopes(model, values, heated, rises, points)
             gain = loop_gain(theta, slopes)
             climbing = np.any(target > rises + tolerance, axis=0)
             runaway |= ~settled & climbing & (gain >= 1.0) & points.converged
@@ -330,7 +330,7 @@ def solve_self_heated(model, values, network=None, tolerance=RISE_TOLERANCE, col
     target = np.einsum("nij,jn->in", theta, _powers(points, heated))
     settled = (np.max(np.abs(target - rises), axis=0) < tolerance) & points.converged & ~runaway & ~capped
     if slopes is None:
-        slopes = _power_slopes(model, values | _rise_values(heated, rises), heated, rises, points)
+        slopes = _power_slopes(model, values, heated, rises, points)
     gain = np.where(runaway, np.maximum(gain, 1.0), loop_gain(theta, slopes))
     # A steady state with a loop gain of 1 or more is the unstable one: no stable point here;
     # held at the laws' highest temperature, a loop gain of 1 or more is runaway too.

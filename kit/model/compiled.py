@@ -68,13 +68,6 @@ def _stack(values, shape):
     return out
 
 
-@lru_cache(maxsize=None)
-def _index_pairs(entries):
-    """``(rows, cols)`` index arrays of a tuple of index pairs (each pair appears once)."""
-    rows, cols = zip(*entries)
-    return np.array(rows, dtype=np.intp), np.array(cols, dtype=np.intp)
-
-
 class CompiledModel:
     """Numeric functions of one topology and polarity (see the module docstring)."""
 
@@ -97,16 +90,15 @@ class CompiledModel:
         self.operating_index = {n: j for j, n in enumerate(self.operating_names)}
         self.started = [self.unknowns.index(n) for n in manifest["started"]]
         self.has_valid = manifest["has_valid"]
-        self._pairs = {}
+        # Where each sparse table's entries go: (rows, cols) index arrays (each pair appears once).
+        self._pairs = {key: tuple(np.array(axis, dtype=np.intp) for axis in zip(*manifest[key]))
+                       for key in ("dq_dp", "jacobian_x", "jacobian_q") if manifest.get(key)}
 
-    def _sparse(self, entries, values, shape):
-        """A dense array of ``shape`` with ``values`` (K, N) at the ``entries`` (K index pairs), else 0."""
+    def _sparse(self, key, values, shape):
+        """A dense array of ``shape`` with ``values`` (K, N) at the entries of manifest table ``key``, else 0."""
         out = np.zeros(shape)
-        if len(entries):
-            pairs = self._pairs.get(id(entries))  # the manifest's lists live as long as the model
-            if pairs is None:
-                pairs = self._pairs[id(entries)] = _index_pairs(tuple(map(tuple, entries)))
-            out[pairs] = values  # one assignment: this runs at every Newton step
+        if key in self._pairs:
+            out[self._pairs[key]] = values  # one assignment: this runs at every Newton step
         return out
 
     def params(self, p, part):
@@ -130,7 +122,7 @@ class CompiledModel:
     def dq_dp(self, p):
         """Jacobian of the operating values over the parameters, (M, P, N)."""
         shape = (len(self.operating_names), len(self.parameter_names)) + p.shape[1:]
-        return self._sparse(self.manifest["dq_dp"], _stack(self.module.dq_dp(p), p.shape[1:]), shape)
+        return self._sparse("dq_dp", _stack(self.module.dq_dp(p), p.shape[1:]), shape)
 
     def residuals(self, x, q):
         return _stack(self.module.residuals(x, q), x.shape[1:])
@@ -140,18 +132,18 @@ class CompiledModel:
 
     def jacobian_x(self, x, q):
         n = len(self.unknowns)
-        return self._sparse(self.manifest["jacobian_x"],
+        return self._sparse("jacobian_x",
                             _stack(self.module.jacobian_x(x, q), x.shape[1:]), (n, n) + x.shape[1:])
 
     def newton_terms(self, x, q):
         """``(F (n, N), J_x (n, n, N))`` from one call that shares subexpressions."""
         n = len(self.unknowns)
         values = _stack(self.module.newton_terms(x, q), x.shape[1:])
-        return values[:n], self._sparse(self.manifest["jacobian_x"], values[n:], (n, n) + x.shape[1:])
+        return values[:n], self._sparse("jacobian_x", values[n:], (n, n) + x.shape[1:])
 
     def jacobian_q(self, x, q):
         shape = (len(self.unknowns), len(self.operating_names)) + x.shape[1:]
-        return self._sparse(self.manifest["jacobian_q"],
+        return self._sparse("jacobian_q",
                             _stack(self.module.jacobian_q(x, q), x.shape[1:]), shape)
 
     def output(self, x, q):
