@@ -125,7 +125,8 @@ def draw(sheet, d):
     end = j1.source
     getattr(elm.Line().at(end), toward_rail)(drawing.LEAD * 0.5)
     node = elm.Dot()
-    resistor = getattr(elm.Resistor(), toward_rail)().label(sheet.label("r_s", "R_S"), loc="bottom")
+    # Set off from the zigzag: the default offset lets the value touch its peaks.
+    resistor = getattr(elm.Resistor(), toward_rail)().label(sheet.label("r_s", "R_S"), loc="bottom", ofst=0.3)
     rail_end = resistor.end
     if sink:
         elm.Ground()
