@@ -534,3 +534,29 @@ def test_tempco_bars_list_matched_parts_in_schematic_order():
     panel = DesignPanel(kit.design("cascode_mirror", i_ref="200u", v_supply="12 V", v_load="1.6 V"))
     grouped = [n for n in panel.sources["tempco"].data["name"] if "," in n]
     assert grouped and all("(Q1, Q2, Q3, Q4)" in n for n in grouped), grouped
+
+
+@pytest.mark.parametrize("key", ["divider_source", "mos_mirror", "wilson_mirror"])
+def test_one_plot_alone_equals_its_part_of_all_plots(key):
+    # The panel makes only the open tab's plot on a change (the others when opened): each
+    # point of the batched sweep solves on its own, so a view made alone must be exactly
+    # its part of the whole (internal consistency, no outside source).
+    from kit.panels.curves import VIEW_SOURCES, VIEWS, Settings, plot_data
+
+    design = kit.design(key)
+    evaluation = kit.evaluate(design)
+    whole = plot_data(design, evaluation, settings=Settings(points=40))
+    for view in VIEWS:
+        alone = plot_data(design, evaluation, settings=Settings(points=40), views=[view])
+        assert set(alone.columns) == set(VIEW_SOURCES[view])
+        assert alone.labels.get(view) == whole.labels.get(view)
+        for name, columns in alone.columns.items():
+            assert columns.keys() == whole.columns[name].keys()
+            for column, value in columns.items():
+                expected = whole.columns[name][column]
+                if isinstance(value, list) and value and isinstance(value[0], np.ndarray):
+                    assert all(np.array_equal(a, b, equal_nan=True) for a, b in zip(value, expected))
+                elif isinstance(value, np.ndarray):
+                    assert np.array_equal(value, expected, equal_nan=True), (view, name, column)
+                else:
+                    assert value == expected, (view, name, column)
