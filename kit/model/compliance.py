@@ -210,6 +210,7 @@ def _refine_edges(model, values, edge, scan, ends):
     """
     grid, worst, keys, points = scan.grid, scan.worst, scan.keys, scan.points
     edges, active = [None] * len(ends), []
+    by_key = _MarginsByKey(scan.margin_keys, scan.table)
     for k, (index, direction) in enumerate(ends):
         outside = index + direction
         if outside < 0 or outside >= len(grid):
@@ -217,7 +218,6 @@ def _refine_edges(model, values, edge, scan, ends):
             continue
         near = [j for j in (index - 2 * direction, index - direction, index, outside, outside + direction)
                 if 0 <= j < len(grid)]
-        by_key = _MarginsByKey(scan.margin_keys, scan.table)
         active.append(_Bracket(k, direction, [(grid[j], worst[j], keys[j], by_key.at(j)) for j in near]))
     done = []
     for _ in range(60):

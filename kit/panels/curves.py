@@ -231,9 +231,9 @@ def plot_data(design, evaluation, spec=None, settings=Settings(), views=VIEWS):
     points = sweep(design, "v_load", v_column, **overrides) if blocks else None
     columns, labels, factors = {}, {}, {}
     if "load" in views:
-        _load_columns(columns, labels, design, evaluation, points, at["load"], v_axis, scale)
+        _load_columns(columns, labels, design, params, evaluation, points, at["load"], v_axis, scale)
     if "beta" in views:
-        _beta_columns(columns, labels, design, evaluation, points, at.get("beta"), shown, varied,
+        _beta_columns(columns, labels, design, params, evaluation, points, at.get("beta"), shown, varied,
                       (b_axis, b_spec) if shown else None, scale)
     if "temp" in views:
         _temp_columns(columns, labels, design, evaluation, points, at["temp"], t_axis, (t_low, t_high, t_spec),
@@ -248,9 +248,8 @@ def plot_data(design, evaluation, spec=None, settings=Settings(), views=VIEWS):
     return PlotData(columns, labels, factors, scale)
 
 
-def _load_columns(columns, labels, design, evaluation, points, load, v_axis, scale):
+def _load_columns(columns, labels, design, params, evaluation, points, load, v_axis, scale):
     """1. load voltage, with every closed form of the ledger."""
-    params = design.parameters()
     factor, unit = scale
     i_load = _exact(points, load)
     forms = points.model.closed_forms(points.q)
@@ -290,9 +289,8 @@ def _load_columns(columns, labels, design, evaluation, points, load, v_axis, sca
                       "x": "load voltage V_load (V)", "y": f"I_out ({unit})"}
 
 
-def _beta_columns(columns, labels, design, evaluation, points, block, shown, varied, axis, scale):
+def _beta_columns(columns, labels, design, params, evaluation, points, block, shown, varied, axis, scale):
     """2. forward gain (empty without a bipolar transistor)."""
-    params = design.parameters()
     factor, unit = scale
     if shown:
         b_axis, b_spec = axis

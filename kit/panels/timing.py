@@ -71,8 +71,8 @@ def measure_update(topology="divider_source", polarity="npn", changes=20, points
         values = [float(v) for v in neighbours(design.values[name], series, count=(changes + warmup) // 2 + 2)]
         values = [v for v in values if v != design.values[name]]
         # The warm-up values from the far ends of the list, each change timed on a value of its own.
-        warm, values = values[:warmup // 2] + values[len(values) - (warmup - warmup // 2):], \
-            values[warmup // 2:len(values) - (warmup - warmup // 2)]
+        head, tail = warmup // 2, len(values) - (warmup - warmup // 2)
+        warm, values = values[:head] + values[tail:], values[head:tail]
     for value in warm:
         panel.update(**{name: value})
     totals, cpus, everything, phases = [], [], [], {phase: [] for phase in PHASES}
